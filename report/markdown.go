@@ -1,0 +1,84 @@
+package report
+
+import (
+	"fmt"
+	"io"
+	"strings"
+
+	"tandem/compare"
+)
+
+// Markdown writes the verdict, a criteria table and a per-bin table for
+// each comparison, ready to paste into a meeting page or a merge request.
+func Markdown(w io.Writer, s *compare.Summary, st Style) error {
+	ew := &errWriter{w: w}
+	word := "agree"
+	if !s.Pass() {
+		word = "**disagree**"
+	}
+	title := s.Title
+	if title == "" {
+		title = "Cross-check"
+	}
+	fmt.Fprintf(ew, "## %s: %s\n\n", mdEscape(title), word)
+	for _, n := range s.Notes {
+		fmt.Fprintf(ew, "- %s\n", mdEscape(n))
+	}
+	if len(s.Notes) > 0 {
+		fmt.Fprintln(ew)
+	}
+	fmt.Fprintln(ew, "| comparison | verdict | χ²/ndf | p-value | max \\|pull\\| |")
+	fmt.Fprintln(ew, "| --- | --- | ---: | ---: | ---: |")
+	for _, e := range ordered(s) {
+		fmt.Fprintf(ew, "| %s | %s | %s/%d | %s | %s |\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass),
+			num(e.Chi2), e.NDF, pval(e.PValue), num(e.MaxAbsPull))
+	}
+	for _, e := range ordered(s) {
+		fmt.Fprintf(ew, "\n### %s: %s\n\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass))
+		if e.Blinded {
+			fmt.Fprint(ew, "Values are blinded.\n\n")
+		}
+		fmt.Fprintln(ew, "| criterion | value | limit | result |")
+		fmt.Fprintln(ew, "| --- | ---: | ---: | --- |")
+		for _, c := range e.Criteria {
+			res := "pass"
+			if !c.Pass {
+				res = "**FAIL**: " + mdEscape(c.Detail)
+			}
+			fmt.Fprintf(ew, "| %s | %s | %s %s | %s |\n", mdEscape(c.Name), num(c.Value), mdEscape(c.Op), num(c.Limit), res)
+		}
+		fmt.Fprintf(ew, "\nPulls: mean %s ± %s, width %s ± %s; KS D = %s (p = %s); %d runs (p = %s).\n",
+			num(e.PullMean), num(e.PullMeanErr), num(e.PullWidth), num(e.PullWidthEr),
+			num(e.KSStat), pval(e.KSP), e.Runs, pval(e.RunsP))
+		for _, wn := range e.Warnings {
+			fmt.Fprintf(ew, "\n> warning: %s\n", mdEscape(wn))
+		}
+		idx, cut := rows(e.Result, st)
+		if cut {
+			fmt.Fprintf(ew, "\nThe %d bins with the largest |pull| of %d:\n", len(idx), e.Bins)
+		}
+		a, b := "a", "b"
+		if e.Teams[0] != "" {
+			a, b = mdEscape(e.Teams[0]), mdEscape(e.Teams[1])
+		}
+		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | diff | σ_diff | pull |\n", a, b)
+		fmt.Fprintln(ew, "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
+		for _, i := range idx {
+			fmt.Fprintf(ew, "| %d | %s | %s | %s | %s | %s | %s | %s | %s | %s |\n", i+1,
+				val(e.Lo[i]), val(e.Hi[i]), val(e.A[i]), val(e.ErrA[i]), val(e.B[i]), val(e.ErrB[i]),
+				val(e.Diff[i]), val(e.SigmaDiff[i]), num(e.Pulls[i]))
+		}
+	}
+	return ew.err
+}
+
+func mdVerdict(pass bool) string {
+	if pass {
+		return "pass"
+	}
+	return "**fail**"
+}
+
+var mdReplacer = strings.NewReplacer("|", "\\|", "<", "&lt;", ">", "&gt;", "*", "\\*", "_", "\\_", "`", "\\`", "\n", " ")
+
+func mdEscape(s string) string { return mdReplacer.Replace(s) }

@@ -1,0 +1,128 @@
+// Package report renders comparison summaries for people and machines:
+// plain text for terminals, JSON for scripts, Markdown for meeting pages,
+// JUnit XML for CI systems and self-contained HTML with figures for review
+// meetings. Renderers write to an io.Writer and never touch files; the
+// command line writes their output atomically.
+package report
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+
+	"tandem/compare"
+)
+
+// Formats lists the output formats by name, in the order `report` writes them.
+var Formats = []string{"text", "json", "markdown", "junit", "html"}
+
+// Extension returns the file-name extension of a format.
+func Extension(format string) string {
+	switch format {
+	case "markdown":
+		return ".md"
+	case "junit":
+		return ".junit.xml"
+	case "text":
+		return ".txt"
+	}
+	return "." + format
+}
+
+// Style controls human output.
+type Style struct {
+	// Color enables ANSI colour in text output.
+	Color bool
+	// MaxRows limits the per-bin rows of text and Markdown tables; beyond it
+	// the worst bins by |pull| are shown. 0 means 200.
+	MaxRows int
+}
+
+// Render writes s in the named format.
+func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
+	switch format {
+	case "text", "":
+		return Text(w, s, st)
+	case "json":
+		return JSON(w, s)
+	case "markdown":
+		return Markdown(w, s, st)
+	case "junit":
+		return JUnit(w, s)
+	case "html":
+		return HTML(w, s)
+	}
+	return fmt.Errorf("unknown format %q (want text, json, markdown, junit or html)", format)
+}
+
+// num formats a statistic for people: four significant digits.
+func num(v float64) string {
+	switch {
+	case math.IsNaN(v):
+		return "n/a"
+	case v == 0:
+		return "0"
+	case math.Abs(v) < 1e-4 || math.Abs(v) >= 1e6:
+		return strconv.FormatFloat(v, 'e', 3, 64)
+	}
+	return strconv.FormatFloat(v, 'g', 4, 64)
+}
+
+// pval formats a p-value.
+func pval(p float64) string {
+	if p < 1e-4 && p > 0 {
+		return strconv.FormatFloat(p, 'e', 2, 64)
+	}
+	return strconv.FormatFloat(p, 'f', 4, 64)
+}
+
+// val formats a table value exactly enough to read: six significant digits.
+func val(v float64) string { return strconv.FormatFloat(v, 'g', 6, 64) }
+
+// rows picks the bins a human table shows: all of them up to the limit,
+// else the worst by |pull| in bin order, and whether rows were left out.
+func rows(r *compare.Result, st Style) ([]int, bool) {
+	limit := st.MaxRows
+	if limit <= 0 {
+		limit = 200
+	}
+	idx := make([]int, r.Bins)
+	for i := range idx {
+		idx[i] = i
+	}
+	if r.Bins <= limit {
+		return idx, false
+	}
+	// partial selection of the worst |pull|
+	worst := make([]int, 0, limit)
+	for _, i := range idx {
+		worst = append(worst, i)
+		if len(worst) > limit {
+			k := 0
+			for j := range worst {
+				if math.Abs(r.Pulls[worst[j]]) < math.Abs(r.Pulls[worst[k]]) {
+					k = j
+				}
+			}
+			worst = append(worst[:k], worst[k+1:]...)
+		}
+	}
+	return worst, true
+}
+
+// criterionLine is a criterion in words, e.g. "chi2 p-value 0.31 >= 0.01".
+func criterionLine(c compare.Criterion) string {
+	return fmt.Sprintf("%s = %s (limit %s %s)", c.Name, num(c.Value), c.Op, num(c.Limit))
+}
+
+func entryTitle(e compare.Entry) string {
+	t := e.Observable
+	if e.Column != "" && e.Column != e.Observable {
+		t += " / " + e.Column
+	}
+	if e.Teams[0] != "" {
+		t += fmt.Sprintf(" (%s vs %s)", e.Teams[0], e.Teams[1])
+	}
+	return t
+}
