@@ -16,7 +16,9 @@
 package table
 
 import (
+	"bufio"
 	"fmt"
+	"io"
 	"math"
 	"slices"
 	"strconv"
@@ -171,4 +173,39 @@ func SameEdges(a, b *Table, tol float64) error {
 		}
 	}
 	return nil
+}
+
+// WriteCSV writes the table as CSV: the header, then one row per bin, with
+// every number in the shortest form that parses back exactly ([Format]).
+// This is the canonical encoding that commitments and digests cover.
+func (t *Table) WriteCSV(w io.Writer) error {
+	bw := bufio.NewWriterSize(w, 1<<16)
+	bw.WriteString(t.LoName)
+	bw.WriteByte(',')
+	bw.WriteString(t.HiName)
+	for _, n := range t.Names {
+		bw.WriteByte(',')
+		bw.WriteString(n)
+	}
+	bw.WriteByte('\n')
+	var buf []byte
+	for i := range t.Lo {
+		buf = appendNum(buf[:0], t.Lo[i])
+		buf = append(buf, ',')
+		buf = appendNum(buf, t.Hi[i])
+		for _, c := range t.Cols {
+			buf = append(buf, ',')
+			buf = appendNum(buf, c[i])
+		}
+		buf = append(buf, '\n')
+		bw.Write(buf)
+	}
+	return bw.Flush()
+}
+
+func appendNum(b []byte, v float64) []byte {
+	if v == 0 {
+		return append(b, '0')
+	}
+	return strconv.AppendFloat(b, v, 'g', -1, 64)
 }
