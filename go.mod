@@ -4,6 +4,7 @@ go 1.26.8
 
 require (
 	filippo.io/age v1.3.2 // indirect
+	filippo.io/edwards25519 v1.2.0 // indirect
 	filippo.io/hpke v0.4.0 // indirect
 	github.com/BurntSushi/toml v1.6.0 // indirect
 	github.com/google/go-cmp v0.7.0 // indirect

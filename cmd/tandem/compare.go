@@ -137,7 +137,7 @@ func runCompare(e *env, args []string) error {
 	}
 	switch {
 	case len(pos) == 1 && isDir(pos[0]):
-		return usageErr("campaign folders are not supported yet")
+		return compareCampaign(e, pos[0], &cf)
 	case len(pos) != 2:
 		return withHint(usageErr("compare wants two tables (or one campaign folder), got %d arguments", len(pos)),
 			"tandem compare A.csv B.csv")

@@ -112,7 +112,15 @@ type command struct {
 func commands() []command {
 	return []command{
 		{"compare", runCompare},
-		// CAMPAIGN-COMMANDS
+		{"init", runInit},
+		{"seal", runSeal},
+		{"blind", runBlind},
+		{"status", runStatus},
+		{"sign", runSign},
+		{"unblind", runUnblind},
+		{"verify", runVerify},
+		{"report", runReport},
+		{"demo", runDemo},
 	}
 }
 

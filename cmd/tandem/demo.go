@@ -1,0 +1,60 @@
+package main
+
+import (
+	"fmt"
+	"path/filepath"
+	"strings"
+
+	"tandem/blind"
+	"tandem/blind/demo"
+	"tandem/report"
+)
+
+const demoHelp = `Usage:
+    tandem demo DIR [--stop-before STEP]
+
+Builds a complete campaign in DIR on invented demo data (a fictional
+underground lab's muon telescope; two teams, a reviewer, a custodian, keys
+in DIR/keys) and runs every step through unblinding and verification.
+--stop-before leaves the campaign ready for STEP by hand; steps:
+    init, seal, blind, compare, sign, unblind, verify
+`
+
+func runDemo(e *env, args []string) error {
+	fs := newFlags(e, "demo", demoHelp)
+	var stop string
+	fs.StringVar(&stop, "stop-before", "", "stop before `STEP`")
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	dir, err := oneDir(pos, "demo")
+	if err != nil {
+		return err
+	}
+	if stop != "" && !contains(demo.Steps, stop) {
+		return usageErr("--stop-before %q is not a step (%s)", stop, strings.Join(demo.Steps, ", "))
+	}
+	err = demo.Build(dir, demo.Options{
+		StopBefore: stop,
+		Log:        func(f string, a ...any) { fmt.Fprintf(e.stdout, f+"\n", a...) },
+		Reports: func(c *blind.Campaign, stage string) error {
+			if stage == "unblind" {
+				return finalReports(c)
+			}
+			s, _, err := c.Compare(blind.Blinded)
+			if err != nil {
+				return err
+			}
+			addNotes(c, s)
+			return writeReports(c, s, report.Formats, "campaign")
+		},
+	})
+	if err != nil {
+		return campaignErr(err)
+	}
+	rep := filepath.Join(dir, "reports")
+	fmt.Fprintf(e.stdout, "\nreports: %s (campaign.* blinded, final.* after unblinding; open final.html in a browser)\n", rep)
+	fmt.Fprintf(e.stdout, "try: tandem status %s, tandem verify %s\n", dir, dir)
+	return nil
+}
