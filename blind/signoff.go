@@ -432,9 +432,6 @@ func ReadSigner(path string) (ssh.Signer, error) {
 	return s, nil
 }
 
-
-
-
 // SignStatement makes the armored SSHSIG signature of a statement.
 func SignStatement(signer ssh.Signer, st *Statement) ([]byte, error) {
 	return sshsig.Sign(signer, Namespace, st.Encode())

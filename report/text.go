@@ -157,4 +157,3 @@ func (e *errWriter) Write(p []byte) (int, error) {
 	e.err = err
 	return n, nil
 }
-
