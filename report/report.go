@@ -15,7 +15,7 @@ import (
 )
 
 // Formats lists the output formats by name, in the order `report` writes them.
-var Formats = []string{"text", "json", "markdown", "junit"}
+var Formats = []string{"text", "json", "markdown", "junit", "html"}
 
 // Extension returns the file-name extension of a format.
 func Extension(format string) string {

@@ -311,16 +311,30 @@ func addNotes(c *blind.Campaign, s *compare.Summary) {
 	s.Notes = append(s.Notes, fmt.Sprintf("campaign %s is %s; %d ledger entries", c.Protocol.Campaign, state, len(c.Ledger)))
 	status, _ := c.CheckSignoffs()
 	var signed []string
+	reasons := map[string][]string{}
+	var order []string
+	digests := map[string]bool{}
 	for _, st := range status {
-		if st.Valid {
-			signed = append(signed, st.Party)
-			if st.Statement.Accepted != "" {
-				s.Notes = append(s.Notes, fmt.Sprintf("%s accepted the disagreement: %s", st.Party, st.Statement.Accepted))
-			}
+		if !st.Valid {
+			continue
 		}
+		signed = append(signed, st.Party)
+		digests[st.Statement.Comparison] = true
+		if r := st.Statement.Accepted; r != "" {
+			if reasons[r] == nil {
+				order = append(order, r)
+			}
+			reasons[r] = append(reasons[r], st.Party)
+		}
+	}
+	for _, r := range order {
+		s.Notes = append(s.Notes, fmt.Sprintf("disagreement accepted by %s: %s", strings.Join(reasons[r], ", "), r))
 	}
 	if len(signed) > 0 {
 		s.Notes = append(s.Notes, "signed off by "+strings.Join(signed, ", "))
+		for d := range digests {
+			s.Notes = append(s.Notes, "signed comparison digest "+d)
+		}
 	} else {
 		s.Notes = append(s.Notes, "no valid sign-offs yet")
 	}
