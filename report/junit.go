@@ -30,13 +30,18 @@ type junitCase struct {
 	Name      string        `xml:"name,attr"`
 	Classname string        `xml:"classname,attr"`
 	Failure   *junitFailure `xml:"failure,omitempty"`
-	SystemOut string        `xml:"system-out,omitempty"`
+	SystemOut *junitText    `xml:"system-out,omitempty"`
 }
 
 type junitFailure struct {
 	Message string `xml:"message,attr"`
 	Type    string `xml:"type,attr"`
-	Text    string `xml:",chardata"`
+	Text    string `xml:",cdata"`
+}
+
+// junitText keeps line breaks readable in the XML.
+type junitText struct {
+	Text string `xml:",cdata"`
 }
 
 // JUnit writes one test suite per observable with one test case per
@@ -65,7 +70,7 @@ func JUnit(w io.Writer, s *compare.Summary) error {
 		for _, cr := range e.Criteria {
 			crit = append(crit, criterionLine(cr))
 		}
-		c.SystemOut = strings.Join(crit, "\n")
+		c.SystemOut = &junitText{Text: strings.Join(crit, "\n")}
 		if !e.Pass {
 			f := e.Failures()
 			c.Failure = &junitFailure{Message: f[0], Type: "disagreement", Text: strings.Join(f, "\n")}

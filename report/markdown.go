@@ -45,7 +45,7 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 			if !c.Pass {
 				res = "**FAIL**: " + mdEscape(c.Detail)
 			}
-			fmt.Fprintf(ew, "| %s | %s | %s %s | %s |\n", mdEscape(c.Name), num(c.Value), mdEscape(c.Op), num(c.Limit), res)
+			fmt.Fprintf(ew, "| %s | %s | %s %s | %s |\n", mdEscape(c.Name), num(c.Value), c.Op, num(c.Limit), res)
 		}
 		fmt.Fprintf(ew, "\nPulls: mean %s ± %s, width %s ± %s; KS D = %s (p = %s); %d runs (p = %s).\n",
 			num(e.PullMean), num(e.PullMeanErr), num(e.PullWidth), num(e.PullWidthEr),
