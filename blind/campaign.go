@@ -82,7 +82,8 @@ func Open(dir string) (*Campaign, error) {
 		return nil, table.Errorf(lp, 0, 0, "%v", unwrapPath(err))
 	default:
 		if c.Ledger, err = ParseLedger(lp, ld); err != nil {
-			return nil, err
+			// A damaged ledger is a failed integrity check, not bad input.
+			return nil, &RefusedError{Step: "open", Problems: []string{err.Error()}}
 		}
 	}
 	return c, nil

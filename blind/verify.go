@@ -2,6 +2,7 @@ package blind
 
 import (
 	"bytes"
+	"errors"
 	"encoding/hex"
 	"fmt"
 	"io/fs"
@@ -92,7 +93,12 @@ func Verify(dir string) *Report {
 	r := &Report{}
 	c, err := Open(dir)
 	if err != nil {
-		r.Problems = append(r.Problems, err.Error())
+		var re *RefusedError
+		if errors.As(err, &re) {
+			r.Problems = append(r.Problems, re.Problems...)
+		} else {
+			r.Problems = append(r.Problems, err.Error())
+		}
 		return r
 	}
 	if !c.Started() {

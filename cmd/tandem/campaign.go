@@ -52,6 +52,9 @@ func oneDir(pos []string, cmd string) (string, error) {
 
 func openCampaign(dir string) (*blind.Campaign, error) {
 	c, err := blind.Open(dir)
+	if errors.Is(err, blind.ErrRefused) {
+		return nil, campaignErr(err)
+	}
 	if err != nil {
 		if _, statErr := os.Stat(filepath.Join(dir, blind.ProtocolFile)); os.IsNotExist(statErr) {
 			return nil, withHint(inputErr(err), "run \"tandem init "+dir+"\" to write a starting protocol")

@@ -1,0 +1,57 @@
+package main
+
+import (
+	"os"
+	"os/exec"
+	"strings"
+	"testing"
+
+	"github.com/rogpeppe/go-internal/testscript"
+)
+
+func TestMain(m *testing.M) {
+	testscript.Main(m, map[string]func(){
+		"tandem": func() { os.Exit(run(os.Args[1:], os.Stdin, os.Stdout, os.Stderr)) },
+	})
+}
+
+// TestScripts runs the workflow scripts in testdata/script: each is a
+// txtar archive of commands and the files they use.
+func TestScripts(t *testing.T) {
+	testscript.Run(t, testscript.Params{
+		Dir: "testdata/script",
+		Setup: func(env *testscript.Env) error {
+			env.Setenv("NO_COLOR", "1")
+			env.Setenv("TANDEM_ACTOR", "script")
+			return nil
+		},
+		Cmds: map[string]func(ts *testscript.TestScript, neg bool, args []string){
+			// exits N CMD ARGS... runs a command and checks its exit status
+			// (0 success, 1 disagreement or refusal, 2 bad usage or input).
+			"exits": func(ts *testscript.TestScript, neg bool, args []string) {
+				if neg || len(args) < 2 {
+					ts.Fatalf("usage: exits N command [args...]")
+				}
+				quoted := make([]string, len(args)-1)
+				for i, a := range args[1:] {
+					quoted[i] = "'" + strings.ReplaceAll(a, "'", `'\''`) + "'"
+				}
+				err := ts.Exec("sh", "-c", strings.Join(quoted, " ")+`; echo "[exit $?]" >&2`)
+				if err != nil {
+					ts.Fatalf("%v", err)
+				}
+				if got := ts.ReadFile("stderr"); !strings.Contains(got, "[exit "+args[0]+"]") {
+					ts.Fatalf("want exit status %s", args[0])
+				}
+			},
+		},
+		Condition: func(cond string) (bool, error) {
+			// [tool:NAME] holds when NAME is on PATH.
+			if len(cond) > 5 && cond[:5] == "tool:" {
+				_, err := exec.LookPath(cond[5:])
+				return err == nil, nil
+			}
+			return false, nil
+		},
+	})
+}
