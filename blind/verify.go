@@ -2,8 +2,8 @@ package blind
 
 import (
 	"bytes"
-	"errors"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"io/fs"
 	"os"
