@@ -82,11 +82,17 @@ func parseKey(data []byte) (*Key, error) {
 // HKDF-SHA256 (RFC 5869): 8 bytes of output keying material, of which the
 // top 53 bits become the fraction.
 func (k *Key) uniform(info string) float64 {
-	okm, err := hkdf.Key(sha256.New, k.b[:], nil, info, 8)
+	return float64(binary.BigEndian.Uint64(derive(k.b[:], info, 8))>>11) / (1 << 53)
+}
+
+// derive is HKDF-SHA256 with an empty salt (RFC 5869: a string of HashLen
+// zeros), as every blinding parameter uses it.
+func derive(ikm []byte, info string, n int) []byte {
+	okm, err := hkdf.Key(sha256.New, ikm, nil, info, n)
 	if err != nil {
 		panic("blind: hkdf: " + err.Error()) // only for lengths > 255·32
 	}
-	return float64(binary.BigEndian.Uint64(okm)>>11) / (1 << 53)
+	return okm
 }
 
 // Info returns the HKDF info string for one blinding parameter:
