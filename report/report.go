@@ -6,9 +6,11 @@
 package report
 
 import (
+	"container/heap"
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strconv"
 
 	"tandem/compare"
@@ -94,21 +96,35 @@ func rows(r *compare.Result, st Style) ([]int, bool) {
 	if r.Bins <= limit {
 		return idx, false
 	}
-	// partial selection of the worst |pull|
-	worst := make([]int, 0, limit)
+	// keep the worst |pull| in a min-heap of size limit: O(n log limit)
+	h := &pullHeap{pulls: r.Pulls}
 	for _, i := range idx {
-		worst = append(worst, i)
-		if len(worst) > limit {
-			k := 0
-			for j := range worst {
-				if math.Abs(r.Pulls[worst[j]]) < math.Abs(r.Pulls[worst[k]]) {
-					k = j
-				}
-			}
-			worst = append(worst[:k], worst[k+1:]...)
+		if h.Len() < limit {
+			heap.Push(h, i)
+		} else if math.Abs(r.Pulls[i]) > math.Abs(r.Pulls[h.idx[0]]) {
+			h.idx[0] = i
+			heap.Fix(h, 0)
 		}
 	}
+	worst := h.idx
+	slices.Sort(worst)
 	return worst, true
+}
+
+// pullHeap is a min-heap of bin indices ordered by |pull|.
+type pullHeap struct {
+	pulls []float64
+	idx   []int
+}
+
+func (h *pullHeap) Len() int           { return len(h.idx) }
+func (h *pullHeap) Less(i, j int) bool { return math.Abs(h.pulls[h.idx[i]]) < math.Abs(h.pulls[h.idx[j]]) }
+func (h *pullHeap) Swap(i, j int)      { h.idx[i], h.idx[j] = h.idx[j], h.idx[i] }
+func (h *pullHeap) Push(x any)         { h.idx = append(h.idx, x.(int)) }
+func (h *pullHeap) Pop() any {
+	x := h.idx[len(h.idx)-1]
+	h.idx = h.idx[:len(h.idx)-1]
+	return x
 }
 
 // criterionLine is a criterion in words, e.g. "chi2 p-value 0.31 >= 0.01".

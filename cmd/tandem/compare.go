@@ -152,14 +152,11 @@ func runCompare(e *env, args []string) error {
 		return err
 	}
 	opt := table.CSVOptions{Lo: lo, Hi: hi}
-	a, err := table.ReadFile(pos[0], opt)
+	ts, err := table.ReadFiles(opt, pos[0], pos[1])
 	if err != nil {
 		return inputErr(err)
 	}
-	b, err := table.ReadFile(pos[1], opt)
-	if err != nil {
-		return inputErr(err)
-	}
+	a, b := ts[0], ts[1]
 	var sels []compare.Selection
 	if len(cf.values) == 0 {
 		sels = table.DefaultSelections(a)

@@ -53,18 +53,25 @@ func RunsPValue(n1, n2, r int) float64 {
 		return 0
 	}
 	logTotal := logChoose(n1+n2, n1)
-	// Sum the smaller tail directly for accuracy, then complement if needed.
-	p := 0.0
-	if 2*r <= maxR+2 {
-		for x := 2; x <= r; x++ {
-			p += math.Exp(logRunsProb(n1, n2, x) - logTotal)
+	// The distribution of R is unimodal around its mean 2·n1·n2/N + 1. Sum
+	// the tail that does not contain the mode, walking away from r, and
+	// stop once terms no longer change the sum; complement if needed.
+	mean := 2*float64(n1)*float64(n2)/float64(n1+n2) + 1
+	tail := func(from, to, step int) float64 {
+		p := 0.0
+		for x := from; x != to+step; x += step {
+			t := math.Exp(logRunsProb(n1, n2, x) - logTotal)
+			p += t
+			if (t < 1e-18*p || t == 0) && math.Abs(float64(x)-mean) > 2 {
+				break
+			}
 		}
-		return clamp01(p)
+		return p
 	}
-	for x := r + 1; x <= maxR; x++ {
-		p += math.Exp(logRunsProb(n1, n2, x) - logTotal)
+	if float64(r) <= mean {
+		return clamp01(tail(r, 2, -1))
 	}
-	return clamp01(1 - p)
+	return clamp01(1 - tail(r+1, maxR, 1))
 }
 
 // logRunsProb is log of the number of arrangements with exactly r runs.

@@ -6,6 +6,7 @@ import (
 	"os"
 	"strconv"
 	"strings"
+	"sync"
 	"unicode/utf8"
 	"unsafe"
 )
@@ -76,6 +77,10 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 		return nil, Errorf(name, line, 0, "binary data (NUL byte); expected a CSV or TSV table")
 	}
 	t := &Table{Source: name, LoName: opt.Lo, HiName: opt.Hi}
+	// Check UTF-8 once for the whole input; only on failure look for the line.
+	allValid := utf8.Valid(data)
+	// Size the columns once: at most one bin per line.
+	rowsHint := bytes.Count(data, []byte{'\n'}) + 1
 	var (
 		header  []string
 		colIdx  []int // field index -> destination column (-1 lo, -2 hi, >=0 Cols)
@@ -93,8 +98,10 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 		} else {
 			line, rest = rest, nil
 		}
-		line = bytes.TrimSuffix(line, []byte{'\r'})
-		if !utf8.Valid(line) {
+		if n := len(line); n > 0 && line[n-1] == '\r' {
+			line = line[:n-1]
+		}
+		if !allValid && !utf8.Valid(line) {
 			col := 1
 			for col <= len(line) {
 				r, size := utf8.DecodeRune(line[col-1:])
@@ -105,8 +112,11 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 			}
 			return nil, Errorf(name, lineNo, col, "invalid UTF-8; expected a text table")
 		}
-		trimmed := bytes.TrimLeft(line, " \t")
-		if len(trimmed) == 0 || trimmed[0] == '#' {
+		lead := 0
+		for lead < len(line) && (line[lead] == ' ' || line[lead] == '\t') {
+			lead++
+		}
+		if lead == len(line) || line[lead] == '#' {
 			continue
 		}
 		if header == nil {
@@ -122,20 +132,37 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 			if err != nil {
 				return nil, err
 			}
+			t.Lo, t.Hi = make([]float64, 0, rowsHint), make([]float64, 0, rowsHint)
+			t.Lines = make([]int, 0, rowsHint)
+			for k := range t.Cols {
+				t.Cols[k] = make([]float64, 0, rowsHint)
+			}
 			continue
 		}
-		fields, fstarts = split(line, delim, fields[:0], fstarts[:0])
-		if len(fields) != len(header) {
-			col := len(line) + 1
-			if len(fields) > len(header) {
-				col = fstarts[len(header)] + 1
+		// One pass over the row: find each field, trim it, parse it.
+		k, pos := 0, 0
+		for {
+			start := pos
+			for start < len(line) && (line[start] == ' ' || line[start] == '\t') && line[start] != delim {
+				start++
 			}
-			return nil, Errorf(name, lineNo, col, "row has %d fields, header has %d", len(fields), len(header))
-		}
-		for k, f := range fields {
-			v, err := parseNumber(f)
-			if err != "" {
-				return nil, Errorf(name, lineNo, fstarts[k]+1, "column %q: %s", header[k], err)
+			end := start
+			for end < len(line) && line[end] != delim {
+				end++
+			}
+			stop := end
+			for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
+				stop--
+			}
+			if k >= len(header) {
+				return nil, raggedErr(name, lineNo, line, delim, len(header))
+			}
+			v, msg := parseNumber(line[start:stop])
+			if msg != "" {
+				if n := 1 + bytes.Count(line, []byte{delim}); n != len(header) {
+					return nil, raggedErr(name, lineNo, line, delim, len(header))
+				}
+				return nil, Errorf(name, lineNo, start+1, "column %q: %s", header[k], msg)
 			}
 			switch d := colIdx[k]; d {
 			case -1:
@@ -145,6 +172,14 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 			default:
 				t.Cols[d] = append(t.Cols[d], v)
 			}
+			k++
+			if end >= len(line) {
+				break
+			}
+			pos = end + 1
+		}
+		if k != len(header) {
+			return nil, raggedErr(name, lineNo, line, delim, len(header))
 		}
 		t.Lines = append(t.Lines, lineNo)
 	}
@@ -154,7 +189,8 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 	if len(t.Lo) == 0 {
 		return nil, Errorf(name, 0, 0, "table has a header but no bins")
 	}
-	if err := t.Validate(); err != nil {
+	// Every number was checked finite as it was parsed; check the bins.
+	if err := t.validateBins(); err != nil {
 		return nil, err
 	}
 	return t, nil
@@ -193,32 +229,108 @@ func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int
 	return header, idx, nil
 }
 
+// raggedErr reports a row with the wrong number of fields, pointing at the
+// first extra field or at the end of a short row.
+func raggedErr(name string, lineNo int, line []byte, delim byte, want int) error {
+	fields, starts := split(line, delim, nil, nil)
+	col := len(line) + 1
+	if len(fields) > want {
+		col = starts[want] + 1
+	}
+	return Errorf(name, lineNo, col, "row has %d fields, header has %d", len(fields), want)
+}
+
 // split cuts line at delim, trimming blanks, and records where each field
 // starts (0-based byte offset of its first non-blank byte).
 func split(line []byte, delim byte, fields [][]byte, starts []int) ([][]byte, []int) {
 	pos := 0
 	for {
-		end := bytes.IndexByte(line[pos:], delim)
-		var f []byte
-		if end < 0 {
-			f = line[pos:]
-		} else {
-			f = line[pos : pos+end]
+		start := pos
+		for start < len(line) && (line[start] == ' ' || line[start] == '\t') && line[start] != delim {
+			start++
 		}
-		lead := len(f) - len(bytes.TrimLeft(f, " \t"))
-		fields = append(fields, bytes.TrimRight(f[lead:], " \t"))
-		starts = append(starts, pos+lead)
-		if end < 0 {
+		end := start
+		for end < len(line) && line[end] != delim {
+			end++
+		}
+		stop := end
+		for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
+			stop--
+		}
+		fields = append(fields, line[start:stop])
+		starts = append(starts, start)
+		if end >= len(line) {
 			return fields, starts
 		}
-		pos += end + 1
+		pos = end + 1
 	}
+}
+
+// pow10 holds the exactly representable powers of ten.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// fastDecimal parses plain decimals such as "-1234.5678" exactly: when the
+// digits form an integer m < 2⁵³ and there are at most 22 fraction digits,
+// m / 10^k is correctly rounded because both operands are exact (Clinger's
+// fast path, W. D. Clinger, "How to read floating point numbers
+// accurately", PLDI 1990). Anything else goes to strconv.ParseFloat.
+func fastDecimal(f []byte) (float64, bool) {
+	i, neg := 0, false
+	switch f[0] {
+	case '-':
+		neg, i = true, 1
+	case '+':
+		i = 1
+	}
+	var m uint64
+	digits, frac, dot := 0, 0, false
+	for ; i < len(f); i++ {
+		c := f[i]
+		switch {
+		case c >= '0' && c <= '9':
+			if digits >= 16 {
+				return 0, false
+			}
+			m = m*10 + uint64(c-'0')
+			if m != 0 {
+				digits++
+			}
+			if dot {
+				frac++
+			}
+		case c == '.' && !dot:
+			dot = true
+		default:
+			return 0, false
+		}
+	}
+	if (digits == 0 && m == 0 && !hasDigit(f)) || m >= 1<<53 || frac > 22 {
+		return 0, false
+	}
+	v := float64(m) / pow10[frac]
+	if neg {
+		v = -v
+	}
+	return v, true
+}
+
+func hasDigit(f []byte) bool {
+	for _, c := range f {
+		if c >= '0' && c <= '9' {
+			return true
+		}
+	}
+	return false
 }
 
 // parseNumber parses a finite float64, returning a reason on failure.
 func parseNumber(f []byte) (float64, string) {
 	if len(f) == 0 {
 		return 0, "empty field, expected a number"
+	}
+	if v, ok := fastDecimal(f); ok {
+		return v, ""
 	}
 	// The string shares f's memory only for the duration of ParseFloat,
 	// which does not retain it; this avoids one allocation per field.
@@ -234,4 +346,26 @@ func parseNumber(f []byte) (float64, string) {
 		return 0, "NaN and infinities are not allowed (" + string(f) + ")"
 	}
 	return v, ""
+}
+
+// ReadFiles reads several tables at once, one goroutine each, and returns
+// them in order; the error is that of the first failing path in order.
+func ReadFiles(opt CSVOptions, paths ...string) ([]*Table, error) {
+	out := make([]*Table, len(paths))
+	errs := make([]error, len(paths))
+	var wg sync.WaitGroup
+	for i, p := range paths {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			out[i], errs[i] = ReadFile(p, opt)
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
 }

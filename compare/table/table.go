@@ -104,11 +104,30 @@ func (t *Table) Validate() error {
 			return Errorf(t.Source, 0, 0, "internal error: column %q has %d rows, want %d", t.Names[j], len(c), n)
 		}
 	}
-	seen := map[string]bool{t.LoName: true}
 	if t.HiName == t.LoName {
 		return Errorf(t.Source, 0, 0, "bin-edge columns must differ, both are %q", t.LoName)
 	}
-	seen[t.HiName] = true
+	for i := 0; i < n; i++ {
+		if !finite(t.Lo[i]) || !finite(t.Hi[i]) {
+			return Errorf(t.Source, t.line(i), 0, "bin %d: edges must be finite numbers", i+1)
+		}
+		for j, c := range t.Cols {
+			if !finite(c[i]) {
+				return Errorf(t.Source, t.line(i), 0, "bin %d: column %q is not a finite number", i+1, t.Names[j])
+			}
+		}
+	}
+	return t.validateBins()
+}
+
+// validateBins checks the names and the bin structure, for tables whose
+// numbers are known to be finite.
+func (t *Table) validateBins() error {
+	n := len(t.Lo)
+	if n == 0 {
+		return Errorf(t.Source, 0, 0, "table has no bins")
+	}
+	seen := map[string]bool{t.LoName: true, t.HiName: true}
 	for _, name := range t.Names {
 		if seen[name] {
 			return Errorf(t.Source, 0, 0, "duplicate column %q", name)
@@ -117,9 +136,6 @@ func (t *Table) Validate() error {
 	}
 	for i := 0; i < n; i++ {
 		lo, hi := t.Lo[i], t.Hi[i]
-		if !finite(lo) || !finite(hi) {
-			return Errorf(t.Source, t.line(i), 0, "bin %d: edges must be finite numbers", i+1)
-		}
 		if !(lo < hi) {
 			return Errorf(t.Source, t.line(i), 0, "bin %d: lower edge %s is not below upper edge %s", i+1, Format(lo), Format(hi))
 		}
@@ -131,13 +147,24 @@ func (t *Table) Validate() error {
 				return Errorf(t.Source, t.line(i), 0, "bin %d: overlaps the previous bin (%s < %s)", i+1, Format(lo), Format(t.Hi[i-1]))
 			}
 		}
-		for j, c := range t.Cols {
-			if !finite(c[i]) {
-				return Errorf(t.Source, t.line(i), 0, "bin %d: column %q is not a finite number", i+1, t.Names[j])
-			}
-		}
 	}
 	return nil
+}
+
+// edgeClose is |x - y| <= tol · max(|x|, |y|, w), written without
+// math.Max, which is slow in this hot loop; all inputs are finite.
+func edgeClose(x, y, w, tol float64) bool {
+	if x == y {
+		return true
+	}
+	scale := w
+	if ax := math.Abs(x); ax > scale {
+		scale = ax
+	}
+	if ay := math.Abs(y); ay > scale {
+		scale = ay
+	}
+	return math.Abs(x-y) <= tol*scale
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
@@ -164,12 +191,9 @@ func SameEdges(a, b *Table, tol float64) error {
 	}
 	for i := range a.Lo {
 		w := a.Hi[i] - a.Lo[i]
-		for _, e := range [][2]float64{{a.Lo[i], b.Lo[i]}, {a.Hi[i], b.Hi[i]}} {
-			scale := math.Max(math.Max(math.Abs(e[0]), math.Abs(e[1])), w)
-			if math.Abs(e[0]-e[1]) > tol*scale {
-				return Errorf(b.Source, b.line(i), 0, "bin %d: edges [%s, %s] differ from [%s, %s] in %s",
-					i+1, Format(b.Lo[i]), Format(b.Hi[i]), Format(a.Lo[i]), Format(a.Hi[i]), a.Source)
-			}
+		if !edgeClose(a.Lo[i], b.Lo[i], w, tol) || !edgeClose(a.Hi[i], b.Hi[i], w, tol) {
+			return Errorf(b.Source, b.line(i), 0, "bin %d: edges [%s, %s] differ from [%s, %s] in %s",
+				i+1, Format(b.Lo[i]), Format(b.Hi[i]), Format(a.Lo[i]), Format(a.Hi[i]), a.Source)
 		}
 	}
 	return nil

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -181,4 +182,25 @@ func ExampleParseCSV() {
 	}
 	fmt.Println(tb.Len(), tb.Names, DefaultSelections(tb))
 	// Output: 2 [rate rate_stat] [{rate [rate_stat] [] []}]
+}
+
+// FuzzFastDecimal: whenever the fast path accepts a field, it gives the
+// same float64 as strconv.ParseFloat (the correctly rounded reference).
+func FuzzFastDecimal(f *testing.F) {
+	for _, s := range []string{"0", "-0.5", "123.456", "9007199254740991", "0.1", "1234567890.123456", "+7.25", "00012.5000", "."} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		if s == "" {
+			return
+		}
+		v, ok := fastDecimal([]byte(s))
+		if !ok {
+			return
+		}
+		want, err := strconv.ParseFloat(s, 64)
+		if err != nil || v != want {
+			t.Fatalf("fastDecimal(%q) = %v, strconv %v (%v)", s, v, want, err)
+		}
+	})
 }
