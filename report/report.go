@@ -117,10 +117,12 @@ type pullHeap struct {
 	idx   []int
 }
 
-func (h *pullHeap) Len() int           { return len(h.idx) }
-func (h *pullHeap) Less(i, j int) bool { return math.Abs(h.pulls[h.idx[i]]) < math.Abs(h.pulls[h.idx[j]]) }
-func (h *pullHeap) Swap(i, j int)      { h.idx[i], h.idx[j] = h.idx[j], h.idx[i] }
-func (h *pullHeap) Push(x any)         { h.idx = append(h.idx, x.(int)) }
+func (h *pullHeap) Len() int { return len(h.idx) }
+func (h *pullHeap) Less(i, j int) bool {
+	return math.Abs(h.pulls[h.idx[i]]) < math.Abs(h.pulls[h.idx[j]])
+}
+func (h *pullHeap) Swap(i, j int) { h.idx[i], h.idx[j] = h.idx[j], h.idx[i] }
+func (h *pullHeap) Push(x any)    { h.idx = append(h.idx, x.(int)) }
 func (h *pullHeap) Pop() any {
 	x := h.idx[len(h.idx)-1]
 	h.idx = h.idx[:len(h.idx)-1]
