@@ -16,6 +16,7 @@ import (
 
 	"tandem/blind/safefile"
 	"tandem/compare"
+	"tandem/compare/input"
 	"tandem/compare/table"
 	"tandem/report"
 )
@@ -152,11 +153,16 @@ func runCompare(e *env, args []string) error {
 		return err
 	}
 	opt := table.CSVOptions{Lo: lo, Hi: hi}
-	ts, err := table.ReadFiles(opt, pos[0], pos[1])
+	ts, err := input.ReadAll(opt, pos[0], pos[1])
 	if err != nil {
 		return inputErr(err)
 	}
 	a, b := ts[0], ts[1]
+	for _, t := range ts {
+		for _, n := range t.Notes {
+			e.warnf("%s", n)
+		}
+	}
 	var sels []compare.Selection
 	if len(cf.values) == 0 {
 		sels = table.DefaultSelections(a)

@@ -6,7 +6,6 @@ import (
 	"os"
 	"strconv"
 	"strings"
-	"sync"
 	"unicode/utf8"
 	"unsafe"
 )
@@ -346,26 +345,4 @@ func parseNumber(f []byte) (float64, string) {
 		return 0, "NaN and infinities are not allowed (" + string(f) + ")"
 	}
 	return v, ""
-}
-
-// ReadFiles reads several tables at once, one goroutine each, and returns
-// them in order; the error is that of the first failing path in order.
-func ReadFiles(opt CSVOptions, paths ...string) ([]*Table, error) {
-	out := make([]*Table, len(paths))
-	errs := make([]error, len(paths))
-	var wg sync.WaitGroup
-	for i, p := range paths {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			out[i], errs[i] = ReadFile(p, opt)
-		}()
-	}
-	wg.Wait()
-	for _, err := range errs {
-		if err != nil {
-			return nil, err
-		}
-	}
-	return out, nil
 }

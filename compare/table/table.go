@@ -39,6 +39,9 @@ type Table struct {
 	Cols [][]float64
 	// Lines holds the 1-based source line of each bin, when known.
 	Lines []int
+	// Notes are remarks of the reader a user should see (for example
+	// under- and overflow left out of a histogram).
+	Notes []string
 }
 
 // Len returns the number of bins.

@@ -1,0 +1,223 @@
+// Package rootfile reads one-dimensional histograms and graphs from ROOT
+// files into tandem tables, with go-hep's groot.
+//
+// An object is named as FILE:PATH, for example "chain.root:spectra/h_rate".
+// The resulting table has the bin edges "lo" and "hi", the value column
+// "value", and either a symmetric uncertainty "err" or asymmetric ones
+// "err_minus" and "err_plus":
+//
+//   - TH1D and TH1F (also with variable bin widths): edges from the axis,
+//     values from the bin contents, errors √(Σw²) when the sum of squared
+//     weights is stored, else √|content|. Under- and overflow are left out
+//     and reported in [Table.Notes].
+//   - TGraphErrors and TGraphAsymmErrors: a point (x, y) with x errors
+//     (e_lo, e_hi) becomes the bin [x - e_lo, x + e_hi]; y errors become
+//     "err" (equal) or "err_minus"/"err_plus".
+//
+// A plain TGraph has no x errors, hence no bins, and is refused.
+package rootfile
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"strings"
+
+	"go-hep.org/x/hep/groot"
+	"go-hep.org/x/hep/groot/rhist"
+	"go-hep.org/x/hep/groot/riofs"
+	"go-hep.org/x/hep/groot/root"
+
+	"tandem/compare/table"
+)
+
+// Column names of tables read from ROOT objects.
+const (
+	Value    = "value"
+	Err      = "err"
+	ErrMinus = "err_minus"
+	ErrPlus  = "err_plus"
+)
+
+// IsSpec reports whether s names a ROOT file or an object in one.
+func IsSpec(s string) bool {
+	file, _, _ := strings.Cut(s, ".root:")
+	return strings.HasSuffix(s, ".root") || file != s
+}
+
+// Split cuts "file.root:dir/name" into the file and the object path.
+func Split(spec string) (file, object string) {
+	if i := strings.Index(spec, ".root:"); i >= 0 {
+		return spec[:i+5], spec[i+6:]
+	}
+	return spec, ""
+}
+
+// Read reads the object named by spec ("file.root:path"). When the path is
+// empty and the file holds exactly one histogram or graph, that one is used.
+func Read(spec string) (t *table.Table, err error) {
+	file, path := Split(spec)
+	// groot can panic on some corrupted inputs; a bad file must give an
+	// error, never a crash.
+	defer func() {
+		if r := recover(); r != nil {
+			t, err = nil, table.Errorf(spec, 0, 0, "not a readable ROOT file (%v)", r)
+		}
+	}()
+	if _, err := os.Stat(file); err != nil {
+		return nil, table.Errorf(file, 0, 0, "%v", unwrap(err))
+	}
+	f, err := groot.Open(file)
+	if err != nil {
+		return nil, table.Errorf(file, 0, 0, "not a readable ROOT file: %v", err)
+	}
+	defer f.Close()
+	if path == "" {
+		path, err = onlyObject(f)
+		if err != nil {
+			return nil, table.Errorf(file, 0, 0, "%v", err)
+		}
+	}
+	obj, err := riofs.Dir(f).Get(path)
+	if err != nil {
+		return nil, table.Errorf(spec, 0, 0, "no object %q in the file: %v", path, err)
+	}
+	t = &table.Table{Source: spec, LoName: table.DefaultLo, HiName: table.DefaultHi}
+	switch o := obj.(type) {
+	case rhist.H2, rhist.H1 /* H2 checked first: a 2-D histogram is not 1-D */ :
+		h1, ok := o.(rhist.H1)
+		if _, is2 := o.(rhist.H2); is2 || !ok {
+			return nil, table.Errorf(spec, 0, 0, "%s is a %s, a histogram of more than one dimension; tandem compares 1-D results", path, obj.Class())
+		}
+		if err := fromH1(t, h1); err != nil {
+			return nil, table.Errorf(spec, 0, 0, "%v", err)
+		}
+	case rhist.GraphErrors:
+		if err := fromGraph(t, o); err != nil {
+			return nil, table.Errorf(spec, 0, 0, "%s: %v", path, err)
+		}
+	case rhist.Graph:
+		return nil, table.Errorf(spec, 0, 0, "%s is a TGraph without errors: its points have no bin widths or uncertainties", path)
+	default:
+		return nil, table.Errorf(spec, 0, 0, "%s is a %s, not a 1-D histogram (TH1D, TH1F) or a graph with errors", path, obj.Class())
+	}
+	if err := t.Validate(); err != nil {
+		return nil, err
+	}
+	return t, nil
+}
+
+func unwrap(err error) error {
+	if pe, ok := err.(*os.PathError); ok {
+		return pe.Err
+	}
+	return err
+}
+
+// onlyObject returns the path of the single histogram or graph in f.
+func onlyObject(f *riofs.File) (string, error) {
+	var found []string
+	err := riofs.Walk(f, func(path string, obj root.Object, err error) error {
+		if err != nil {
+			return err
+		}
+		switch obj.(type) {
+		case rhist.H1, rhist.Graph:
+			_, rel, _ := strings.Cut(path, "/")
+			found = append(found, rel)
+		}
+		return nil
+	})
+	switch {
+	case err != nil:
+		return "", err
+	case len(found) == 1:
+		return found[0], nil
+	case len(found) == 0:
+		return "", fmt.Errorf("the file holds no histogram or graph")
+	}
+	return "", fmt.Errorf("the file holds %d histograms and graphs (%s); name one as FILE.root:PATH", len(found), strings.Join(found, ", "))
+}
+
+// h1 is what tandem needs of a TH1D or TH1F.
+type h1 interface {
+	rhist.H1
+	NbinsX() int
+	XAxis() rhist.Axis
+	XBinContent(int) float64
+}
+
+func fromH1(t *table.Table, h rhist.H1) error {
+	hh, ok := h.(h1)
+	if !ok {
+		return fmt.Errorf("%s %q: unsupported histogram class", h.Class(), h.Name())
+	}
+	n := hh.NbinsX()
+	ax := hh.XAxis()
+	sumw2 := h.SumW2s()
+	val := make([]float64, n)
+	errs := make([]float64, n)
+	t.Lo, t.Hi = make([]float64, n), make([]float64, n)
+	for i := 1; i <= n; i++ {
+		t.Lo[i-1] = ax.BinLowEdge(i)
+		t.Hi[i-1] = ax.BinLowEdge(i) + ax.BinWidth(i)
+		c := hh.XBinContent(i)
+		val[i-1] = c
+		if len(sumw2) == n+2 {
+			errs[i-1] = math.Sqrt(sumw2[i])
+		} else {
+			errs[i-1] = math.Sqrt(math.Abs(c))
+		}
+	}
+	if edges := ax.XBins(); len(edges) == n+1 {
+		// variable bins: take the stored edges exactly
+		copy(t.Lo, edges[:n])
+		copy(t.Hi, edges[1:])
+	} else {
+		// fixed bins: ROOT computes edges as xmin + i·width; make
+		// neighbours share their edge exactly
+		for i := 1; i < n; i++ {
+			t.Hi[i-1] = t.Lo[i]
+		}
+		t.Hi[n-1] = ax.XMax()
+	}
+	t.Names = []string{Value, Err}
+	t.Cols = [][]float64{val, errs}
+	under, over := hh.XBinContent(0), hh.XBinContent(n+1)
+	if under != 0 || over != 0 {
+		t.Notes = append(t.Notes, fmt.Sprintf("%s: underflow %s and overflow %s left out", h.Name(), table.Format(under), table.Format(over)))
+	}
+	return nil
+}
+
+func fromGraph(t *table.Table, g rhist.GraphErrors) error {
+	n := g.Len()
+	if n == 0 {
+		return fmt.Errorf("graph has no points")
+	}
+	val, down, up := make([]float64, n), make([]float64, n), make([]float64, n)
+	t.Lo, t.Hi = make([]float64, n), make([]float64, n)
+	sym := true
+	for i := 0; i < n; i++ {
+		x, y := g.XY(i)
+		exl, exh := g.XError(i)
+		eyl, eyh := g.YError(i)
+		if !(exl+exh > 0) {
+			return fmt.Errorf("point %d (x = %s) has no x errors, so no bin width", i+1, table.Format(x))
+		}
+		t.Lo[i], t.Hi[i] = x-exl, x+exh
+		val[i], down[i], up[i] = y, eyl, eyh
+		if eyl != eyh {
+			sym = false
+		}
+	}
+	t.Names = []string{Value}
+	t.Cols = [][]float64{val}
+	if sym {
+		t.Names, t.Cols = append(t.Names, Err), append(t.Cols, down)
+	} else {
+		t.Names = append(t.Names, ErrMinus, ErrPlus)
+		t.Cols = append(t.Cols, down, up)
+	}
+	return nil
+}
