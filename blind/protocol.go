@@ -376,3 +376,27 @@ func (o *Observable) Column(name string) *Column {
 	}
 	return &o.Columns[i]
 }
+
+// FromObject names the columns of a table read from a ROOT histogram or
+// graph (columns "value" and "err") after the observable's declaration,
+// which must then have one column with one uncertainty.
+func (o *Observable) FromObject(t *table.Table, value, errName string) (*table.Table, error) {
+	if len(o.Columns) != 1 || len(o.Columns[0].Errors) != 1 {
+		return nil, table.Errorf(t.Source, 0, 0, "observable %q declares %d columns; a ROOT object fills one value column with one uncertainty", o.Name, len(o.Columns))
+	}
+	c := o.Columns[0]
+	out := *t
+	out.LoName, out.HiName = o.Edges[0], o.Edges[1]
+	out.Names = nil
+	for _, n := range t.Names {
+		switch n {
+		case value:
+			out.Names = append(out.Names, c.Name)
+		case errName:
+			out.Names = append(out.Names, c.Errors[0])
+		default:
+			return nil, table.Errorf(t.Source, 0, 0, "the object has asymmetric errors (%s); sealing supports symmetric errors only", n)
+		}
+	}
+	return &out, nil
+}

@@ -18,6 +18,8 @@ import (
 	"tandem/blind"
 	"tandem/blind/safefile"
 	"tandem/compare"
+	"tandem/compare/input"
+	"tandem/compare/rootfile"
 	"tandem/compare/table"
 	"tandem/report"
 )
@@ -167,9 +169,23 @@ func runSeal(e *env, args []string) error {
 	}
 	opt := table.CSVOptions{Lo: o.Edges[0], Hi: o.Edges[1]}
 	var t *table.Table
-	if len(pos) == 2 {
-		t, err = table.ReadFile(pos[1], opt)
-	} else {
+	switch {
+	case len(pos) == 2 && rootfile.IsSpec(pos[1]):
+		spec := pos[1]
+		if _, obj := rootfile.Split(spec); obj == "" && o.Object != "" {
+			spec += ":" + o.Object
+		}
+		if t, err = rootfile.Read(spec); err == nil {
+			t, err = o.FromObject(t, rootfile.Value, rootfile.Err)
+		}
+		if t != nil {
+			for _, n := range t.Notes {
+				e.warnf("%s", n)
+			}
+		}
+	case len(pos) == 2:
+		t, err = input.Read(pos[1], opt)
+	default:
 		if f, ok := e.stdin.(*os.File); ok {
 			if fi, err := f.Stat(); err == nil && fi.Mode()&os.ModeCharDevice != 0 {
 				return withHint(usageErr("seal reads the table from standard input, which is a terminal"), "pipe the table in, or name the file")

@@ -3,6 +3,7 @@ package main
 import (
 	"os"
 	"os/exec"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -23,6 +24,11 @@ func TestScripts(t *testing.T) {
 		Setup: func(env *testscript.Env) error {
 			env.Setenv("NO_COLOR", "1")
 			env.Setenv("TANDEM_ACTOR", "script")
+			abs, err := filepath.Abs("../../testdata")
+			if err != nil {
+				return err
+			}
+			env.Setenv("TESTDATA", abs)
 			return nil
 		},
 		Cmds: map[string]func(ts *testscript.TestScript, neg bool, args []string){

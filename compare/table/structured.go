@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
-	"fmt"
 	"io"
 	"strings"
 
@@ -48,6 +47,8 @@ func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
 			line, col = position(data, se.Offset)
 		case errors.As(err, &te):
 			line, col = position(data, te.Offset)
+		case errors.Is(err, io.ErrUnexpectedEOF):
+			line, col = position(data, int64(len(data)))
 		case errors.Is(err, io.EOF):
 			return nil, Errorf(name, 0, 0, "empty table")
 		}
@@ -168,4 +169,3 @@ func rowLine(data []byte, r int) int {
 	return 0
 }
 
-var _ = fmt.Sprintf
