@@ -81,8 +81,8 @@ func TestROOTWrittenHistograms(t *testing.T) {
 	}
 	variable := []float64{-4.0, -3.2, -2.4, -1.6, -0.8, 0, +0.8, +1.6, +2.4, +3.2, +4.0}
 	for _, c := range []struct {
-		name  string
-		edges []float64
+		name   string
+		edges  []float64
 		single bool // a TH1F
 		rel    float64
 	}{

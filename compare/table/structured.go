@@ -168,4 +168,3 @@ func rowLine(data []byte, r int) int {
 	}
 	return 0
 }
-
