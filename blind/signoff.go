@@ -78,12 +78,19 @@ func (c *Campaign) Compare(kind TableKind) (s *compare.Summary, missing []string
 
 // ComparisonDigest is the SHA-256 of a canonical text encoding of the
 // statistics of every comparison (names, verdict, χ², ndf, every p-value,
-// pull moments and every pull, numbers in shortest round-trip form). It
-// depends only on the tables, so verify can recompute it.
+// pull moments and every pull). It depends only on the tables, so verify
+// can recompute it. Numbers are written with 8 significant digits, so a
+// later version of tandem whose arithmetic differs in the last bits still
+// recomputes the digest that was signed.
 func ComparisonDigest(s *compare.Summary) string {
 	h := sha256.New()
 	fmt.Fprintf(h, "%s comparison\n", FormatV1)
-	f := table.Format
+	f := func(v float64) string {
+		if v == 0 {
+			return "0"
+		}
+		return strconv.FormatFloat(v, 'g', 8, 64)
+	}
 	for _, e := range s.Entries {
 		fmt.Fprintf(h, "%s|%s|%s|%s|%d|%s|%s|%d|%s|%s|%s|%s|%s|%s|%s|", e.Observable, e.Column, e.Teams[0], e.Teams[1],
 			e.Bins, e.Verdict(), f(e.Chi2), e.NDF, f(e.PValue), f(e.PullMean), f(e.PullWidth), f(e.MaxAbsPull),
