@@ -366,6 +366,25 @@ func (c *Campaign) Seal(team, observable string, t *table.Table) (string, error)
 	return com, err
 }
 
+// begin takes the campaign lock for a custodian step, rereads the ledger
+// and refuses when the campaign is already unblinded. The caller runs the
+// returned unlock when done.
+func (c *Campaign) begin(step string) (func(), error) {
+	unlock, err := lock(c.Dir)
+	if err != nil {
+		return nil, err
+	}
+	if err := c.reload(); err != nil {
+		unlock()
+		return nil, err
+	}
+	if c.Unblinded() {
+		unlock()
+		return nil, &RefusedError{Step: step, Problems: []string{"the campaign is already unblinded"}}
+	}
+	return unlock, nil
+}
+
 // reload rereads the ledger, under the lock, before an append.
 func (c *Campaign) reload() error {
 	fresh, err := Open(c.Dir)
@@ -411,17 +430,11 @@ func (c *Campaign) openSealed(s Slot, st *SlotState, ids []age.Identity) (*Table
 // Blind opens K and every sealed table not yet blinded, and writes the
 // blinded tables. It returns the slots it blinded.
 func (c *Campaign) Blind(ids []age.Identity) ([]Slot, error) {
-	unlock, err := lock(c.Dir)
+	unlock, err := c.begin("blind")
 	if err != nil {
 		return nil, err
 	}
 	defer unlock()
-	if err := c.reload(); err != nil {
-		return nil, err
-	}
-	if c.Unblinded() {
-		return nil, &RefusedError{Step: "blind", Problems: []string{"the campaign is already unblinded"}}
-	}
 	k, err := c.OpenKey(ids)
 	if err != nil {
 		return nil, err

@@ -228,17 +228,11 @@ func (c *Campaign) verifyUnblinded() []string {
 // tables and the published key. On any problem it writes nothing and
 // returns a [RefusedError] listing them all.
 func (c *Campaign) Unblind(ids []age.Identity) ([]Slot, error) {
-	unlock, err := lock(c.Dir)
+	unlock, err := c.begin("unblind")
 	if err != nil {
 		return nil, err
 	}
 	defer unlock()
-	if err := c.reload(); err != nil {
-		return nil, err
-	}
-	if c.Unblinded() {
-		return nil, &RefusedError{Step: "unblind", Problems: []string{"the campaign is already unblinded"}}
-	}
 	var probs []string
 	probs = append(probs, c.checkFiles()...)
 	st := c.State()

@@ -1,11 +1,11 @@
 // Package safefile writes files so that a crash or an error leaves either
 // the old content or the new, never a torn or partial file: data goes to a
-// temporary file in the same directory, is synced, and is renamed over the
-// target, and the directory is synced after the rename.
+// temporary file in the same directory, is synced, and is renamed (or, for
+// files that must not be overwritten, hard-linked) into place, and the
+// directory is synced after.
 package safefile
 
 import (
-	"bytes"
 	"errors"
 	"fmt"
 	"io"
@@ -23,90 +23,82 @@ func Write(path string, data []byte, perm os.FileMode) error {
 
 // WriteFrom atomically replaces path with what fill writes. If fill returns
 // an error, nothing is written and the temporary file is removed.
-func WriteFrom(path string, perm os.FileMode, fill func(io.Writer) error) (err error) {
-	dir := filepath.Dir(path)
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
-	}
-	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
+func WriteFrom(path string, perm os.FileMode, fill func(io.Writer) error) error {
+	tmp, err := writeTemp(path, perm, fill)
 	if err != nil {
 		return err
 	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	if err = f.Chmod(perm); err != nil {
+	if err := os.Rename(tmp, path); err != nil {
+		os.Remove(tmp)
 		return err
 	}
-	if err = fill(f); err != nil {
-		return err
-	}
-	if err = f.Sync(); err != nil {
-		return err
-	}
-	if err = f.Close(); err != nil {
-		return err
-	}
-	if err = os.Rename(tmp, path); err != nil {
-		return err
-	}
-	return syncDir(dir)
+	return syncDir(filepath.Dir(path))
 }
 
-// Create writes data to path only if path does not exist yet (O_EXCL
-// semantics through a hard link), for files that must never be overwritten
-// such as secret keys.
+// Create writes data to path only if path does not exist yet, for files that
+// must never be overwritten such as secret keys. The new file appears whole
+// or not at all.
 func Create(path string, data []byte, perm os.FileMode) error {
 	if _, err := os.Lstat(path); err == nil {
 		return fmt.Errorf("%s already exists; refusing to overwrite it", path)
 	}
-	dir := filepath.Dir(path)
-	if err := os.MkdirAll(dir, 0o755); err != nil {
+	tmp, err := writeTemp(path, perm, func(w io.Writer) error {
+		_, err := w.Write(data)
 		return err
-	}
-	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
+	})
 	if err != nil {
 		return err
 	}
-	tmp := f.Name()
 	defer os.Remove(tmp)
-	if err := f.Chmod(perm); err != nil {
-		f.Close()
-		return err
-	}
-	if _, err := io.Copy(f, bytes.NewReader(data)); err != nil {
-		f.Close()
-		return err
-	}
-	if err := f.Sync(); err != nil {
-		f.Close()
-		return err
-	}
-	if err := f.Close(); err != nil {
-		return err
-	}
 	if err := os.Link(tmp, path); err != nil {
 		if errors.Is(err, os.ErrExist) {
 			return fmt.Errorf("%s already exists; refusing to overwrite it", path)
 		}
 		return err
 	}
-	return syncDir(dir)
+	return syncDir(filepath.Dir(path))
 }
 
+// writeTemp fills a synced temporary file with mode perm beside path and
+// returns its name; on error it leaves nothing behind.
+func writeTemp(path string, perm os.FileMode, fill func(io.Writer) error) (name string, err error) {
+	dir := filepath.Dir(path)
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return "", err
+	}
+	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
+	if err != nil {
+		return "", err
+	}
+	defer func() {
+		if err != nil {
+			f.Close()
+			os.Remove(f.Name())
+		}
+	}()
+	if err = f.Chmod(perm); err != nil {
+		return "", err
+	}
+	if err = fill(f); err != nil {
+		return "", err
+	}
+	if err = f.Sync(); err != nil {
+		return "", err
+	}
+	if err = f.Close(); err != nil {
+		return "", err
+	}
+	return f.Name(), nil
+}
+
+// syncDir makes a rename durable. File systems that cannot sync a
+// directory still rename atomically, so that error is ignored.
 func syncDir(dir string) error {
 	d, err := os.Open(dir)
 	if err != nil {
 		return err
 	}
 	defer d.Close()
-	if err := d.Sync(); err != nil && !errors.Is(err, os.ErrInvalid) {
-		// Some file systems cannot sync directories; the rename is still atomic.
-		return nil
-	}
+	d.Sync()
 	return nil
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"bufio"
 	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"net"
@@ -244,23 +245,38 @@ blinded, and writes blinded/TEAM/OBSERVABLE.csv. The identity may instead
 come from the TANDEM_CUSTODIAN_IDENTITY environment variable (for CI).
 `
 
-func runBlind(e *env, args []string) error {
-	fs := newFlags(e, "blind", blindHelp)
+// custodianStep parses the arguments of a step that needs the custodian
+// identity (blind, unblind), opens the campaign and reads the identity.
+func custodianStep(e *env, name, help string, args []string) (*blind.Campaign, []age.Identity, error) {
+	fs := newFlags(e, name, help)
 	var idFile string
 	stringVar(fs, &idFile, []string{"identity", "i"}, "", "custodian identity `FILE` (age or SSH)")
-	pos, err := parse(fs, args)
+	c, err := campaignArgs(fs, args, name)
 	if err != nil {
-		return err
-	}
-	dir, err := oneDir(pos, "blind")
-	if err != nil {
-		return err
-	}
-	c, err := openCampaign(dir)
-	if err != nil {
-		return err
+		return nil, nil, err
 	}
 	ids, err := readIdentity(e, idFile)
+	if err != nil {
+		return nil, nil, err
+	}
+	return c, ids, nil
+}
+
+// campaignArgs parses flags around one campaign folder and opens it.
+func campaignArgs(fs *flag.FlagSet, args []string, name string) (*blind.Campaign, error) {
+	pos, err := parse(fs, args)
+	if err != nil {
+		return nil, err
+	}
+	dir, err := oneDir(pos, name)
+	if err != nil {
+		return nil, err
+	}
+	return openCampaign(dir)
+}
+
+func runBlind(e *env, args []string) error {
+	c, ids, err := custodianStep(e, "blind", blindHelp, args)
 	if err != nil {
 		return err
 	}
@@ -294,17 +310,13 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		}
 		kind = blind.Unblinded
 	}
-	s, missing, err := c.Compare(kind)
+	s, err := summarize(e, c, kind)
 	if err != nil {
-		return campaignErr(err)
-	}
-	for _, m := range missing {
-		e.warnf("%s: no %s table yet", m, kind)
+		return err
 	}
 	if len(s.Entries) == 0 {
 		return refused(errors.New("nothing to compare yet: each observable needs tables from two teams"))
 	}
-	addNotes(c, s)
 	out := cf.output
 	if out == "" && cf.set["o"] == false && cf.set["output"] == false {
 		// Campaign mode also keeps a copy under reports/.
@@ -319,6 +331,20 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		return silentFail
 	}
 	return nil
+}
+
+// summarize compares the campaign's tables of one kind, warns about the
+// tables still missing and puts the campaign's state on top.
+func summarize(e *env, c *blind.Campaign, kind blind.TableKind) (*compare.Summary, error) {
+	s, missing, err := c.Compare(kind)
+	if err != nil {
+		return nil, campaignErr(err)
+	}
+	for _, m := range missing {
+		e.warnf("%s: no %s table yet", m, kind)
+	}
+	addNotes(c, s)
+	return s, nil
 }
 
 // addNotes puts the campaign's state on top of a report.
@@ -379,16 +405,7 @@ what is missing before unblinding.
 `
 
 func runStatus(e *env, args []string) error {
-	fs := newFlags(e, "status", statusHelp)
-	pos, err := parse(fs, args)
-	if err != nil {
-		return err
-	}
-	dir, err := oneDir(pos, "status")
-	if err != nil {
-		return err
-	}
-	c, err := openCampaign(dir)
+	c, err := campaignArgs(newFlags(e, "status", statusHelp), args, "status")
 	if err != nil {
 		return err
 	}
@@ -475,20 +492,12 @@ func runSign(e *env, args []string) error {
 	fs.StringVar(&keyFile, "key", "", "SSH private key `FILE` (default: ssh-agent)")
 	boolVar(fs, &yes, []string{"yes", "y"}, false, "sign without asking for confirmation")
 	fs.StringVar(&reason, "accept-disagreement", "", "sign a failing comparison, giving the `REASON`")
-	pos, err := parse(fs, args)
-	if err != nil {
-		return err
-	}
-	dir, err := oneDir(pos, "sign")
+	c, err := campaignArgs(fs, args, "sign")
 	if err != nil {
 		return err
 	}
 	if party == "" {
 		return usageErr("sign needs --as PARTY")
-	}
-	c, err := openCampaign(dir)
-	if err != nil {
-		return err
 	}
 	q := c.Protocol.Party(party)
 	if q == nil {
@@ -520,7 +529,7 @@ func runSign(e *env, args []string) error {
 		return campaignErr(err)
 	}
 	sp, _ := blind.SignoffPaths(party)
-	e.infof("signed off as %s: %s", party, filepath.Join(dir, sp))
+	e.infof("signed off as %s: %s", party, filepath.Join(c.Dir, sp))
 	return nil
 }
 
@@ -585,22 +594,7 @@ can re-check the chain, and writes the final reports.
 `
 
 func runUnblind(e *env, args []string) error {
-	fs := newFlags(e, "unblind", unblindHelp)
-	var idFile string
-	stringVar(fs, &idFile, []string{"identity", "i"}, "", "custodian identity `FILE` (age or SSH)")
-	pos, err := parse(fs, args)
-	if err != nil {
-		return err
-	}
-	dir, err := oneDir(pos, "unblind")
-	if err != nil {
-		return err
-	}
-	c, err := openCampaign(dir)
-	if err != nil {
-		return err
-	}
-	ids, err := readIdentity(e, idFile)
+	c, ids, err := custodianStep(e, "unblind", unblindHelp, args)
 	if err != nil {
 		return err
 	}
@@ -614,7 +608,7 @@ func runUnblind(e *env, args []string) error {
 	if err := finalReports(c); err != nil {
 		return err
 	}
-	e.infof("final reports in %s", filepath.Join(dir, "reports"))
+	e.infof("final reports in %s", filepath.Join(c.Dir, "reports"))
 	return nil
 }
 
@@ -702,14 +696,10 @@ func runReport(e *env, args []string) error {
 	if c.Unblinded() {
 		kind = blind.Unblinded
 	}
-	s, missing, err := c.Compare(kind)
+	s, err := summarize(e, c, kind)
 	if err != nil {
-		return campaignErr(err)
+		return err
 	}
-	for _, m := range missing {
-		e.warnf("%s: no %s table yet", m, kind)
-	}
-	addNotes(c, s)
 	if format == "" {
 		stem := "campaign"
 		if kind == blind.Unblinded {

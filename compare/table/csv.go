@@ -141,18 +141,7 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 		// One pass over the row: find each field, trim it, parse it.
 		k, pos := 0, 0
 		for {
-			start := pos
-			for start < len(line) && (line[start] == ' ' || line[start] == '\t') && line[start] != delim {
-				start++
-			}
-			end := start
-			for end < len(line) && line[end] != delim {
-				end++
-			}
-			stop := end
-			for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
-				stop--
-			}
+			start, stop, end := nextField(line, pos, delim)
 			if k >= len(header) {
 				return nil, raggedErr(name, lineNo, line, delim, len(header))
 			}
@@ -163,14 +152,7 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 				}
 				return nil, Errorf(name, lineNo, start+1, "column %q: %s", header[k], msg)
 			}
-			switch d := colIdx[k]; d {
-			case -1:
-				t.Lo = append(t.Lo, v)
-			case -2:
-				t.Hi = append(t.Hi, v)
-			default:
-				t.Cols[d] = append(t.Cols[d], v)
-			}
+			t.put(colIdx[k], v)
 			k++
 			if end >= len(line) {
 				break
@@ -228,6 +210,38 @@ func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int
 	return header, idx, nil
 }
 
+// nextField finds the field that begins at pos: its trimmed extent
+// [start, stop) and the position end of the delimiter after it (len(line)
+// for the last field).
+func nextField(line []byte, pos int, delim byte) (start, stop, end int) {
+	start = pos
+	for start < len(line) && (line[start] == ' ' || line[start] == '\t') && line[start] != delim {
+		start++
+	}
+	end = start
+	for end < len(line) && line[end] != delim {
+		end++
+	}
+	stop = end
+	for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
+		stop--
+	}
+	return start, stop, end
+}
+
+// put appends v to the destination column d of setHeader's mapping: -1 the
+// lower edges, -2 the upper edges, otherwise Cols[d].
+func (t *Table) put(d int, v float64) {
+	switch d {
+	case -1:
+		t.Lo = append(t.Lo, v)
+	case -2:
+		t.Hi = append(t.Hi, v)
+	default:
+		t.Cols[d] = append(t.Cols[d], v)
+	}
+}
+
 // raggedErr reports a row with the wrong number of fields, pointing at the
 // first extra field or at the end of a short row.
 func raggedErr(name string, lineNo int, line []byte, delim byte, want int) error {
@@ -244,18 +258,7 @@ func raggedErr(name string, lineNo int, line []byte, delim byte, want int) error
 func split(line []byte, delim byte, fields [][]byte, starts []int) ([][]byte, []int) {
 	pos := 0
 	for {
-		start := pos
-		for start < len(line) && (line[start] == ' ' || line[start] == '\t') && line[start] != delim {
-			start++
-		}
-		end := start
-		for end < len(line) && line[end] != delim {
-			end++
-		}
-		stop := end
-		for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
-			stop--
-		}
+		start, stop, end := nextField(line, pos, delim)
 		fields = append(fields, line[start:stop])
 		starts = append(starts, start)
 		if end >= len(line) {

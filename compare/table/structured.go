@@ -112,14 +112,7 @@ func (s *structured) table(name string, opt CSVOptions, line func(int) int) (*Ta
 			if !finite(v) {
 				return nil, Errorf(name, line(r), 0, "row %d, column %q: NaN and infinities are not allowed", r+1, s.Columns[k])
 			}
-			switch d := idx[k]; d {
-			case -1:
-				t.Lo = append(t.Lo, v)
-			case -2:
-				t.Hi = append(t.Hi, v)
-			default:
-				t.Cols[d] = append(t.Cols[d], v)
-			}
+			t.put(idx[k], v)
 		}
 		t.Lines = append(t.Lines, line(r))
 	}
