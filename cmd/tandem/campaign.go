@@ -318,9 +318,13 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		return refused(errors.New("nothing to compare yet: each observable needs tables from two teams"))
 	}
 	out := cf.output
-	if out == "" && cf.set["o"] == false && cf.set["output"] == false {
+	if out == "" {
 		// Campaign mode also keeps a copy under reports/.
-		if err := writeReports(c, s, []string{cf.format}, string(kind)); err != nil {
+		stem := "campaign"
+		if kind == blind.Unblinded {
+			stem = "final"
+		}
+		if err := writeReports(c, s, []string{cf.format}, stem); err != nil {
 			return err
 		}
 	}
