@@ -65,6 +65,10 @@ svg{background:#fff;border:1px solid #e3e6ea}
 	return ew.err
 }
 
+// maxFigureBins is the most bins the per-bin figures draw; beyond it a page
+// would grow by megabytes per comparison without showing more.
+const maxFigureBins = 2000
+
 func esc(s string) string { return html.EscapeString(s) }
 
 func verdictSpan(pass bool) string {
@@ -89,12 +93,18 @@ func entryHTML(w io.Writer, i int, e compare.Entry) {
 			limit = c.Limit
 		}
 	}
-	fmt.Fprintln(w, `<div class="figs"><div class="stack">`)
-	overlaySVG(w, e, a, b)
-	pullsSVG(w, e, limit)
-	fmt.Fprintln(w, `</div>`)
+	fmt.Fprintln(w, `<div class="figs">`)
+	if e.Bins <= maxFigureBins {
+		fmt.Fprintln(w, `<div class="stack">`)
+		overlaySVG(w, e, a, b)
+		pullsSVG(w, e, limit)
+		fmt.Fprintln(w, `</div>`)
+	}
 	histSVG(w, e)
 	fmt.Fprintln(w, `</div>`)
+	if e.Bins > maxFigureBins {
+		fmt.Fprintf(w, "<p class=\"note\">%d bins are too many to draw one by one: the per-bin figures are left out; the JSON report has every pull.</p>\n", e.Bins)
+	}
 	fmt.Fprintln(w, "<table><tr><th>criterion</th><th>value</th><th>limit</th><th>result</th></tr>")
 	for _, c := range e.Criteria {
 		fmt.Fprintf(w, "<tr><td>%s</td><td>%s</td><td>%s %s</td><td>%s</td></tr>\n", esc(c.Name), num(c.Value), esc(c.Op), num(c.Limit), verdictSpan(c.Pass))
