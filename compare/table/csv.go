@@ -1,6 +1,7 @@
 package table
 
 import (
+	"bufio"
 	"bytes"
 	"io"
 	"os"
@@ -27,25 +28,30 @@ type CSVOptions struct {
 }
 
 // ReadFile reads a CSV or TSV table from a file. A ".tsv" suffix selects tab
-// separation; otherwise it is detected from the header.
+// separation; otherwise it is detected from the header. The file is read
+// in a stream, so memory is that of the table, not of the text.
 func ReadFile(path string, opt CSVOptions) (*Table, error) {
-	data, err := os.ReadFile(path)
+	f, err := os.Open(path)
 	if err != nil {
 		return nil, Errorf(path, 0, 0, "%v", unwrapPath(err))
+	}
+	defer f.Close()
+	size := 0
+	if fi, err := f.Stat(); err == nil {
+		if fi.IsDir() {
+			return nil, Errorf(path, 0, 0, "is a directory, not a table")
+		}
+		size = int(fi.Size())
 	}
 	if opt.Delim == 0 && strings.HasSuffix(strings.ToLower(path), ".tsv") {
 		opt.Delim = '\t'
 	}
-	return ParseCSV(path, data, opt)
+	return parse(path, f, size, opt)
 }
 
 // ReadCSV reads a table from r; name is used in messages.
 func ReadCSV(name string, r io.Reader, opt CSVOptions) (*Table, error) {
-	data, err := io.ReadAll(r)
-	if err != nil {
-		return nil, Errorf(name, 0, 0, "%v", err)
-	}
-	return ParseCSV(name, data, opt)
+	return parse(name, r, 0, opt)
 }
 
 func unwrapPath(err error) error {
@@ -65,21 +71,19 @@ func unwrapPath(err error) error {
 // numbers that do not parse or are NaN or infinite, duplicate or missing
 // columns, and the bin-structure problems of [Table.Validate].
 func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
+	return parse(name, bytes.NewReader(data), len(data), opt)
+}
+
+// parse reads a table line by line from r; size, when known, is the input
+// length in bytes and sizes the columns once.
+func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 	if opt.Lo == "" {
 		opt.Lo = DefaultLo
 	}
 	if opt.Hi == "" {
 		opt.Hi = DefaultHi
 	}
-	if bytes.IndexByte(data, 0) >= 0 {
-		line := 1 + bytes.Count(data[:bytes.IndexByte(data, 0)], []byte{'\n'})
-		return nil, Errorf(name, line, 0, "binary data (NUL byte); expected a CSV or TSV table")
-	}
 	t := &Table{Source: name, LoName: opt.Lo, HiName: opt.Hi}
-	// Check UTF-8 once for the whole input; only on failure look for the line.
-	allValid := utf8.Valid(data)
-	// Size the columns once: at most one bin per line.
-	rowsHint := bytes.Count(data, []byte{'\n'}) + 1
 	var (
 		header  []string
 		colIdx  []int // field index -> destination column (-1 lo, -2 hi, >=0 Cols)
@@ -87,20 +91,37 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 		delim   = opt.Delim
 		fields  [][]byte
 		fstarts []int
+		sized   bool
+		long    []byte // a line longer than the read buffer
 	)
-	rest := data
-	for len(rest) > 0 {
+	br := bufio.NewReaderSize(r, 1<<20)
+	for {
+		line, err := br.ReadSlice('\n')
+		if err == bufio.ErrBufferFull {
+			long = append(long[:0], line...)
+			for err == bufio.ErrBufferFull {
+				line, err = br.ReadSlice('\n')
+				long = append(long, line...)
+			}
+			line = long
+		}
+		if err != nil && err != io.EOF {
+			return nil, Errorf(name, lineNo+1, 0, "%v", err)
+		}
+		if len(line) == 0 && err == io.EOF {
+			break
+		}
 		lineNo++
-		var line []byte
-		if i := bytes.IndexByte(rest, '\n'); i >= 0 {
-			line, rest = rest[:i], rest[i+1:]
-		} else {
-			line, rest = rest, nil
+		if n := len(line); n > 0 && line[n-1] == '\n' {
+			line = line[:n-1]
 		}
 		if n := len(line); n > 0 && line[n-1] == '\r' {
 			line = line[:n-1]
 		}
-		if !allValid && !utf8.Valid(line) {
+		if i := bytes.IndexByte(line, 0); i >= 0 {
+			return nil, Errorf(name, lineNo, i+1, "binary data (NUL byte); expected a CSV or TSV table")
+		}
+		if !utf8.Valid(line) {
 			col := 1
 			for col <= len(line) {
 				r, size := utf8.DecodeRune(line[col-1:])
@@ -131,20 +152,37 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 			if err != nil {
 				return nil, err
 			}
-			t.Lo, t.Hi = make([]float64, 0, rowsHint), make([]float64, 0, rowsHint)
-			t.Lines = make([]int, 0, rowsHint)
-			for k := range t.Cols {
-				t.Cols[k] = make([]float64, 0, rowsHint)
-			}
 			continue
+		}
+		if !sized && size > 0 {
+			// Size the columns once from the first row's length: the
+			// rows left fit in the bytes left, with a margin.
+			sized = true
+			rows := size/(len(line)+1)*5/4 + 16
+			t.Lo, t.Hi = make([]float64, 0, rows), make([]float64, 0, rows)
+			t.Lines = make([]int32, 0, rows)
+			for k := range t.Cols {
+				t.Cols[k] = make([]float64, 0, rows)
+			}
 		}
 		// One pass over the row: find each field, trim it, parse it.
 		k, pos := 0, 0
 		for {
-			start, stop, end := nextField(line, pos, delim)
 			if k >= len(header) {
 				return nil, raggedErr(name, lineNo, line, delim, len(header))
 			}
+			// Most fields are plain decimals with no blanks: parse them
+			// in the same pass that finds the delimiter.
+			if v, end, ok := plainField(line, pos, delim); ok {
+				t.put(colIdx[k], v)
+				k++
+				if end >= len(line) {
+					break
+				}
+				pos = end + 1
+				continue
+			}
+			start, stop, end := nextField(line, pos, delim)
 			v, msg := parseNumber(line[start:stop])
 			if msg != "" {
 				if n := 1 + bytes.Count(line, []byte{delim}); n != len(header) {
@@ -162,7 +200,10 @@ func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
 		if k != len(header) {
 			return nil, raggedErr(name, lineNo, line, delim, len(header))
 		}
-		t.Lines = append(t.Lines, lineNo)
+		t.Lines = append(t.Lines, int32(lineNo))
+		if err == io.EOF {
+			break
+		}
 	}
 	if header == nil {
 		return nil, Errorf(name, 0, 0, "empty table: no header row")
@@ -315,6 +356,49 @@ func fastDecimal(f []byte) (float64, bool) {
 		v = -v
 	}
 	return v, true
+}
+
+// plainField parses the field at line[pos:] when it is a plain decimal
+// ("-12.375") ending at the delimiter or the end of the line, under the same
+// exactness conditions as fastDecimal. It returns the value and the
+// position of the delimiter (or len(line)).
+func plainField(line []byte, pos int, delim byte) (float64, int, bool) {
+	i, neg := pos, false
+	if i < len(line) && line[i] == '-' {
+		neg, i = true, i+1
+	}
+	var m uint64
+	digits, frac, dot := 0, 0, false
+	for ; i < len(line); i++ {
+		c := line[i]
+		if d := c - '0'; d <= 9 {
+			if digits == 19 {
+				return 0, 0, false
+			}
+			m = m*10 + uint64(d)
+			digits++
+			if dot {
+				frac++
+			}
+			continue
+		}
+		if c == '.' && !dot {
+			dot = true
+			continue
+		}
+		if c == delim {
+			break
+		}
+		return 0, 0, false
+	}
+	if digits == 0 || m >= 1<<53 || frac > 22 {
+		return 0, 0, false
+	}
+	v := float64(m) / pow10[frac]
+	if neg {
+		v = -v
+	}
+	return v, i, true
 }
 
 func hasDigit(f []byte) bool {

@@ -114,7 +114,7 @@ func (s *structured) table(name string, opt CSVOptions, line func(int) int) (*Ta
 			}
 			t.put(idx[k], v)
 		}
-		t.Lines = append(t.Lines, line(r))
+		t.Lines = append(t.Lines, int32(line(r)))
 	}
 	if err := t.Validate(); err != nil {
 		return nil, err

@@ -38,7 +38,7 @@ type Table struct {
 	// Cols holds the data of each column in Names, in the same order.
 	Cols [][]float64
 	// Lines holds the 1-based source line of each bin, when known.
-	Lines []int
+	Lines []int32
 	// Notes are remarks of the reader a user should see (for example
 	// under- and overflow left out of a histogram).
 	Notes []string
@@ -58,7 +58,7 @@ func (t *Table) Column(name string) []float64 {
 // line returns the source line of bin i, or 0 when unknown.
 func (t *Table) line(i int) int {
 	if i < len(t.Lines) {
-		return t.Lines[i]
+		return int(t.Lines[i])
 	}
 	return 0
 }

@@ -18,7 +18,7 @@ func TestParseCSVGood(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := &Table{Source: "t.csv", LoName: "lo", HiName: "hi", Lo: []float64{0, 1.5}, Hi: []float64{1, 2},
-		Names: []string{"rate", "rate_stat"}, Cols: [][]float64{{5, 6}, {0.5, 0.25}}, Lines: []int{4, 6}}
+		Names: []string{"rate", "rate_stat"}, Cols: [][]float64{{5, 6}, {0.5, 0.25}}, Lines: []int32{4, 6}}
 	if diff := cmp.Diff(want, got); diff != "" {
 		t.Errorf("(-want +got)\n%s", diff)
 	}
@@ -41,7 +41,7 @@ func TestParseCSVBad(t *testing.T) {
 		{"empty", "", "t.csv: empty table: no header row"},
 		{"comments only", "# x\n\n", "t.csv: empty table"},
 		{"header only", "lo,hi,y\n", "t.csv: table has a header but no bins"},
-		{"binary", "lo,hi,y\n0,1,\x00\n", "t.csv:2: binary data"},
+		{"binary", "lo,hi,y\n0,1,\x00\n", "t.csv:2:5: binary data"},
 		{"utf8", "lo,hi,y\n0,1,\xff\n", "t.csv:2:5: invalid UTF-8"},
 		{"ragged short", "lo,hi,y\n0,1\n", "t.csv:2:4: row has 2 fields, header has 3"},
 		{"ragged long", "lo,hi,y\n0,1,2,3\n", "t.csv:2:7: row has 4 fields"},
@@ -201,6 +201,27 @@ func FuzzFastDecimal(f *testing.F) {
 		want, err := strconv.ParseFloat(s, 64)
 		if err != nil || v != want {
 			t.Fatalf("fastDecimal(%q) = %v, strconv %v (%v)", s, v, want, err)
+		}
+	})
+}
+
+// FuzzPlainField: the one-pass field parser agrees with strconv whenever it
+// accepts a field.
+func FuzzPlainField(f *testing.F) {
+	for _, s := range []string{"0", "-0.5", "123.456", "9007199254740991", ".5", "1.", "00012.5000", "-", "1e5"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		if strings.ContainsRune(s, ',') {
+			return
+		}
+		v, end, ok := plainField([]byte(s+",x"), 0, ',')
+		if !ok {
+			return
+		}
+		want, err := strconv.ParseFloat(s, 64)
+		if err != nil || v != want || end != len(s) {
+			t.Fatalf("plainField(%q) = %v at %d, strconv %v (%v)", s, v, end, want, err)
 		}
 	})
 }
