@@ -38,7 +38,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 	"slices"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
@@ -150,8 +152,47 @@ func Series(a, b *table.Series, opt Options) (*Result, error) {
 		Diff: make([]float64, n), SigmaDiff: make([]float64, n), Pulls: make([]float64, n),
 		Asymmetric: a.Asymmetric() || b.Asymmetric(),
 	}
+	// Bins are independent: large tables are split over the cores, each
+	// part collecting its own zero-σ bins, merged in order afterwards.
+	parts := splitRange(n)
+	zeros := make([][]int, len(parts))
+	var wg sync.WaitGroup
+	for k, pr := range parts {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			zeros[k] = r.pulls(a, b, opt, pr[0], pr[1])
+		}()
+	}
+	wg.Wait()
+	for _, z := range zeros {
+		r.ZeroSigma = append(r.ZeroSigma, z...)
+	}
+	used := usedPulls(r)
+	r.NDF = len(used)
+	if opt.CovA != nil && opt.CovB != nil {
+		chi2, err := covChi2(r, opt)
+		if err != nil {
+			return nil, err
+		}
+		r.Chi2, r.Covariance = chi2, true
+	} else {
+		for _, p := range used {
+			r.Chi2 += p * p
+		}
+	}
+	shape(r, used)
+	r.warn(opt)
+	r.judge(opt.Limits)
+	return r, nil
+}
+
+// pulls fills differences, combined uncertainties and pulls for bins
+// [lo, hi) and returns the bins whose combined uncertainty is zero.
+func (r *Result) pulls(a, b *table.Series, opt Options, lo, hi int) []int {
+	var zero []int
 	rho := opt.Correlation
-	for i := 0; i < n; i++ {
+	for i := lo; i < hi; i++ {
 		d := a.V[i] - b.V[i]
 		sa, sb := a.Up[i], b.Down[i]
 		if d > 0 {
@@ -171,29 +212,27 @@ func Series(a, b *table.Series, opt Options) (*Result, error) {
 		}
 		r.ErrA[i], r.ErrB[i], r.Diff[i] = sa, sb, d
 		if v <= 0 || math.IsNaN(v) {
-			r.ZeroSigma = append(r.ZeroSigma, i)
+			zero = append(zero, i)
 			continue
 		}
 		r.SigmaDiff[i] = math.Sqrt(v)
 		r.Pulls[i] = d / r.SigmaDiff[i]
 	}
-	used := usedPulls(r)
-	r.NDF = len(used)
-	if opt.CovA != nil && opt.CovB != nil {
-		chi2, err := covChi2(r, opt)
-		if err != nil {
-			return nil, err
-		}
-		r.Chi2, r.Covariance = chi2, true
-	} else {
-		for _, p := range used {
-			r.Chi2 += p * p
-		}
+	return zero
+}
+
+// splitRange cuts [0, n) into one part per core for large n, else one.
+func splitRange(n int) [][2]int {
+	parts := runtime.GOMAXPROCS(0)
+	if n < 1<<16 || parts < 2 {
+		parts = 1
 	}
-	shape(r, used)
-	r.warn(opt)
-	r.judge(opt.Limits)
-	return r, nil
+	size := (n + parts - 1) / parts
+	var out [][2]int
+	for lo := 0; lo < n; lo += size {
+		out = append(out, [2]int{lo, min(lo+size, n)})
+	}
+	return out
 }
 
 func usedPulls(r *Result) []float64 {
@@ -244,6 +283,14 @@ func shape(r *Result, used []float64) {
 	if n == 0 {
 		return
 	}
+	// The KS test is the costliest; it runs beside the other statistics.
+	ksDone := make(chan struct{})
+	go func() {
+		defer close(ksDone)
+		r.KSStat = stats.KSStatistic(used)
+		r.KSP = stats.KSPValue(n, r.KSStat)
+	}()
+	defer func() { <-ksDone }()
 	if r.NDF > 0 {
 		r.PValue = distuv.ChiSquared{K: float64(r.NDF)}.Survival(r.Chi2)
 	}
@@ -268,18 +315,19 @@ func shape(r *Result, used []float64) {
 		}
 	}
 	r.MaxPullP = SidakP(r.MaxAbsPull, n)
-	r.KSStat = stats.KSStatistic(used)
-	r.KSP = stats.KSPValue(n, r.KSStat)
 	// The runs test uses the signs of the differences of the bins that
 	// carry a pull.
-	signs := make([]float64, 0, n)
-	z := 0
-	for i, d := range r.Diff {
-		if z < len(r.ZeroSigma) && r.ZeroSigma[z] == i {
-			z++
-			continue
+	signs := r.Diff
+	if len(r.ZeroSigma) > 0 {
+		signs = make([]float64, 0, n)
+		z := 0
+		for i, d := range r.Diff {
+			if z < len(r.ZeroSigma) && r.ZeroSigma[z] == i {
+				z++
+				continue
+			}
+			signs = append(signs, d)
 		}
-		signs = append(signs, d)
 	}
 	r.RunsPos, r.RunsNeg, r.Runs = stats.Runs(signs)
 	r.RunsP = stats.RunsPValue(r.RunsPos, r.RunsNeg, r.Runs)

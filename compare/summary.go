@@ -66,13 +66,20 @@ func Tables(a, b *table.Table, sels []Selection, edgeTol float64, opt Options) (
 	}
 	out := make([]*Result, 0, len(sels))
 	for _, sel := range sels {
+		var sb *table.Series
+		var errB error
+		done := make(chan struct{})
+		go func() {
+			defer close(done)
+			sb, errB = b.Series(sel)
+		}()
 		sa, err := a.Series(sel)
+		<-done
 		if err != nil {
 			return nil, err
 		}
-		sb, err := b.Series(sel)
-		if err != nil {
-			return nil, err
+		if errB != nil {
+			return nil, errB
 		}
 		r, err := Series(sa, sb, opt)
 		if err != nil {

@@ -3,6 +3,7 @@ package table
 import (
 	"fmt"
 	"os"
+	"math/rand/v2"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -224,4 +225,36 @@ func FuzzPlainField(f *testing.F) {
 			t.Fatalf("plainField(%q) = %v at %d, strconv %v (%v)", s, v, end, want, err)
 		}
 	})
+}
+
+// TestPlainFieldRandom exercises the eight-digit path on many fixed-seed
+// decimals of every length, each followed by more fields so that eight
+// bytes are always available, against strconv.ParseFloat.
+func TestPlainFieldRandom(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 11))
+	for n := 0; n < 200000; n++ {
+		var b strings.Builder
+		if rng.IntN(4) == 0 {
+			b.WriteByte('-')
+		}
+		for k := rng.IntN(12); k >= 0; k-- {
+			b.WriteByte(byte('0' + rng.IntN(10)))
+		}
+		if rng.IntN(3) > 0 {
+			b.WriteByte('.')
+			for k := rng.IntN(14); k > 0; k-- {
+				b.WriteByte(byte('0' + rng.IntN(10)))
+			}
+		}
+		s := b.String()
+		line := []byte(s + ",12345678,9")
+		v, end, ok := plainField(line, 0, ',')
+		want, err := strconv.ParseFloat(s, 64)
+		if !ok {
+			continue
+		}
+		if err != nil || v != want || end != len(s) {
+			t.Fatalf("plainField(%q) = %v at %d, strconv %v (%v)", s, v, end, want, err)
+		}
+	}
 }
