@@ -2,8 +2,8 @@ package table
 
 import (
 	"fmt"
-	"os"
 	"math/rand/v2"
+	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
