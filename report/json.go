@@ -71,14 +71,37 @@ func JSONValue(s *compare.Summary) any {
 		if e.Teams[0] != "" {
 			je.Teams = []string{e.Teams[0], e.Teams[1]}
 		}
-		for i, c := range je.Criteria {
-			if math.IsInf(c.Value, 0) {
-				je.Criteria[i].Value = math.MaxFloat64
+		for i := range je.Criteria {
+			je.Criteria[i].Value = jsonNumber(je.Criteria[i].Value)
+		}
+		for _, f := range []*float64{&je.Chi2, &je.PValue, &je.PullMean, &je.PullMeanErr, &je.PullWidth,
+			&je.PullWidthErr, &je.MaxAbsPull, &je.MaxPullP, &je.KSStatistic, &je.KSP, &je.RunsP} {
+			*f = jsonNumber(*f)
+		}
+		if slices.ContainsFunc(je.Pulls, func(p float64) bool { return math.IsInf(p, 0) || math.IsNaN(p) }) {
+			je.Pulls = slices.Clone(je.Pulls)
+			for i := range je.Pulls {
+				je.Pulls[i] = jsonNumber(je.Pulls[i])
 			}
 		}
 		out.Observables = append(out.Observables, je)
 	}
 	return out
+}
+
+// jsonNumber keeps a value representable in JSON: an overflow to ±Inf
+// (a pull of a huge difference over a tiny uncertainty) becomes
+// ±MaxFloat64, and NaN becomes 0.
+func jsonNumber(v float64) float64 {
+	switch {
+	case math.IsNaN(v):
+		return 0
+	case math.IsInf(v, 1):
+		return math.MaxFloat64
+	case math.IsInf(v, -1):
+		return -math.MaxFloat64
+	}
+	return v
 }
 
 // JSON writes s as one indented JSON object followed by a newline.

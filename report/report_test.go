@@ -285,3 +285,20 @@ func BenchmarkHTML500(b *testing.B) {
 	}
 	b.ReportMetric(float64(size), "html-bytes")
 }
+
+func TestJSONSurvivesOverflow(t *testing.T) {
+	a := &table.Series{Column: "y", Lo: []float64{0, 1}, Hi: []float64{1, 2}, V: []float64{1e300, 1}, Down: []float64{1e-10, 1}}
+	b := &table.Series{Column: "y", Lo: a.Lo, Hi: a.Hi, V: []float64{-1e300, 1}, Down: []float64{1e-10, 1}}
+	a.Up, b.Up = a.Down, b.Down
+	r, err := compare.Series(a, b, compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "o", Result: r}}}); err != nil {
+		t.Fatalf("JSON with an infinite pull: %v", err)
+	}
+	if !strings.Contains(buf.String(), `"verdict": "fail"`) {
+		t.Errorf("verdict lost:\n%s", buf.String())
+	}
+}
