@@ -143,7 +143,7 @@ func Canonical(o *Observable, t *table.Table) (*table.Table, error) {
 			return nil, table.Errorf(t.Source, 0, 0, "column %q is not declared for observable %q (declared: %s)", n, o.Name, strings.Join(names, ", "))
 		}
 	}
-	out := &table.Table{Source: t.Source, LoName: o.Edges[0], HiName: o.Edges[1], Lo: t.Lo, Hi: t.Hi, Lines: t.Lines}
+	out := &table.Table{Source: t.Source, LoName: o.Edges[0], HiName: o.Edges[1], Lo: t.Lo, Hi: t.Hi, Lines: t.Lines, FirstLine: t.FirstLine}
 	for _, n := range names {
 		col := t.Column(n)
 		if col == nil {

@@ -148,9 +148,14 @@ func Series(a, b *table.Series, opt Options) (*Result, error) {
 	}
 	r := &Result{
 		Column: a.Column, Bins: n, Lo: a.Lo, Hi: a.Hi, A: a.V, B: b.V,
-		ErrA: make([]float64, n), ErrB: make([]float64, n),
 		Diff: make([]float64, n), SigmaDiff: make([]float64, n), Pulls: make([]float64, n),
 		Asymmetric: a.Asymmetric() || b.Asymmetric(),
+	}
+	if r.Asymmetric {
+		// the error used on each side depends on the sign of the difference
+		r.ErrA, r.ErrB = make([]float64, n), make([]float64, n)
+	} else {
+		r.ErrA, r.ErrB = a.Down, b.Down
 	}
 	// Bins are independent: large tables are split over the cores, each
 	// part collecting its own zero-σ bins, merged in order afterwards.
@@ -210,7 +215,10 @@ func (r *Result) pulls(a, b *table.Series, opt Options, lo, hi int) []int {
 				v -= 2 * opt.CovCross.At(i, i)
 			}
 		}
-		r.ErrA[i], r.ErrB[i], r.Diff[i] = sa, sb, d
+		if r.Asymmetric {
+			r.ErrA[i], r.ErrB[i] = sa, sb
+		}
+		r.Diff[i] = d
 		if v <= 0 || math.IsNaN(v) {
 			zero = append(zero, i)
 			continue

@@ -36,15 +36,20 @@ func KSStatistic(x []float64) float64 {
 		start[k] += start[k-1]
 	}
 	sorted := make([]float64, n)
-	next := slices.Clone(start[:n])
 	for _, v := range u {
 		c := cell(v, n)
-		sorted[next[c]] = v
-		next[c]++
+		sorted[start[c]] = v
+		start[c]++
 	}
-	for k := 0; k < n; k++ {
-		if start[k+1]-start[k] > 1 {
-			slices.Sort(sorted[start[k]:start[k+1]])
+	// start[c] has moved to the end of cell c; order each cell (usually
+	// one value; many when the pulls crowd together, hence a real sort).
+	lo := int32(0)
+	for c := 0; c < n; c++ {
+		if hi := start[c]; hi-lo > 1 {
+			slices.Sort(sorted[lo:hi])
+			lo = hi
+		} else {
+			lo = hi
 		}
 	}
 	nf := float64(n)

@@ -213,3 +213,16 @@ func TestGonumDistributions(t *testing.T) {
 		}
 	}
 }
+
+// TestKSCrowdedPulls: pulls crowded into a few cells (chains that agree to
+// rounding) must not make the ordering quadratic, and D is then close to
+// 1/2 (all values near the median).
+func TestKSCrowdedPulls(t *testing.T) {
+	x := make([]float64, 200000)
+	for i := range x {
+		x[i] = 1e-6 * float64(i%1000-500)
+	}
+	if d := KSStatistic(x); math.Abs(d-0.5) > 1e-3 {
+		t.Errorf("D = %v, want about 0.5", d)
+	}
+}

@@ -118,23 +118,18 @@ func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 		if n := len(line); n > 0 && line[n-1] == '\r' {
 			line = line[:n-1]
 		}
-		if i := bytes.IndexByte(line, 0); i >= 0 {
-			return nil, Errorf(name, lineNo, i+1, "binary data (NUL byte); expected a CSV or TSV table")
-		}
-		if !utf8.Valid(line) {
-			col := 1
-			for col <= len(line) {
-				r, size := utf8.DecodeRune(line[col-1:])
-				if r == utf8.RuneError && size <= 1 {
-					break
-				}
-				col += size
-			}
-			return nil, Errorf(name, lineNo, col, "invalid UTF-8; expected a text table")
-		}
 		lead := 0
 		for lead < len(line) && (line[lead] == ' ' || line[lead] == '\t') {
 			lead++
+		}
+		// Rows the fast path parses whole are ASCII digits and
+		// delimiters; every other line is checked for binary data and
+		// UTF-8 before it is used (or skipped).
+		plain := header != nil && lead == 0 && len(line) > 0
+		if !plain {
+			if err := checkText(name, lineNo, line); err != nil {
+				return nil, err
+			}
 		}
 		if lead == len(line) || line[lead] == '#' {
 			continue
@@ -160,7 +155,6 @@ func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 			sized = true
 			rows := size/(len(line)+1)*5/4 + 16
 			t.Lo, t.Hi = make([]float64, 0, rows), make([]float64, 0, rows)
-			t.Lines = make([]int32, 0, rows)
 			for k := range t.Cols {
 				t.Cols[k] = make([]float64, 0, rows)
 			}
@@ -182,6 +176,12 @@ func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 				pos = end + 1
 				continue
 			}
+			if plain {
+				if err := checkText(name, lineNo, line); err != nil {
+					return nil, err
+				}
+				plain = false
+			}
 			start, stop, end := nextField(line, pos, delim)
 			v, msg := parseNumber(line[start:stop])
 			if msg != "" {
@@ -200,7 +200,20 @@ func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 		if k != len(header) {
 			return nil, raggedErr(name, lineNo, line, delim, len(header))
 		}
-		t.Lines = append(t.Lines, int32(lineNo))
+		// Line numbers are kept only once rows stop being consecutive.
+		switch row := len(t.Lo) - 1; {
+		case row == 0:
+			t.FirstLine = lineNo
+		case t.Lines == nil && lineNo != t.FirstLine+row:
+			t.Lines = make([]int32, row, row+16)
+			for j := range t.Lines {
+				t.Lines[j] = int32(t.FirstLine + j)
+			}
+			t.FirstLine = 0
+			fallthrough
+		case t.Lines != nil:
+			t.Lines = append(t.Lines, int32(lineNo))
+		}
 		if err == io.EOF {
 			break
 		}
@@ -249,6 +262,26 @@ func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int
 		}
 	}
 	return header, idx, nil
+}
+
+// checkText refuses a line with a NUL byte or invalid UTF-8, pointing at
+// the first bad byte.
+func checkText(name string, lineNo int, line []byte) error {
+	if i := bytes.IndexByte(line, 0); i >= 0 {
+		return Errorf(name, lineNo, i+1, "binary data (NUL byte); expected a CSV or TSV table")
+	}
+	if utf8.Valid(line) {
+		return nil
+	}
+	col := 1
+	for col <= len(line) {
+		r, size := utf8.DecodeRune(line[col-1:])
+		if r == utf8.RuneError && size <= 1 {
+			break
+		}
+		col += size
+	}
+	return Errorf(name, lineNo, col, "invalid UTF-8; expected a text table")
 }
 
 // nextField finds the field that begins at pos: its trimmed extent
@@ -367,31 +400,29 @@ func plainField(line []byte, pos int, delim byte) (float64, int, bool) {
 	if i < len(line) && line[i] == '-' {
 		neg, i = true, i+1
 	}
+	// Integer digits, then fraction digits, in two tight loops; m may
+	// overflow on more than 19 digits, which the count check then rejects.
 	var m uint64
-	digits, frac, dot := 0, 0, false
-	for ; i < len(line); i++ {
-		c := line[i]
-		if d := c - '0'; d <= 9 {
-			if digits == 19 {
-				return 0, 0, false
-			}
-			m = m*10 + uint64(d)
-			digits++
-			if dot {
-				frac++
-			}
-			continue
+	start := i
+	for i < len(line) && line[i]-'0' <= 9 {
+		m = m*10 + uint64(line[i]-'0')
+		i++
+	}
+	digits, frac := i-start, 0
+	if i < len(line) && line[i] == '.' {
+		i++
+		fstart := i
+		for i < len(line) && line[i]-'0' <= 9 {
+			m = m*10 + uint64(line[i]-'0')
+			i++
 		}
-		if c == '.' && !dot {
-			dot = true
-			continue
-		}
-		if c == delim {
-			break
-		}
+		frac = i - fstart
+		digits += frac
+	}
+	if i < len(line) && line[i] != delim {
 		return 0, 0, false
 	}
-	if digits == 0 || m >= 1<<53 || frac > 22 {
+	if digits == 0 || digits > 19 || m >= 1<<53 || frac > 22 {
 		return 0, 0, false
 	}
 	v := float64(m) / pow10[frac]

@@ -37,8 +37,11 @@ type Table struct {
 	Names []string
 	// Cols holds the data of each column in Names, in the same order.
 	Cols [][]float64
-	// Lines holds the 1-based source line of each bin, when known.
-	Lines []int32
+	// Lines holds the 1-based source line of each bin, when known. When it
+	// is nil and FirstLine > 0, bin i is on line FirstLine + i (a file
+	// without comment or blank lines among its rows).
+	Lines     []int32
+	FirstLine int
 	// Notes are remarks of the reader a user should see (for example
 	// under- and overflow left out of a histogram).
 	Notes []string
@@ -59,6 +62,9 @@ func (t *Table) Column(name string) []float64 {
 func (t *Table) line(i int) int {
 	if i < len(t.Lines) {
 		return int(t.Lines[i])
+	}
+	if t.Lines == nil && t.FirstLine > 0 {
+		return t.FirstLine + i
 	}
 	return 0
 }

@@ -146,7 +146,7 @@ func FuzzParseCSV(f *testing.F) {
 		if err != nil {
 			t.Fatalf("round trip failed: %v\n%s", err, b.String())
 		}
-		again.Source, again.Lines = tb.Source, tb.Lines
+		again.Source, again.Lines, again.FirstLine = tb.Source, tb.Lines, tb.FirstLine
 		if diff := cmp.Diff(tb, again); diff != "" {
 			t.Fatalf("round trip changed the table (-first +second)\n%s", diff)
 		}
@@ -255,6 +255,29 @@ func TestPlainFieldRandom(t *testing.T) {
 		}
 		if err != nil || v != want || end != len(s) {
 			t.Fatalf("plainField(%q) = %v at %d, strconv %v (%v)", s, v, end, want, err)
+		}
+	}
+}
+
+// TestLineNumbers: bins keep their source lines whether or not comments
+// sit between the rows.
+func TestLineNumbers(t *testing.T) {
+	for _, c := range []struct {
+		in   string
+		want []int
+	}{
+		{"lo,hi,y\n0,1,1\n1,2,1\n2,3,1\n", []int{2, 3, 4}},
+		{"# c\nlo,hi,y\n0,1,1\n\n1,2,1\n# c\n2,3,1\n", []int{3, 5, 7}},
+		{"lo,hi,y\n0,1,1\n1,2,1\n# late comment\n2,3,1\n", []int{2, 3, 5}},
+	} {
+		tb, err := ParseCSV("t.csv", []byte(c.in), CSVOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, w := range c.want {
+			if got := tb.line(i); got != w {
+				t.Errorf("%q: bin %d on line %d, want %d", c.in, i, got, w)
+			}
 		}
 	}
 }
