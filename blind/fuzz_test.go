@@ -100,3 +100,20 @@ func FuzzSSHSig(f *testing.F) {
 		sshsig.Parse(data) // must not panic
 	})
 }
+
+// FuzzKeyFile: the key-file parser never panics and accepts only the one
+// canonical form.
+func FuzzKeyFile(f *testing.F) {
+	for _, s := range seeds(f, "*.key") {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, data []byte) {
+		k, err := parseKey(data)
+		if err != nil {
+			return
+		}
+		if string(k.marshal()) != string(data) {
+			t.Fatalf("accepted a non-canonical key file %q", data)
+		}
+	})
+}

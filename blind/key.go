@@ -67,13 +67,13 @@ func parseKey(data []byte) (*Key, error) {
 		return nil, fmt.Errorf("not a %s campaign key", FormatV1)
 	}
 	s, ok = strings.CutPrefix(s, "key: ")
-	s = strings.TrimSuffix(s, "\n")
-	if !ok || len(s) != 64 {
+	s, nl := strings.CutSuffix(s, "\n")
+	if !ok || !nl || len(s) != 64 {
 		return nil, fmt.Errorf("malformed campaign key")
 	}
 	var k Key
-	if _, err := hex.Decode(k.b[:], []byte(s)); err != nil {
-		return nil, fmt.Errorf("malformed campaign key")
+	if _, err := hex.Decode(k.b[:], []byte(s)); err != nil || hex.EncodeToString(k.b[:]) != s {
+		return nil, fmt.Errorf("malformed campaign key") // lowercase hex only: one canonical form
 	}
 	return &k, nil
 }
