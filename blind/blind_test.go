@@ -17,7 +17,6 @@ import (
 
 	"tandem/blind"
 	"tandem/blind/demo"
-	"tandem/compare"
 	"tandem/compare/table"
 )
 
@@ -209,8 +208,6 @@ func TestSSHKeygenInterop(t *testing.T) {
 		t.Errorf("verify: %v", r.Problems)
 	}
 }
-
-func ids(t *testing.T, dir string) *blind.Campaign { return custodian(t, dir) }
 
 func unblind(t *testing.T, dir string) error {
 	t.Helper()
@@ -498,5 +495,3 @@ func TestWrongIdentity(t *testing.T) {
 		t.Errorf("blinded/ written with a wrong identity")
 	}
 }
-
-var _ = compare.DefaultLimits

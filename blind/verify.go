@@ -8,12 +8,11 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 
 	"filippo.io/age"
-
-	"tandem/compare/table"
 )
 
 // latestFiles maps every file the ledger covers to its latest digest.
@@ -244,7 +243,7 @@ func (c *Campaign) Unblind(ids []age.Identity) ([]Slot, error) {
 	status, extra := c.CheckSignoffs()
 	probs = append(probs, extra...)
 	for _, s := range status {
-		if s.Present && !s.Valid && !contains(c.Protocol.Quorum, s.Party) {
+		if s.Present && !s.Valid && !slices.Contains(c.Protocol.Quorum, s.Party) {
 			probs = append(probs, s.Problems...)
 		}
 	}
@@ -289,18 +288,7 @@ func (c *Campaign) Unblind(ids []age.Identity) ([]Slot, error) {
 	return slots, err
 }
 
-func contains(list []string, s string) bool {
-	for _, x := range list {
-		if x == s {
-			return true
-		}
-	}
-	return false
-}
-
 func mustRead(p string) []byte {
 	b, _ := os.ReadFile(p)
 	return b
 }
-
-var _ = table.Format

@@ -173,7 +173,7 @@ func Series(a, b *table.Series, opt Options) (*Result, error) {
 	for _, z := range zeros {
 		r.ZeroSigma = append(r.ZeroSigma, z...)
 	}
-	used := usedPulls(r)
+	used := r.withoutZeroSigma(r.Pulls)
 	r.NDF = len(used)
 	if opt.CovA != nil && opt.CovB != nil {
 		chi2, err := covChi2(r, opt)
@@ -243,20 +243,22 @@ func splitRange(n int) [][2]int {
 	return out
 }
 
-func usedPulls(r *Result) []float64 {
+// withoutZeroSigma returns the per-bin values xs of the bins that carry a
+// pull, leaving out the zero-σ bins (xs itself when there are none).
+func (r *Result) withoutZeroSigma(xs []float64) []float64 {
 	if len(r.ZeroSigma) == 0 {
-		return r.Pulls
+		return xs
 	}
-	used := make([]float64, 0, r.Bins-len(r.ZeroSigma))
+	out := make([]float64, 0, len(xs)-len(r.ZeroSigma))
 	z := 0
-	for i, p := range r.Pulls {
+	for i, x := range xs {
 		if z < len(r.ZeroSigma) && r.ZeroSigma[z] == i {
 			z++
 			continue
 		}
-		used = append(used, p)
+		out = append(out, x)
 	}
-	return used
+	return out
 }
 
 // covChi2 computes dᵀ W⁻¹ d over all bins by Cholesky factorisation.
@@ -325,19 +327,7 @@ func shape(r *Result, used []float64) {
 	r.MaxPullP = SidakP(r.MaxAbsPull, n)
 	// The runs test uses the signs of the differences of the bins that
 	// carry a pull.
-	signs := r.Diff
-	if len(r.ZeroSigma) > 0 {
-		signs = make([]float64, 0, n)
-		z := 0
-		for i, d := range r.Diff {
-			if z < len(r.ZeroSigma) && r.ZeroSigma[z] == i {
-				z++
-				continue
-			}
-			signs = append(signs, d)
-		}
-	}
-	r.RunsPos, r.RunsNeg, r.Runs = stats.Runs(signs)
+	r.RunsPos, r.RunsNeg, r.Runs = stats.Runs(r.withoutZeroSigma(r.Diff))
 	r.RunsP = stats.RunsPValue(r.RunsPos, r.RunsNeg, r.Runs)
 }
 

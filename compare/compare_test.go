@@ -11,7 +11,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 
-	"tandem/compare/stats"
 	"tandem/compare/table"
 )
 
@@ -356,5 +355,4 @@ func TestSidak(t *testing.T) {
 	if p := SidakP(0, 100); p != 1 {
 		t.Errorf("SidakP(0, 100) = %v", p)
 	}
-	_ = stats.Runs
 }

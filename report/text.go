@@ -3,6 +3,7 @@ package report
 import (
 	"fmt"
 	"io"
+	"math"
 	"text/tabwriter"
 
 	"tandem/compare"
@@ -114,17 +115,10 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 func passPull(e compare.Entry, i int) bool {
 	for _, c := range e.Criteria {
 		if c.Name == "max |pull|" {
-			return abs(e.Pulls[i]) <= c.Limit
+			return math.Abs(e.Pulls[i]) <= c.Limit
 		}
 	}
 	return true
-}
-
-func abs(x float64) float64 {
-	if x < 0 {
-		return -x
-	}
-	return x
 }
 
 // ordered returns the entries with failing ones first, otherwise in order.

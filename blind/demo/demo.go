@@ -19,6 +19,7 @@ import (
 	mrand "math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 
@@ -56,7 +57,7 @@ func Build(dir string, opt Options) error {
 	if logf == nil {
 		logf = func(string, ...any) {}
 	}
-	if opt.StopBefore != "" && !contains(Steps, opt.StopBefore) {
+	if opt.StopBefore != "" && !slices.Contains(Steps, opt.StopBefore) {
 		return fmt.Errorf("unknown step %q (steps: %s)", opt.StopBefore, strings.Join(Steps, ", "))
 	}
 	if entries, err := os.ReadDir(dir); err == nil && len(entries) > 0 {
@@ -170,15 +171,6 @@ func Build(dir string, opt Options) error {
 	}
 	logf("verify: ledger chain, digests, signatures, quorum and every commitment hold")
 	return nil
-}
-
-func contains(list []string, s string) bool {
-	for _, x := range list {
-		if x == s {
-			return true
-		}
-	}
-	return false
 }
 
 // makeSSHKey writes an OpenSSH ed25519 key pair (private key mode 0600).

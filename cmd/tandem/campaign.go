@@ -9,6 +9,7 @@ import (
 	"net"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 
@@ -686,7 +687,7 @@ func runReport(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if format != "" && !contains(report.Formats, format) {
+	if format != "" && !slices.Contains(report.Formats, format) {
 		return usageErr("--format %q is not one of %s", format, strings.Join(report.Formats, ", "))
 	}
 	if format == "" && output != "" {
@@ -724,13 +725,4 @@ func extensions() []string {
 		out = append(out, strings.TrimPrefix(report.Extension(f), "."))
 	}
 	return out
-}
-
-func contains(list []string, s string) bool {
-	for _, x := range list {
-		if x == s {
-			return true
-		}
-	}
-	return false
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"tandem/blind"
@@ -32,7 +33,7 @@ func runDemo(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if stop != "" && !contains(demo.Steps, stop) {
+	if stop != "" && !slices.Contains(demo.Steps, stop) {
 		return usageErr("--stop-before %q is not a step (%s)", stop, strings.Join(demo.Steps, ", "))
 	}
 	err = demo.Build(dir, demo.Options{
