@@ -9,8 +9,10 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+
 	"sort"
 	"strings"
+	"tandem/compare/table"
 
 	"filippo.io/age"
 )
@@ -262,7 +264,11 @@ func (c *Campaign) Unblind(ids []age.Identity) ([]Slot, error) {
 		if err != nil {
 			return nil, err
 		}
-		if !bytes.Equal(c.blindedFile(k, f, st[s].Commitment), mustRead(c.path(s.BlindedPath()))) {
+		blinded, err := os.ReadFile(c.path(s.BlindedPath()))
+		if err != nil {
+			return nil, table.Errorf(c.path(s.BlindedPath()), 0, 0, "%v", unwrapPath(err))
+		}
+		if !bytes.Equal(c.blindedFile(k, f, st[s].Commitment), blinded) {
 			return nil, &RefusedError{Step: "unblind", Problems: []string{s.BlindedPath() + ": does not equal the sealed table blinded with K"}}
 		}
 		u := *f
@@ -286,9 +292,4 @@ func (c *Campaign) Unblind(ids []age.Identity) ([]Slot, error) {
 		"signed_by": strings.Join(signers, ","), "key_salt": hex.EncodeToString(salt),
 	}})
 	return slots, err
-}
-
-func mustRead(p string) []byte {
-	b, _ := os.ReadFile(p)
-	return b
 }

@@ -205,21 +205,17 @@ func runCompare(e *env, args []string) error {
 }
 
 func readCovariances(opt *compare.Options, cf *compareFlags, n int) error {
-	va, err := table.ReadMatrixFile(cf.covA, n)
+	va, err := table.ReadMatrixFile(cf.covA, n, true)
 	if err != nil {
 		return inputErr(err)
 	}
-	vb, err := table.ReadMatrixFile(cf.covB, n)
+	vb, err := table.ReadMatrixFile(cf.covB, n, true)
 	if err != nil {
 		return inputErr(err)
 	}
 	opt.CovA, opt.CovB = symDense(va), symDense(vb)
 	if cf.covAB != "" {
-		data, err := os.ReadFile(cf.covAB)
-		if err != nil {
-			return inputErr(table.Errorf(cf.covAB, 0, 0, "%v", err))
-		}
-		c, err := table.ParseMatrix(cf.covAB, data, n, false)
+		c, err := table.ReadMatrixFile(cf.covAB, n, false)
 		if err != nil {
 			return inputErr(err)
 		}

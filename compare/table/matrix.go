@@ -7,16 +7,16 @@ import (
 	"unicode/utf8"
 )
 
-// ReadMatrixFile reads a square covariance matrix from a CSV file: one row
-// per line, comma- (or tab-) separated numbers, no header; '#' comment lines
-// and blank lines are ignored. It must be n×n and symmetric within a
-// relative 1e-9.
-func ReadMatrixFile(path string, n int) ([][]float64, error) {
+// ReadMatrixFile reads a square matrix from a CSV file: one row per line,
+// comma- (or tab-) separated numbers, no header; '#' comment lines and blank
+// lines are ignored. It must be n×n, and with symmetric (a covariance of
+// one chain) also symmetric within a relative 1e-9; see [ParseMatrix].
+func ReadMatrixFile(path string, n int, symmetric bool) ([][]float64, error) {
 	data, err := os.ReadFile(path)
 	if err != nil {
 		return nil, Errorf(path, 0, 0, "%v", unwrapPath(err))
 	}
-	return ParseMatrix(path, data, n, true)
+	return ParseMatrix(path, data, n, symmetric)
 }
 
 // ParseMatrix parses an n×n matrix; symmetric requires M = Mᵀ (covariance
