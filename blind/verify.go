@@ -9,12 +9,12 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-
 	"sort"
 	"strings"
-	"tandem/compare/table"
 
 	"filippo.io/age"
+
+	"tandem/compare/table"
 )
 
 // latestFiles maps every file the ledger covers to its latest digest.
