@@ -1,6 +1,7 @@
 package compare
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"slices"
@@ -34,7 +35,11 @@ func Columns(a, b *table.Table, sels []Selection, opt Options) ([]*Result, error
 			return nil, err
 		}
 		r, err := compareSides(s, &opt)
-		if err != nil {
+		var nu *NoUncertaintyError
+		switch {
+		case errors.As(err, &nu):
+			return nil, err
+		case err != nil:
 			return nil, fmt.Errorf("column %q: %w", sel.Value, err)
 		}
 		out = append(out, r)

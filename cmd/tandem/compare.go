@@ -223,17 +223,7 @@ func runCompare(e *env, args []string) error {
 			e.warnf("%s", n)
 		}
 	}
-	var sels []compare.Selection
-	if len(cf.values) == 0 {
-		sels = table.DefaultSelections(a)
-	}
-	for _, v := range cf.values {
-		if len(cf.errs) > 0 {
-			sels = append(sels, compare.Selection{Value: v, Errors: cf.errs})
-		} else {
-			sels = append(sels, table.ConventionalSelection(a, v, len(cf.values) == 1))
-		}
-	}
+	sels := cf.selections(a, b)
 	copt := cf.opt
 	if cf.covA != "" {
 		if err := readCovariances(&copt, &cf, a.Len()); err != nil {
@@ -276,6 +266,37 @@ func runCompare(e *env, args []string) error {
 		return silentFail
 	}
 	return nil
+}
+
+// selections are the compared columns: --value (or every column that is
+// not an edge, an uncertainty or a correlation or event-count column, and
+// that both tables have), each
+// with the --error sources or the conventionally named ones.
+func (cf *compareFlags) selections(a, b *table.Table) []compare.Selection {
+	if len(cf.values) == 0 && len(cf.errs) == 0 {
+		return table.DefaultSelections(a)
+	}
+	values := cf.values
+	if len(values) == 0 {
+		aux := append(slices.Clone([]string(cf.errs)), cf.opt.Overlap.Count, cf.opt.Overlap.Common, cf.opt.Default.Column)
+		for _, r := range cf.opt.Correlations {
+			aux = append(aux, r.Column)
+		}
+		for _, s := range table.DefaultSelections(a) {
+			if !slices.Contains(aux, s.Value) && b.Column(s.Value) != nil {
+				values = append(values, s.Value)
+			}
+		}
+	}
+	var sels []compare.Selection
+	for _, v := range values {
+		if len(cf.errs) > 0 {
+			sels = append(sels, compare.Selection{Value: v, Errors: cf.errs})
+		} else {
+			sels = append(sels, table.ConventionalSelection(a, v, len(values) == 1))
+		}
+	}
+	return sels
 }
 
 func readCovariances(opt *compare.Options, cf *compareFlags, n int) error {
