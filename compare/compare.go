@@ -259,6 +259,15 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 	if cov && (opt.CovA.SymmetricDim() != n || opt.CovB.SymmetricDim() != n) {
 		return nil, fmt.Errorf("covariance matrices are %d×%d and %d×%d for %d bins", opt.CovA.SymmetricDim(), opt.CovA.SymmetricDim(), opt.CovB.SymmetricDim(), opt.CovB.SymmetricDim(), n)
 	}
+	if c := e.Default; cov && opt.CovCross == nil && c.Set && c.Value != 0 {
+		cross, err := CrossFromCorrelation(opt.CovA, opt.CovB, c.Value)
+		if err != nil {
+			return nil, err
+		}
+		o := *opt
+		o.CovCross = cross
+		opt = &o
+	}
 	r := &Result{
 		Column: s.column, LabelA: s.labelA, LabelB: s.labelB, Bins: n, Lo: s.lo, Hi: s.hi, A: s.a, B: s.b,
 		Diff: make([]float64, n), SigmaDiff: make([]float64, n), Pulls: make([]float64, n),
@@ -510,16 +519,50 @@ func covChi2(r *Result, opt *Options) (float64, float64, error) {
 	return mat.Dot(d, &x), cond, nil
 }
 
-// notPD wraps ErrNotPositiveDefinite with W's smallest eigenvalue.
-func notPD(w *mat.SymDense) error {
-	var es mat.EigenSym
-	if es.Factorize(w, false) {
-		vals := es.Values(nil)
-		if len(vals) > 0 {
-			return fmt.Errorf("%w: its smallest eigenvalue is %.4g", ErrNotPositiveDefinite, vals[0])
+// CrossFromCorrelation is the cross-covariance of two chains whose errors
+// are e_a = L_a u and e_b = L_b v, with V = L Lᵀ the Cholesky factors and u,
+// v unit normal vectors correlated by ρ component by component:
+//
+//	C = cov(e_a, e_b) = ρ L_a L_bᵀ
+//
+// For diagonal matrices C_ii = ρ σ_a,i σ_b,i, the per-bin rule, and
+// W = V_a + V_b - C - Cᵀ stays positive semi-definite for |ρ| <= 1. Under
+// blinding (V_ij scaled by s_i s_j) C scales the same way, so χ² is
+// unchanged.
+func CrossFromCorrelation(va, vb *mat.SymDense, rho float64) (*mat.Dense, error) {
+	var ca, cb mat.Cholesky
+	for _, x := range []struct {
+		ch   *mat.Cholesky
+		v    *mat.SymDense
+		name string
+	}{{&ca, va, "first"}, {&cb, vb, "second"}} {
+		if !x.ch.Factorize(x.v) {
+			return nil, fmt.Errorf("the covariance matrix of the %s chain is not positive definite (smallest eigenvalue %.4g)", x.name, minEigen(x.v))
 		}
 	}
-	return ErrNotPositiveDefinite
+	var la, lb mat.TriDense
+	ca.LTo(&la)
+	cb.LTo(&lb)
+	var c mat.Dense
+	c.Mul(&la, lb.T())
+	c.Scale(rho, &c)
+	return &c, nil
+}
+
+// notPD wraps ErrNotPositiveDefinite with W's smallest eigenvalue.
+func notPD(w *mat.SymDense) error {
+	return fmt.Errorf("%w: its smallest eigenvalue is %.4g", ErrNotPositiveDefinite, minEigen(w))
+}
+
+// minEigen is the smallest eigenvalue of v, or NaN if it cannot be found.
+func minEigen(v *mat.SymDense) float64 {
+	var es mat.EigenSym
+	if es.Factorize(v, false) {
+		if vals := es.Values(nil); len(vals) > 0 {
+			return vals[0]
+		}
+	}
+	return math.NaN()
 }
 
 // shape fills the pull-distribution statistics from the used pulls.
