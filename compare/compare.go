@@ -271,8 +271,15 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 	r := &Result{
 		Column: s.column, LabelA: s.labelA, LabelB: s.labelB, Bins: n, Lo: s.lo, Hi: s.hi, A: s.a, B: s.b,
 		Diff: make([]float64, n), SigmaDiff: make([]float64, n), Pulls: make([]float64, n),
-		ErrA: make([]float64, n), ErrB: make([]float64, n), Asymmetric: s.asym,
+		Asymmetric: s.asym,
 	}
+	if len(s.src) == 1 && !s.asym && !cov {
+		// one symmetric source: its errors are the totals
+		r.ErrA, r.ErrB = s.src[0].downA, s.src[0].downB
+	} else {
+		r.ErrA, r.ErrB = make([]float64, n), make([]float64, n)
+	}
+	ownErrs := len(s.src) != 1 || s.asym || cov
 	// Bins are independent: large tables are split over the cores, each
 	// part collecting its own zero-σ bins and source shares, merged in
 	// order afterwards.
@@ -283,7 +290,7 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			outs[k] = r.pulls(s, opt, pr[0], pr[1])
+			outs[k] = r.pulls(s, opt, pr[0], pr[1], ownErrs)
 		}()
 	}
 	wg.Wait()
@@ -330,10 +337,11 @@ type binsOut struct {
 }
 
 // pulls fills differences, combined uncertainties and pulls for bins
-// [lo, hi). Every σ is scaled by a power of two (exact) so that its
-// largest one is in [0.5, 1) before squaring, which keeps 1e-200 and
-// 1e200 errors from under- or overflowing.
-func (r *Result) pulls(s *sides, opt *Options, lo, hi int) binsOut {
+// [lo, hi). When a bin's largest σ is below 2⁻⁵⁰⁰ or above 2⁵⁰⁰, every σ
+// of the bin is scaled by a power of two (exact) so that the largest is in
+// [0.5, 1) before squaring, which keeps 1e-200 and 1e200 errors from
+// under- or overflowing; in between, squares cannot over- or underflow.
+func (r *Result) pulls(s *sides, opt *Options, lo, hi int, ownErrs bool) binsOut {
 	var out binsOut
 	K := len(s.src)
 	cov := opt.CovA != nil && opt.CovB != nil
@@ -358,9 +366,14 @@ func (r *Result) pulls(s *sides, opt *Options, lo, hi int) binsOut {
 		v, qa, qb := 0.0, 0.0, 0.0 // σ_d², σ_a², σ_b², in units of 2^(2ex)
 		ex := 0
 		if m > 0 {
-			_, ex = math.Frexp(m)
+			if m < 0x1p-500 || m > 0x1p500 {
+				_, ex = math.Frexp(m)
+			}
 			for k := range sa {
-				x, y := math.Ldexp(sa[k], -ex), math.Ldexp(sb[k], -ex)
+				x, y := sa[k], sb[k]
+				if ex != 0 {
+					x, y = math.Ldexp(x, -ex), math.Ldexp(y, -ex)
+				}
 				qa, qb = qa+x*x, qb+y*y
 				rho := s.src[k].rho
 				if s.src[k].rhoBins != nil {
@@ -375,8 +388,13 @@ func (r *Result) pulls(s *sides, opt *Options, lo, hi int) binsOut {
 		if opt.Subset {
 			v = math.Abs((ta - tb) * (ta + tb))
 		}
-		r.ErrA[i], r.ErrB[i] = math.Ldexp(ta, ex), math.Ldexp(tb, ex)
-		sd := math.Ldexp(math.Sqrt(v), ex)
+		sd := math.Sqrt(v)
+		if ex != 0 {
+			ta, tb, sd = math.Ldexp(ta, ex), math.Ldexp(tb, ex), math.Ldexp(sd, ex)
+		}
+		if ownErrs {
+			r.ErrA[i], r.ErrB[i] = ta, tb
+		}
 		if cov {
 			w := opt.CovA.At(i, i) + opt.CovB.At(i, i)
 			if opt.CovCross != nil {

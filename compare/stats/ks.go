@@ -115,12 +115,13 @@ const KSExactLimit = 10000
 //     Durbin (1973) as evaluated by Marsaglia, Tsang and Wang, "Evaluating
 //     Kolmogorov's distribution", J. Stat. Softw. 8(18), 2003, including
 //     their upper-tail shortcut for n·d² > 7.24 (or > 3.76 when n > 99);
-//   - larger n, n·d² >= 2.2: 2·P(D⁺_n >= d), with the exact one-sided
-//     Smirnov tail of Birnbaum and Tingey (1951); the neglected term is
-//     below P(D⁺_n >= d)², under 1e-7 there;
-//   - larger n, n·d² < 2.2: 1 - the Pelz–Good (1976) expansion
+//   - larger n: 1 - the Pelz–Good (1976) expansion
 //     K0(z) + K1(z)/√n + K2(z)/n + K3(z)/n^(3/2), z = √n·d, whose error is
-//     O(1/n²).
+//     O(1/n²) in absolute terms; for n·d² >= 18 (p < 1e-15) the first
+//     term of the limiting tail, 2 exp(-2 n d²). Simard and L'Ecuyer use
+//     the one-sided Smirnov tail for n·d² >= 2.2 to keep the relative
+//     precision of tiny p-values; an absolute 1e-6 does not need it, and
+//     it costs O(n).
 func KSPValue(n int, d float64) float64 {
 	switch {
 	case n <= 0 || math.IsNaN(d):
@@ -144,51 +145,14 @@ func KSPValue(n int, d float64) float64 {
 	if n <= KSExactLimit {
 		return clamp01(1 - mtwCDF(n, d))
 	}
-	switch s := t * d; {
-	case s >= 370:
-		return 0
-	case s >= 2.2:
-		return clamp01(2 * smirnovSF(n, d))
+	if s := t * d; s >= 18 {
+		// below 2e-15: the first term of the limiting tail
+		return 2 * math.Exp(-2*s)
 	}
 	return clamp01(1 - pelzGood(nf, d))
 }
 
 func clamp01(p float64) float64 { return math.Min(1, math.Max(0, p)) }
-
-// smirnovSF is the exact one-sided tail P(D⁺_n >= d) (Birnbaum and
-// Tingey, Ann. Math. Statist. 22, 1951):
-//
-//	d Σ_{j=0}^{⌊n(1-d)⌋} C(n, j) (d + j/n)^(j-1) (1 - d - j/n)^(n-j)
-//
-// summed in logarithms; terms more than e⁻⁴⁰ below the largest are dropped
-// once the sum has passed its peak.
-func smirnovSF(n int, d float64) float64 {
-	nf := float64(n)
-	lgn, _ := math.Lgamma(nf + 1)
-	top := int(math.Floor(nf * (1 - d)))
-	sum, peak := 0.0, math.Inf(-1)
-	for j := 0; j <= top; j++ {
-		jf := float64(j)
-		rest := 1 - d - jf/nf
-		if rest <= 0 {
-			if j == n {
-				rest = 1 // 0⁰
-			} else {
-				continue
-			}
-		}
-		lgj, _ := math.Lgamma(jf + 1)
-		lgr, _ := math.Lgamma(nf - jf + 1)
-		l := lgn - lgj - lgr + (jf-1)*math.Log(d+jf/nf) + (nf-jf)*math.Log(rest)
-		if l > peak {
-			peak = l
-		} else if l < peak-40 {
-			break
-		}
-		sum += math.Exp(l)
-	}
-	return d * sum
-}
 
 // pelzGood is the Pelz–Good expansion of P(D_n <= d) (W. Pelz and
 // I. J. Good, J. R. Stat. Soc. B 38, 1976), in the form Simard and

@@ -66,7 +66,7 @@ func TestKSLargeAgainstScipy(t *testing.T) {
 	if len(ref.KSLarge) < 100 || len(ref.KSDMTW) == 0 {
 		t.Fatal("reference file lacks the large-n KS values")
 	}
-	worst, maxN := 0.0, 0
+	worst, maxN, worstN, worstD := 0.0, 0, 0, 0.0
 	for _, set := range [][][3]float64{ref.KSLarge, ref.KSDMTW} {
 		for _, c := range set {
 			n, d, want := int(c[0]), c[1], c[2]
@@ -74,7 +74,7 @@ func TestKSLargeAgainstScipy(t *testing.T) {
 			if diff := math.Abs(got - want); diff > 1e-6 {
 				t.Errorf("KSPValue(%d, %v) = %.10g, scipy %s: %.10g (off by %.2g)", n, d, got, ref.SciPy, want, diff)
 			} else if diff > worst {
-				worst = diff
+				worst, worstN, worstD = diff, n, d
 			}
 			maxN = max(maxN, n)
 		}
@@ -82,7 +82,7 @@ func TestKSLargeAgainstScipy(t *testing.T) {
 	if maxN < 100000 {
 		t.Errorf("reference goes only to n = %d", maxN)
 	}
-	t.Logf("largest difference from scipy %s: %.2g", ref.SciPy, worst)
+	t.Logf("largest difference from scipy %s: %.2g at n = %d, d = %.4g", ref.SciPy, worst, worstN, worstD)
 }
 
 // TestKSContinuousAtSwitch: the exact method just below KSExactLimit and
