@@ -137,10 +137,7 @@ func (s *splitter) next() (*block, *Error) {
 				return b, nil
 			}
 			if len(buf) > s.lim.MaxLineBytes {
-				if i := bytes.IndexByte(buf, 0); i >= 0 {
-					return nil, &Error{Line: 1, Col: i + 1, Msg: "binary data (NUL byte); expected a CSV or TSV table"}
-				}
-				return nil, lineTooLong("", 1, s.lim)
+				return nil, lineTooLong("", 1, buf, s.lim)
 			}
 		}
 		if len(buf) == cap(buf) {

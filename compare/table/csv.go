@@ -140,7 +140,7 @@ func (t *Table) header(name string, s *splitter, opt CSVOptions) (*rowParser, *b
 				line = bytes.TrimPrefix(line, []byte("\xef\xbb\xbf"))
 			}
 			if len(line) > s.lim.MaxLineBytes {
-				return nil, nil, lineTooLong(name, lineNo, s.lim)
+				return nil, nil, lineTooLong(name, lineNo, line, s.lim)
 			}
 			if err := checkText(name, lineNo, line); err != nil {
 				return nil, nil, err
@@ -236,8 +236,7 @@ func (p *rowParser) rows(b *block) {
 		line, data = cutLine(data)
 		rel++
 		if len(line) > p.maxLine {
-			b.err = Errorf(p.name, rel, 0, "line is longer than the limit of %d bytes", p.maxLine)
-			b.err.Hint = "raise the limit with " + flagMaxLineBytes
+			b.err = lineTooLong(p.name, rel, line, Limits{MaxLineBytes: p.maxLine})
 			return
 		}
 		lead := 0
@@ -431,4 +430,3 @@ func split(line []byte, delim byte, fields [][]byte, starts []int) ([][]byte, []
 		pos = end + 1
 	}
 }
-

@@ -54,7 +54,12 @@ func tooLarge(name string, lim Limits) *Error {
 	return e
 }
 
-func lineTooLong(name string, line int, lim Limits) *Error {
+// lineTooLong refuses a line beyond the limit, or as binary data when it
+// has a NUL byte.
+func lineTooLong(name string, line int, text []byte, lim Limits) *Error {
+	if i := bytes.IndexByte(text, 0); i >= 0 {
+		return Errorf(name, line, i+1, "binary data (NUL byte); expected a CSV or TSV table")
+	}
 	e := Errorf(name, line, 0, "line is longer than the limit of %d bytes", lim.MaxLineBytes)
 	e.Hint = "raise the limit with " + flagMaxLineBytes
 	return e
