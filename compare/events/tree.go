@@ -4,6 +4,7 @@ import (
 	"math"
 	"strings"
 
+	"tandem/compare/rootfile"
 	"tandem/compare/table"
 )
 
@@ -11,9 +12,12 @@ import (
 // tree's columns (branches) and a stream of its rows as float64, in the
 // order of the requested columns. compare/rootfile provides them.
 type TreeFuncs struct {
-	Columns func(spec string) ([]string, error)
+	Columns func(spec string) ([]rootfile.TreeColumn, error)
 	Read    func(spec string, columns []string, fn func(row []float64) error) error
 }
+
+// RootTrees reads trees with compare/rootfile.
+var RootTrees = TreeFuncs{Columns: rootfile.TreeColumns, Read: rootfile.ReadTree}
 
 // treeTable is an event table in a ROOT TTree, named file.root:tree or
 // file.root:dir/tree. Every branch arrives as float64: keys must hold
@@ -26,14 +30,23 @@ type treeTable struct {
 
 // OpenTree opens a TTree through f.
 func OpenTree(spec string, f TreeFuncs) (Table, error) {
-	names, err := f.Columns(spec)
+	cols, err := f.Columns(spec)
 	if err != nil {
 		return nil, err
 	}
 	t := &treeTable{spec: spec, f: f}
-	for _, n := range names {
-		// A branch may serve as key, cut or variable; the scan checks.
-		t.cols = append(t.cols, ColumnInfo{Name: n, Kind: Int})
+	for _, c := range cols {
+		k := Other
+		switch {
+		case !c.Numeric:
+		case c.Kind == "bool":
+			k = Bool
+		case strings.HasPrefix(c.Kind, "int") || strings.HasPrefix(c.Kind, "uint"):
+			k = Int
+		default:
+			k = Float
+		}
+		t.cols = append(t.cols, ColumnInfo{Name: c.Name, Kind: k})
 	}
 	return t, nil
 }
@@ -94,8 +107,4 @@ func (t *treeTable) Scan(l Layout, fn func(*Batch) error) error {
 func IsTreeSpec(name string) bool {
 	i := strings.Index(strings.ToLower(name), ".root:")
 	return i > 0 && len(name) > i+6
-}
-
-func errNoTrees(name string) error {
-	return table.Errorf(name, 0, 0, "this build has no ROOT tree reader")
 }
