@@ -134,6 +134,91 @@ func criterionLine(c compare.Criterion) string {
 	return fmt.Sprintf("%s = %s (limit %s %s)", c.Name, num(c.Value), c.Op, num(c.Limit))
 }
 
+// criterionOrder is the order criteria are always listed in, whatever
+// order the comparison produced them in; criteria not named here follow in
+// their own order.
+var criterionOrder = []string{"max |pull|", "chi2 p-value", "KS p-value", "runs p-value", "max-pull p-value"}
+
+// criteria returns the criteria of e in the fixed order.
+func criteria(e compare.Entry) []compare.Criterion {
+	rank := func(c compare.Criterion) int {
+		if i := slices.Index(criterionOrder, c.Name); i >= 0 {
+			return i
+		}
+		return len(criterionOrder)
+	}
+	out := slices.Clone(e.Criteria)
+	slices.SortStableFunc(out, func(x, y compare.Criterion) int { return rank(x) - rank(y) })
+	return out
+}
+
+// pullLimit is the largest allowed |pull| of e, 0 when there is none.
+func pullLimit(e compare.Entry) float64 {
+	for _, c := range e.Criteria {
+		if c.Name == "max |pull|" {
+			return c.Limit
+		}
+	}
+	return 0
+}
+
+// shapeLine describes the pull distribution in one sentence, with n/a for
+// what is undefined (a width needs two pulls).
+func shapeLine(e compare.Entry) string {
+	n := len(pullsUsed(e))
+	mean, width := "n/a", "n/a"
+	if n >= 1 {
+		mean = num(e.PullMean)
+	}
+	if n >= 2 {
+		mean += " ± " + num(e.PullMeanErr)
+		width = num(e.PullWidth) + " ± " + num(e.PullWidthEr)
+	}
+	return fmt.Sprintf("pulls: mean %s, width %s; KS D = %s (p = %s); %d runs (p = %s); χ²/ndf = %s/%d",
+		mean, width, num(e.KSStat), pval(e.KSP), e.Runs, pval(e.RunsP), num(e.Chi2), e.NDF)
+}
+
+// binCells formats one row of a per-bin table: bin number, edges, each
+// side's value and uncertainty, the difference, its uncertainty and the
+// pull. Each value is rounded where its uncertainty has its second
+// significant digit.
+func binCells(e compare.Entry, i int) []string {
+	va, ea := withError(e.A[i], e.ErrA[i])
+	vb, eb := withError(e.B[i], e.ErrB[i])
+	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
+	p := num(e.Pulls[i])
+	if slices.Contains(e.ZeroSigma, i) {
+		p = "n/a"
+	}
+	return []string{strconv.Itoa(i + 1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p}
+}
+
+// withError formats a value and its uncertainty to the same decimal place,
+// the uncertainty to two significant digits (common practice; the PDG's
+// rounding rule keeps one or two). Values of everyday size are written as
+// decimals, others in exponent form. Without a positive uncertainty the
+// value keeps six significant digits.
+func withError(v, e float64) (string, string) {
+	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
+		return val(v), val(e)
+	}
+	last := int(math.Floor(math.Log10(e))) - 1 // decimal exponent of the second digit
+	big := math.Max(math.Abs(v), e)
+	if big < 1e6 && e >= 1e-4 {
+		places := max(0, -last)
+		q := math.Pow(10, float64(last))
+		if last > 0 {
+			v, e = math.Round(v/q)*q, math.Round(e/q)*q
+		}
+		return strconv.FormatFloat(v, 'f', places, 64), strconv.FormatFloat(e, 'f', places, 64)
+	}
+	ve := last + 1
+	if v != 0 {
+		ve = int(math.Floor(math.Log10(math.Abs(v))))
+	}
+	return strconv.FormatFloat(v, 'e', max(1, ve-last), 64), strconv.FormatFloat(e, 'e', 1, 64)
+}
+
 func entryTitle(e compare.Entry) string {
 	t := e.Observable
 	if e.Column != "" && e.Column != e.Observable {
