@@ -41,42 +41,42 @@ type jsonBins struct {
 }
 
 type jsonEntry struct {
-	Name           string              `json:"name"`
-	Title          string              `json:"title,omitempty"`
-	Column         string              `json:"column"`
-	Teams          []string            `json:"teams,omitempty"`
-	Labels         []string            `json:"labels"`
-	Files          []string            `json:"files,omitempty"`
-	Blinded        bool                `json:"blinded"`
-	Bins           int                 `json:"bins"`
-	Chi2           float64             `json:"chi2"`
-	NDF            int                 `json:"ndf"`
-	PValue         float64             `json:"p_value"`
-	PullMean       float64             `json:"pull_mean"`
-	PullMeanErr    float64             `json:"pull_mean_error"`
-	PullWidth      float64             `json:"pull_width"`
-	PullWidthErr   float64             `json:"pull_width_error"`
-	MaxAbsPull     float64             `json:"max_abs_pull"`
-	MaxPullBin     int                 `json:"max_pull_bin"`
-	MaxPullP       float64             `json:"max_pull_p_value"`
-	KSStatistic    float64             `json:"ks_statistic"`
-	KSP            float64             `json:"ks_p_value"`
-	Runs           int                 `json:"runs"`
-	RunsP          float64             `json:"runs_p_value"`
-	Verdict        string              `json:"verdict"`
-	Failures       []string            `json:"failures"`
-	Criteria       []compare.Criterion `json:"criteria"`
-	Limits         jsonLimits          `json:"limits"`
+	Name         string              `json:"name"`
+	Title        string              `json:"title,omitempty"`
+	Column       string              `json:"column"`
+	Teams        []string            `json:"teams,omitempty"`
+	Labels       []string            `json:"labels"`
+	Files        []string            `json:"files,omitempty"`
+	Blinded      bool                `json:"blinded"`
+	Bins         int                 `json:"bins"`
+	Chi2         float64             `json:"chi2"`
+	NDF          int                 `json:"ndf"`
+	PValue       float64             `json:"p_value"`
+	PullMean     float64             `json:"pull_mean"`
+	PullMeanErr  float64             `json:"pull_mean_error"`
+	PullWidth    float64             `json:"pull_width"`
+	PullWidthErr float64             `json:"pull_width_error"`
+	MaxAbsPull   float64             `json:"max_abs_pull"`
+	MaxPullBin   int                 `json:"max_pull_bin"`
+	MaxPullP     float64             `json:"max_pull_p_value"`
+	KSStatistic  float64             `json:"ks_statistic"`
+	KSP          float64             `json:"ks_p_value"`
+	Runs         int                 `json:"runs"`
+	RunsP        float64             `json:"runs_p_value"`
+	Verdict      string              `json:"verdict"`
+	Failures     []string            `json:"failures"`
+	Criteria     []compare.Criterion `json:"criteria"`
+	Limits       jsonLimits          `json:"limits"`
 	// AcceptedDisagreement says that this comparison fails and the
 	// signing parties accepted the disagreement (see
 	// accepted_disagreements).
-	AcceptedDisagreement bool `json:"accepted_disagreement"`
-	Warnings       []string            `json:"warnings"`
-	ZeroSigmaBins  []int               `json:"zero_sigma_bins,omitempty"`
-	Covariance     bool                `json:"covariance"`
-	AsymmetricErrs bool                `json:"asymmetric_errors"`
-	Pulls          []float64           `json:"pulls"`
-	PerBin         jsonBins            `json:"per_bin"`
+	AcceptedDisagreement bool      `json:"accepted_disagreement"`
+	Warnings             []string  `json:"warnings"`
+	ZeroSigmaBins        []int     `json:"zero_sigma_bins,omitempty"`
+	Covariance           bool      `json:"covariance"`
+	AsymmetricErrs       bool      `json:"asymmetric_errors"`
+	Pulls                []float64 `json:"pulls"`
+	PerBin               jsonBins  `json:"per_bin"`
 }
 
 // JSONValue builds the JSON document of s as a value, for callers that
