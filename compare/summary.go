@@ -73,12 +73,20 @@ func verdict(ok bool) string {
 }
 
 // Sides returns the names of the two chains compared: the team names in a
-// campaign, else "A" and "B".
+// campaign, else the result's labels (--label-a, --label-b, by default the
+// file names), else "A" and "B".
 func (e *Entry) Sides() (string, string) {
 	if e.Teams[0] != "" || e.Teams[1] != "" {
 		return e.Teams[0], e.Teams[1]
 	}
-	return "A", "B"
+	a, b := "A", "B"
+	if e.Result != nil && e.LabelA != "" {
+		a = e.LabelA
+	}
+	if e.Result != nil && e.LabelB != "" {
+		b = e.LabelB
+	}
+	return a, b
 }
 
 // Verdict is "pass" or "fail" for one entry.

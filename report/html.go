@@ -143,12 +143,19 @@ func entryHTML(w io.Writer, id string, e compare.Entry, accepted []compare.Accep
 	histSVG(w, id, e, false)
 	histSVG(w, id+"-log", e, true)
 	fmt.Fprintln(w, "</figure>")
-	fmt.Fprintln(w, "<table><tr><th>criterion</th><th>value</th><th>limit</th><th>result</th></tr>")
-	for _, c := range criteria(e) {
-		fmt.Fprintf(w, "<tr><td>%s</td><td>%s</td><td>%s %s</td><td>%s</td></tr>\n", esc(c.Name), num(c.Value), esc(c.Op), num(c.Limit), verdictSpan(c.Pass))
+	fmt.Fprintln(w, "<table><tr><th>criterion</th><th>value</th><th>adjusted p</th><th>limit</th><th>result</th></tr>")
+	for _, c := range e.Criteria {
+		name, v, adj, lim := critCells(c)
+		fmt.Fprintf(w, "<tr><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td></tr>\n", esc(name), v, adj, esc(lim), verdictSpan(c.Pass))
 	}
 	fmt.Fprintln(w, "</table>")
-	for _, c := range criteria(e) {
+	if e.Alpha > 0 {
+		fmt.Fprintf(w, "<p>The p-values are adjusted together (Holm) over %d p-values, so that agreeing chains fail with probability at most α = %s.</p>\n", e.Family, num(e.Alpha))
+	}
+	if l := sourcesLine(e); l != "" {
+		fmt.Fprintf(w, "<p>%s</p>\n", esc(capitalize(l)))
+	}
+	for _, c := range e.Criteria {
 		if !c.Pass && c.Detail != "" {
 			fmt.Fprintf(w, "<p class=\"note\">%s: %s</p>\n", esc(c.Name), esc(c.Detail))
 		}

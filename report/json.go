@@ -22,10 +22,13 @@ type jsonSummary struct {
 	Observables []jsonEntry          `json:"observables"`
 }
 
-// jsonLimits are the declared limits, as the criteria hold them.
+// jsonLimits are the declared limits, as the criteria hold them: α for
+// the adjusted p-values, the raw largest-|pull| tolerance when declared,
+// and whether a numerical tolerance applies.
 type jsonLimits struct {
-	MaxPull *float64 `json:"max_pull,omitempty"`
-	MinP    *float64 `json:"min_p_value,omitempty"`
+	Alpha     float64  `json:"alpha"`
+	MaxPull   *float64 `json:"max_pull,omitempty"`
+	Numerical bool     `json:"numerical_tolerance"`
 }
 
 // jsonBins are the per-bin inputs and results, one value per bin each.
@@ -67,6 +70,10 @@ type jsonEntry struct {
 	Failures     []string            `json:"failures"`
 	Criteria     []compare.Criterion `json:"criteria"`
 	Limits       jsonLimits          `json:"limits"`
+	Family       int                 `json:"family_size"`
+	Sources      []compare.Source    `json:"sources"`
+	Incomparable []int               `json:"incomparable_bins,omitempty"`
+	Condition    float64             `json:"condition_number,omitempty"`
 	// AcceptedDisagreement says that this comparison fails and the
 	// signing parties accepted the disagreement (see
 	// accepted_disagreements).
@@ -96,20 +103,31 @@ func JSONValue(s *compare.Summary) any {
 			PullMean: e.PullMean, PullMeanErr: e.PullMeanErr, PullWidth: e.PullWidth, PullWidthErr: e.PullWidthEr,
 			MaxAbsPull: e.MaxAbsPull, MaxPullBin: e.MaxPullBin + 1, MaxPullP: e.MaxPullP,
 			KSStatistic: e.KSStat, KSP: e.KSP, Runs: e.Runs, RunsP: e.RunsP,
-			Verdict: e.Verdict(), Failures: e.Failures(), Criteria: criteria(e), Warnings: e.Warnings,
+			Verdict: e.Verdict(), Failures: e.Failures(), Criteria: slices.Clone(e.Criteria), Warnings: e.Warnings,
 			Covariance: e.Covariance, AsymmetricErrs: e.Asymmetric, Pulls: e.Pulls,
 			PerBin: jsonBins{Lo: e.Lo, Hi: e.Hi, A: e.A, ErrA: e.ErrA, B: e.B, ErrB: e.ErrB, Diff: e.Diff, SigmaD: e.SigmaDiff},
 		}
 		if e.Files[0] != "" || e.Files[1] != "" {
 			je.Files = []string{e.Files[0], e.Files[1]}
 		}
+		je.Limits.Alpha, je.Family, je.Condition = e.Alpha, e.Family, jsonNumber(e.Condition)
+		je.Sources = slices.Clone(e.Sources)
+		if je.Sources == nil {
+			je.Sources = []compare.Source{}
+		}
+		for i := range je.Sources {
+			je.Sources[i].Rho, je.Sources[i].Share = jsonNumber(je.Sources[i].Rho), jsonNumber(je.Sources[i].Share)
+		}
+		for _, z := range e.Incomparable {
+			je.Incomparable = append(je.Incomparable, z+1)
+		}
 		for _, c := range e.Criteria {
 			l := c.Limit
 			switch c.Name {
-			case "max |pull|":
+			case compare.CritMaxPull:
 				je.Limits.MaxPull = &l
-			case "chi2 p-value":
-				je.Limits.MinP = &l
+			case compare.CritNumerical:
+				je.Limits.Numerical = true
 			}
 		}
 		if je.Warnings == nil {
@@ -123,6 +141,10 @@ func JSONValue(s *compare.Summary) any {
 		}
 		for i := range je.Criteria {
 			je.Criteria[i].Value = jsonNumber(je.Criteria[i].Value)
+			if a := je.Criteria[i].Adjusted; a != nil {
+				v := jsonNumber(*a)
+				je.Criteria[i].Adjusted = &v
+			}
 		}
 		for _, f := range []*float64{&je.Chi2, &je.PValue, &je.PullMean, &je.PullMeanErr, &je.PullWidth,
 			&je.PullWidthErr, &je.MaxAbsPull, &je.MaxPullP, &je.KSStatistic, &je.KSP, &je.RunsP} {

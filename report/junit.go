@@ -74,7 +74,7 @@ func JUnit(w io.Writer, s *compare.Summary) error {
 		}
 		c := junitCase{Name: caseName, Classname: "tandem." + e.Observable}
 		var crit []string
-		for _, cr := range criteria(e) {
+		for _, cr := range e.Criteria {
 			crit = append(crit, criterionLine(cr))
 		}
 		c.SystemOut = &junitText{Text: strings.Join(crit, "\n")}

@@ -49,14 +49,18 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 				fmt.Fprintf(ew, "**Disagreement accepted** by %s: %s\n\n", mdEscape(joinList(a.By)), mdEscape(a.Reason))
 			}
 		}
-		fmt.Fprintln(ew, "| criterion | value | limit | result |")
-		fmt.Fprintln(ew, "| --- | ---: | ---: | --- |")
-		for _, c := range criteria(e) {
+		fmt.Fprintln(ew, "| criterion | value | adjusted | limit | result |")
+		fmt.Fprintln(ew, "| --- | ---: | ---: | ---: | --- |")
+		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
 				res = "**FAIL**: " + mdEscape(c.Detail)
 			}
-			fmt.Fprintf(ew, "| %s | %s | %s %s | %s |\n", mdEscape(c.Name), num(c.Value), c.Op, num(c.Limit), res)
+			name, v, adj, lim := critCells(c)
+			fmt.Fprintf(ew, "| %s | %s | %s | %s | %s |\n", mdEscape(name), v, adj, mdEscape(lim), res)
+		}
+		if l := sourcesLine(e); l != "" {
+			fmt.Fprintf(ew, "\n%s\n", mdEscape(capitalize(l)))
 		}
 		fmt.Fprintf(ew, "\n%s.\n", mdEscape(capitalize(shapeLine(e))))
 		for _, wn := range e.Warnings {

@@ -12,6 +12,7 @@ import (
 	"math"
 	"slices"
 	"strconv"
+	"strings"
 
 	"tandem/compare"
 )
@@ -71,9 +72,10 @@ func num(v float64) string {
 	return strconv.FormatFloat(v, 'g', 4, 64)
 }
 
-// pval formats a p-value.
+// pval formats a p-value: four decimals, or three significant digits
+// below 0.01.
 func pval(p float64) string {
-	if p < 1e-4 && p > 0 {
+	if p < 1e-2 && p > 0 {
 		return strconv.FormatFloat(p, 'e', 2, 64)
 	}
 	return strconv.FormatFloat(p, 'f', 4, 64)
@@ -131,31 +133,55 @@ func (h *pullHeap) Pop() any {
 
 // criterionLine is a criterion in words, e.g. "chi2 p-value 0.31 >= 0.01".
 func criterionLine(c compare.Criterion) string {
-	return fmt.Sprintf("%s = %s (limit %s %s)", c.Name, num(c.Value), c.Op, num(c.Limit))
+	name, v, adj, lim := critCells(c)
+	if adj != "" {
+		return fmt.Sprintf("%s = %s (adjusted %s, limit %s)", name, v, adj, lim)
+	}
+	return fmt.Sprintf("%s = %s (limit %s)", name, v, lim)
 }
 
-// criterionOrder is the order criteria are always listed in, whatever
-// order the comparison produced them in; criteria not named here follow in
-// their own order.
-var criterionOrder = []string{"max |pull|", "chi2 p-value", "KS p-value", "runs p-value", "max-pull p-value"}
-
-// criteria returns the criteria of e in the fixed order.
-func criteria(e compare.Entry) []compare.Criterion {
-	rank := func(c compare.Criterion) int {
-		if i := slices.Index(criterionOrder, c.Name); i >= 0 {
-			return i
-		}
-		return len(criterionOrder)
+// critCells formats one criterion for a table: name, raw value, the
+// family-wise adjusted p-value ("" for criteria that are not p-values), the
+// limit with its comparison, and whether it passed.
+func critCells(c compare.Criterion) (name, value, adjusted, limit string) {
+	name = c.Name
+	if c.Note != "" {
+		name += " (" + c.Note + ")"
 	}
-	out := slices.Clone(e.Criteria)
-	slices.SortStableFunc(out, func(x, y compare.Criterion) int { return rank(x) - rank(y) })
-	return out
+	value = num(c.Value)
+	if c.Kind == compare.KindPValue {
+		value = pval(c.Value)
+	}
+	if c.Adjusted != nil {
+		adjusted = pval(*c.Adjusted)
+	}
+	return name, value, adjusted, c.Op + " " + num(c.Limit)
+}
+
+// sourcesLine lists the error sources with their correlation and share of
+// σ_d², e.g. "stat ρ = 0.6 (71 % of σ_d²), syst ρ = 1 (0 %)".
+func sourcesLine(e compare.Entry) string {
+	var parts []string
+	for _, s := range e.Sources {
+		rho := num(s.Rho)
+		switch {
+		case s.PerBin != "":
+			rho = "mean " + rho + " per bin from " + s.PerBin
+		case !s.Declared:
+			rho += " (not declared)"
+		}
+		parts = append(parts, fmt.Sprintf("%s ρ = %s, %s%% of σ_d²", s.Name, rho, strconv.FormatFloat(100*s.Share, 'f', 0, 64)))
+	}
+	if len(parts) == 0 {
+		return ""
+	}
+	return "error sources: " + strings.Join(parts, "; ")
 }
 
 // pullLimit is the largest allowed |pull| of e, 0 when there is none.
 func pullLimit(e compare.Entry) float64 {
 	for _, c := range e.Criteria {
-		if c.Name == "max |pull|" {
+		if c.Name == compare.CritMaxPull {
 			return c.Limit
 		}
 	}

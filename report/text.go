@@ -71,16 +71,20 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 			a, b := e.Sides()
 			fmt.Fprintf(ew, "  %s: %s; %s: %s\n", a, e.Files[0], b, e.Files[1])
 		}
-		crit := [][]string{{"criterion", "value", "limit", "result"}}
-		for _, c := range criteria(e) {
+		crit := [][]string{{"criterion", "value", "adjusted", "limit", "result"}}
+		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
 				res = paint(st, ansiRed, "FAIL")
 			}
-			crit = append(crit, []string{c.Name, num(c.Value), c.Op + " " + num(c.Limit), res})
+			name, v, adj, lim := critCells(c)
+			crit = append(crit, []string{name, v, adj, lim, res})
 		}
 		alignTable(ew, "  ", crit, false)
-		for _, c := range criteria(e) {
+		if l := sourcesLine(e); l != "" {
+			fmt.Fprintf(ew, "  %s\n", l)
+		}
+		for _, c := range e.Criteria {
 			if !c.Pass && c.Detail != "" {
 				fmt.Fprintf(ew, "  why: %s: %s\n", c.Name, c.Detail)
 			}
@@ -161,7 +165,7 @@ func visibleWidth(s string) int {
 
 func passPull(e compare.Entry, i int) bool {
 	for _, c := range e.Criteria {
-		if c.Name == "max |pull|" {
+		if c.Name == compare.CritMaxPull {
 			return math.Abs(e.Pulls[i]) <= c.Limit
 		}
 	}
