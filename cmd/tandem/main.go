@@ -220,6 +220,9 @@ func version() string {
 		if len(rev) > 12 {
 			rev = rev[:12]
 		}
+		if rev != "" && strings.Contains(v, rev) {
+			rev, at = "", "" // a pseudo-version already names them
+		}
 		for _, x := range []string{rev, at, dirty} {
 			if x != "" {
 				out += " " + x
