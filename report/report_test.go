@@ -13,6 +13,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -469,5 +470,104 @@ func TestJSONSurvivesOverflow(t *testing.T) {
 	}
 	if !strings.Contains(buf.String(), `"verdict": "fail"`) {
 		t.Errorf("verdict lost:\n%s", buf.String())
+	}
+}
+
+// TestTextAlignsColouredPulls: the bold worst pull and the red FAIL do not
+// shift their columns: every row of a table has the same visible width.
+func TestTextAlignsColouredPulls(t *testing.T) {
+	var buf bytes.Buffer
+	if err := Text(&buf, fixture(t), Style{Color: true}); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), ansiBold) {
+		t.Fatal("no bold pull in coloured output")
+	}
+	ansi := regexp.MustCompile("\x1b\\[[0-9;]*m")
+	var table []string
+	check := func() {
+		for _, l := range table {
+			if w := len([]rune(ansi.ReplaceAllString(l, ""))); w != len([]rune(ansi.ReplaceAllString(table[0], ""))) {
+				t.Errorf("row %q is %d wide, header %d", l, w, len([]rune(table[0])))
+			}
+		}
+		table = nil
+	}
+	for _, l := range strings.Split(buf.String(), "\n") {
+		if strings.HasPrefix(strings.TrimSpace(l), "bin ") || len(table) > 0 && regexp.MustCompile(`^\s+\d+\s`).MatchString(l) {
+			table = append(table, l)
+			continue
+		}
+		check()
+	}
+	check()
+}
+
+// TestOneBinSaysNA: with one bin, the pull width and the error of the mean
+// are undefined (the sample standard deviation needs n ≥ 2) and shown as
+// n/a, not as 0 ± 0.
+func TestOneBinSaysNA(t *testing.T) {
+	a := &table.Series{Column: "y", Lo: []float64{0}, Hi: []float64{1}, V: []float64{10}, Down: []float64{1}}
+	b := &table.Series{Column: "y", Lo: a.Lo, Hi: a.Hi, V: []float64{11}, Down: []float64{1}}
+	a.Up, b.Up = a.Down, b.Down
+	r, err := compare.Series(a, b, compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := &compare.Summary{Entries: []compare.Entry{{Observable: "one", Result: r}}}
+	for _, f := range []string{"text", "markdown", "html"} {
+		var buf bytes.Buffer
+		if err := Render(&buf, f, s, Style{}); err != nil {
+			t.Fatal(err)
+		}
+		if out := buf.String(); !strings.Contains(out, "width n/a") || strings.Contains(out, "width 0 ± 0") {
+			t.Errorf("%s: one bin does not say the width is n/a", f)
+		}
+	}
+}
+
+func TestWithError(t *testing.T) {
+	// two significant digits on the uncertainty, the value to the same place
+	for _, c := range []struct {
+		v, e         float64
+		wantV, wantE string
+	}{
+		{100, 10, "100", "10"},
+		{90, 9.48683, "90.0", "9.5"},
+		{2415.3712, 48.95, "2415", "49"},
+		{123456, 3456, "123500", "3500"},
+		{0.012345, 0.00067, "0.01235", "0.00067"},
+		{1.2345e7, 3.4e5, "1.234e+07", "3.4e+05"},
+		{5, 0, "5", "0"},
+	} {
+		v, e := withError(c.v, c.e)
+		if v != c.wantV || e != c.wantE {
+			t.Errorf("withError(%v, %v) = %s ± %s, want %s ± %s", c.v, c.e, v, e, c.wantV, c.wantE)
+		}
+	}
+}
+
+// TestTickLabels: one format per axis: the same number of decimals on
+// every label, a common ×10ⁿ factor for large or small numbers (never
+// "1e+04" beside "8000"), and 10ⁿ on log axes.
+func TestTickLabels(t *testing.T) {
+	for _, c := range []struct {
+		lo, hi   float64
+		log      bool
+		want     string
+		wantMult string
+	}{
+		{0, 10000, false, "0.0 0.2 0.4 0.6 0.8 1.0", "×10⁴"},
+		{0, 9000, false, "0 2000 4000 6000 8000", ""},
+		{-4, 4, false, "−4 −2 0 2 4", ""},
+		{0.9, 1.1, false, "0.90 0.95 1.00 1.05 1.10", ""},
+		{0, 0.004, false, "0 1 2 3 4", "×10⁻³"},
+		{1, 1e5, true, "10⁰ 10¹ 10² 10³ 10⁴ 10⁵", ""},
+		{1e-3, 1e12, true, "10⁻³ 10⁻¹ 10¹ 10³ 10⁵ 10⁷ 10⁹ 10¹¹", ""},
+	} {
+		labels, mult := tickLabels(ticks(c.lo, c.hi, c.log), c.log)
+		if got := strings.Join(labels, " "); got != c.want || mult != c.wantMult {
+			t.Errorf("[%g, %g] log=%v: %q %q, want %q %q", c.lo, c.hi, c.log, got, mult, c.want, c.wantMult)
+		}
 	}
 }
