@@ -153,13 +153,16 @@ func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 	f.x0, f.x1, f.logX = xFrame(e)
 	lo, hi := math.Inf(1), math.Inf(-1)
 	posMin := math.Inf(1)
+	finite, positive := 0, 0
 	for i := 0; i < e.Bins; i++ {
 		for _, v := range [][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}} {
 			if math.IsNaN(v[0]) || math.IsInf(v[0], 0) {
 				continue
 			}
+			finite++
 			lo, hi = math.Min(lo, v[0]-v[1]), math.Max(hi, v[0]+v[1])
 			if v[0] > 0 {
+				positive++
 				posMin = math.Min(posMin, v[0])
 			}
 		}
@@ -167,7 +170,9 @@ func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 	if math.IsInf(lo, 0) || math.IsInf(hi, 0) {
 		lo, hi = 0, 1
 	}
-	if lo > 0 && hi/posMin > 100 {
+	// A log axis when the values span more than two decades and nearly
+	// all are positive; the others cannot be drawn on it and are counted.
+	if positive > 0 && float64(positive) >= 0.9*float64(finite) && hi/posMin > 100 {
 		f.logY, f.y0, f.y1 = true, math.Pow(10, math.Floor(math.Log10(posMin/2))), math.Pow(10, math.Ceil(math.Log10(hi)))
 	} else {
 		pad := 0.06 * (hi - lo)
@@ -184,6 +189,9 @@ func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		ylabel += " (blinded)"
 	}
 	f.open(w, "overlay", "values of "+a+" and "+b, "values", "", ylabel)
+	if f.logY && positive < finite {
+		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g">%d values ≤ 0 not drawn on the log axis</text>`+"\n", f.left+8, f.h-f.bottom-8, finite-positive)
+	}
 	// legend, right-aligned on the title row
 	lx := f.w - f.right
 	fmt.Fprintf(w, `<text x="%g" y="%g" text-anchor="end"><tspan fill="%s">◇ %s: value ± σ, bar = bin width</tspan><tspan dx="18" fill="%s">▭ %s: step ± σ band</tspan></text>`+"\n",
@@ -305,16 +313,24 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		}
 		ratio[i] = e.B[i] / e.A[i]
 		band[i] = e.SigmaDiff[i] / math.Abs(e.A[i])
-		if !math.IsInf(ratio[i], 0) && !math.IsNaN(ratio[i]) {
-			devs = append(devs, math.Abs(ratio[i]-1))
-		}
 		if !math.IsInf(band[i], 0) && !math.IsNaN(band[i]) {
 			bands = append(bands, band[i])
 		}
 	}
-	// The axis covers the whole band and nine points in ten; the rest,
-	// outliers that would squash the others, are marked on the edge.
-	half := math.Max(quantile(bands, 1), quantile(devs, 0.9))
+	for _, g := range gs {
+		lo, hi := extent(ratio[g.first : g.last+1])
+		if !math.IsInf(lo, 0) {
+			devs = append(devs, math.Max(math.Abs(lo-1), math.Abs(hi-1)))
+		}
+	}
+	// The axis covers nine in ten of the drawn points (or groups) and of
+	// the band, 49 in 50 when there are many; the band is cut at the edge,
+	// the outlying points, which would squash the others, are marked on it.
+	q := 0.9
+	if len(gs) >= 100 {
+		q = 0.98
+	}
+	half := math.Max(quantile(bands, q), quantile(devs, q))
 	if half == 0 || math.IsInf(half, 0) || math.IsNaN(half) {
 		half = math.Max(quantile(devs, 1), 0.01)
 	}
