@@ -323,16 +323,19 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 			devs = append(devs, math.Max(math.Abs(lo-1), math.Abs(hi-1)))
 		}
 	}
-	// The axis covers nine in ten of the drawn points (or groups) and of
-	// the band, 49 in 50 when there are many; the band is cut at the edge,
-	// the outlying points, which would squash the others, are marked on it.
+	// The axis covers every point, unless some lie more than three times
+	// as far from 1 as nine in ten of the points (49 in 50 when there are
+	// many) and of the band: such outliers would squash the others, and
+	// are marked on the edge instead. The band is cut at the edge.
 	q := 0.9
 	if len(gs) >= 100 {
 		q = 0.98
 	}
-	half := math.Max(quantile(bands, q), quantile(devs, q))
+	typical := math.Max(quantile(bands, q), quantile(devs, q))
+	half := math.Min(quantile(devs, 1), 3*typical)
+	half = math.Max(half, typical)
 	if half == 0 || math.IsInf(half, 0) || math.IsNaN(half) {
-		half = math.Max(quantile(devs, 1), 0.01)
+		half = 0.01
 	}
 	f.y0, f.y1 = 1-1.1*half, 1+1.1*half
 	f.open(w, "ratio", "ratio "+b+" / "+a, "ratio "+b+" / "+a+" with the combined uncertainty band", "", b+" / "+a)

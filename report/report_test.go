@@ -48,10 +48,12 @@ func fixture(t testing.TB) *compare.Summary {
 		t.Fatal(err)
 	}
 	return &compare.Summary{
-		Title: "golden campaign",
-		Notes: []string{"campaign golden is blinded"},
+		Title:    "golden campaign",
+		Campaign: "golden",
+		Notes:    []string{"campaign golden is blinded"},
+		Accepted: []compare.Acceptance{{By: []string{"heron", "otter"}, Reason: "the tilt comes from a known alignment shift"}},
 		Entries: []compare.Entry{
-			{Observable: "spectrum", Teams: [2]string{"heron", "otter"}, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Blinded: true, Result: good},
+			{Observable: "spectrum", Title: "Energy spectrum of through-going muons", Teams: [2]string{"heron", "otter"}, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Blinded: true, Result: good},
 			{Observable: "tilt", Teams: [2]string{"heron", "otter"}, XLabel: "cos θ", Result: bad},
 		},
 	}
@@ -568,6 +570,48 @@ func TestTickLabels(t *testing.T) {
 		labels, mult := tickLabels(ticks(c.lo, c.hi, c.log), c.log)
 		if got := strings.Join(labels, " "); got != c.want || mult != c.wantMult {
 			t.Errorf("[%g, %g] log=%v: %q %q, want %q %q", c.lo, c.hi, c.log, got, mult, c.want, c.wantMult)
+		}
+	}
+}
+
+// TestAcceptedBesideVerdict: an accepted disagreement stands right after
+// the verdict, in the same banner style and size, and is a structured
+// field in JSON.
+func TestAcceptedBesideVerdict(t *testing.T) {
+	s := fixture(t)
+	var buf bytes.Buffer
+	if err := HTML(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	page := buf.String()
+	v := strings.Index(page, `<p class="banner bad">Verdict:`)
+	a := strings.Index(page, `<p class="banner accepted"><b>Disagreement accepted</b> by heron and otter: the tilt comes from a known alignment shift</p>`)
+	if v < 0 || a < 0 || strings.Contains(page[v:a], "<h") {
+		t.Errorf("accepted disagreement not right after the verdict (verdict at %d, accepted at %d)", v, a)
+	}
+	buf.Reset()
+	if err := JSON(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Accepted []struct {
+			By     []string
+			Reason string
+		} `json:"accepted_disagreements"`
+		Observables []struct {
+			Name     string
+			Accepted bool `json:"accepted_disagreement"`
+		}
+	}
+	if err := json.Unmarshal(buf.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.Accepted) != 1 || doc.Accepted[0].Reason == "" || len(doc.Accepted[0].By) != 2 {
+		t.Errorf("accepted_disagreements = %+v", doc.Accepted)
+	}
+	for _, o := range doc.Observables {
+		if o.Accepted != (o.Name == "tilt") {
+			t.Errorf("%s: accepted_disagreement = %v", o.Name, o.Accepted)
 		}
 	}
 }
