@@ -100,6 +100,18 @@ func (f *frame) open(w io.Writer, class, label, title, xlabel, ylabel string) {
 		}
 		fmt.Fprintf(w, `<text class="axis" x="%g" y="%g" text-anchor="middle">%s</text>`+"\n", (f.left+f.w-f.right)/2, f.h-12, esc(xlabel))
 	}
+	if f.logX {
+		for _, t := range minorTicks(f.x0, f.x1) {
+			x := f.px(t)
+			fmt.Fprintf(w, `<line x1="%.1f" x2="%.1f" y1="%g" y2="%g" stroke="%s"/>`, x, x, f.h-f.bottom, f.h-f.bottom+3, colorAxis)
+		}
+	}
+	if f.logY {
+		for _, t := range minorTicks(f.y0, f.y1) {
+			y := f.py(t)
+			fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`, f.left-3, f.left, y, y, colorAxis)
+		}
+	}
 	yt := ticks(f.y0, f.y1, f.logY)
 	yl, ym := tickLabels(yt, f.logY)
 	for i, t := range yt {

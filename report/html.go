@@ -160,7 +160,7 @@ func entryHTML(w io.Writer, id string, e compare.Entry, accepted []compare.Accep
 			fmt.Fprintf(w, "<p class=\"note\">%s: %s</p>\n", esc(c.Name), esc(c.Detail))
 		}
 	}
-	fmt.Fprintf(w, "<p>%s</p>\n", esc(shapeLine(e)))
+	fmt.Fprintf(w, "<p>%s</p>\n", esc(capitalize(shapeLine(e))))
 	for _, wn := range e.Warnings {
 		fmt.Fprintf(w, "<p class=\"note warn\">%s</p>\n", esc(wn))
 	}
