@@ -86,17 +86,15 @@ func quoteList(xs []string) string {
 // buildSides reads one selection of both tables into error sources with
 // their correlations. matched collects the Correlations keys used.
 func buildSides(a, b *table.Table, sel Selection, e *Options, matched map[string]bool) (*sides, error) {
-	// Series checks that the columns exist and no uncertainty is negative.
-	sa, err := a.Series(sel)
-	if err != nil {
-		return nil, err
+	for _, t := range []*table.Table{a, b} {
+		if err := checkSelection(t, sel); err != nil {
+			return nil, err
+		}
 	}
-	sb, err := b.Series(sel)
-	if err != nil {
-		return nil, err
+	s := &sides{column: sel.Value, labelA: a.Source, labelB: b.Source, lo: a.Lo, hi: a.Hi, a: a.Column(sel.Value), b: b.Column(sel.Value)}
+	for k := range sel.Minus {
+		s.asym = s.asym || !slices.Equal(a.Column(sel.Minus[k]), a.Column(sel.Plus[k])) || !slices.Equal(b.Column(sel.Minus[k]), b.Column(sel.Plus[k]))
 	}
-	s := &sides{column: sel.Value, labelA: a.Source, labelB: b.Source, lo: sa.Lo, hi: sa.Hi, a: sa.V, b: sb.V,
-		asym: sa.Asymmetric() || sb.Asymmetric()}
 	for _, name := range sel.Errors {
 		ca, cb := a.Column(name), b.Column(name)
 		s.src = append(s.src, errSource{name: name, downA: ca, upA: ca, downB: cb, upB: cb})
@@ -140,6 +138,29 @@ func buildSides(a, b *table.Table, sel Selection, e *Options, matched map[string
 			sel.Value, e.overlapSource(), quoteList(sourceNames([]Selection{sel})))
 	}
 	return s, nil
+}
+
+// checkSelection checks that the columns of sel exist in t and that no
+// uncertainty is negative.
+func checkSelection(t *table.Table, sel Selection) error {
+	if t.Column(sel.Value) == nil {
+		return table.Errorf(t.Source, 0, 0, "no value column %q (columns: %s)", sel.Value, strings.Join(t.Names, ", "))
+	}
+	if len(sel.Minus) != len(sel.Plus) {
+		return fmt.Errorf("internal error: %d minus and %d plus error columns", len(sel.Minus), len(sel.Plus))
+	}
+	for _, name := range slices.Concat(sel.Errors, sel.Minus, sel.Plus) {
+		c := t.Column(name)
+		if c == nil {
+			return table.Errorf(t.Source, 0, 0, "no uncertainty column %q (columns: %s)", name, strings.Join(t.Names, ", "))
+		}
+		for i, e := range c {
+			if e < 0 {
+				return table.Errorf(t.Source, binLine(t, i), 0, "bin %d: uncertainty %q is negative (%s)", i+1, name, table.Format(e))
+			}
+		}
+	}
+	return nil
 }
 
 // matchesSource reports whether error column name is source key of value

@@ -259,11 +259,27 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 	if cov && (opt.CovA.SymmetricDim() != n || opt.CovB.SymmetricDim() != n) {
 		return nil, fmt.Errorf("covariance matrices are %d×%d and %d×%d for %d bins", opt.CovA.SymmetricDim(), opt.CovA.SymmetricDim(), opt.CovB.SymmetricDim(), opt.CovB.SymmetricDim(), n)
 	}
+	if c := e.Default; cov && opt.CovCross == nil && c.Set && c.Value != 0 {
+		cross, err := CrossFromCorrelation(opt.CovA, opt.CovB, c.Value)
+		if err != nil {
+			return nil, err
+		}
+		o := *opt
+		o.CovCross = cross
+		opt = &o
+	}
 	r := &Result{
 		Column: s.column, LabelA: s.labelA, LabelB: s.labelB, Bins: n, Lo: s.lo, Hi: s.hi, A: s.a, B: s.b,
 		Diff: make([]float64, n), SigmaDiff: make([]float64, n), Pulls: make([]float64, n),
-		ErrA: make([]float64, n), ErrB: make([]float64, n), Asymmetric: s.asym,
+		Asymmetric: s.asym,
 	}
+	if len(s.src) == 1 && !s.asym && !cov {
+		// one symmetric source: its errors are the totals
+		r.ErrA, r.ErrB = s.src[0].downA, s.src[0].downB
+	} else {
+		r.ErrA, r.ErrB = make([]float64, n), make([]float64, n)
+	}
+	ownErrs := len(s.src) != 1 || s.asym || cov
 	// Bins are independent: large tables are split over the cores, each
 	// part collecting its own zero-σ bins and source shares, merged in
 	// order afterwards.
@@ -274,7 +290,7 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			outs[k] = r.pulls(s, opt, pr[0], pr[1])
+			outs[k] = r.pulls(s, opt, pr[0], pr[1], ownErrs)
 		}()
 	}
 	wg.Wait()
@@ -321,10 +337,11 @@ type binsOut struct {
 }
 
 // pulls fills differences, combined uncertainties and pulls for bins
-// [lo, hi). Every σ is scaled by a power of two (exact) so that its
-// largest one is in [0.5, 1) before squaring, which keeps 1e-200 and
-// 1e200 errors from under- or overflowing.
-func (r *Result) pulls(s *sides, opt *Options, lo, hi int) binsOut {
+// [lo, hi). When a bin's largest σ is below 2⁻⁵⁰⁰ or above 2⁵⁰⁰, every σ
+// of the bin is scaled by a power of two (exact) so that the largest is in
+// [0.5, 1) before squaring, which keeps 1e-200 and 1e200 errors from
+// under- or overflowing; in between, squares cannot over- or underflow.
+func (r *Result) pulls(s *sides, opt *Options, lo, hi int, ownErrs bool) binsOut {
 	var out binsOut
 	K := len(s.src)
 	cov := opt.CovA != nil && opt.CovB != nil
@@ -349,9 +366,14 @@ func (r *Result) pulls(s *sides, opt *Options, lo, hi int) binsOut {
 		v, qa, qb := 0.0, 0.0, 0.0 // σ_d², σ_a², σ_b², in units of 2^(2ex)
 		ex := 0
 		if m > 0 {
-			_, ex = math.Frexp(m)
+			if m < 0x1p-500 || m > 0x1p500 {
+				_, ex = math.Frexp(m)
+			}
 			for k := range sa {
-				x, y := math.Ldexp(sa[k], -ex), math.Ldexp(sb[k], -ex)
+				x, y := sa[k], sb[k]
+				if ex != 0 {
+					x, y = math.Ldexp(x, -ex), math.Ldexp(y, -ex)
+				}
 				qa, qb = qa+x*x, qb+y*y
 				rho := s.src[k].rho
 				if s.src[k].rhoBins != nil {
@@ -366,8 +388,13 @@ func (r *Result) pulls(s *sides, opt *Options, lo, hi int) binsOut {
 		if opt.Subset {
 			v = math.Abs((ta - tb) * (ta + tb))
 		}
-		r.ErrA[i], r.ErrB[i] = math.Ldexp(ta, ex), math.Ldexp(tb, ex)
-		sd := math.Ldexp(math.Sqrt(v), ex)
+		sd := math.Sqrt(v)
+		if ex != 0 {
+			ta, tb, sd = math.Ldexp(ta, ex), math.Ldexp(tb, ex), math.Ldexp(sd, ex)
+		}
+		if ownErrs {
+			r.ErrA[i], r.ErrB[i] = ta, tb
+		}
 		if cov {
 			w := opt.CovA.At(i, i) + opt.CovB.At(i, i)
 			if opt.CovCross != nil {
@@ -510,16 +537,50 @@ func covChi2(r *Result, opt *Options) (float64, float64, error) {
 	return mat.Dot(d, &x), cond, nil
 }
 
-// notPD wraps ErrNotPositiveDefinite with W's smallest eigenvalue.
-func notPD(w *mat.SymDense) error {
-	var es mat.EigenSym
-	if es.Factorize(w, false) {
-		vals := es.Values(nil)
-		if len(vals) > 0 {
-			return fmt.Errorf("%w: its smallest eigenvalue is %.4g", ErrNotPositiveDefinite, vals[0])
+// CrossFromCorrelation is the cross-covariance of two chains whose errors
+// are e_a = L_a u and e_b = L_b v, with V = L Lᵀ the Cholesky factors and u,
+// v unit normal vectors correlated by ρ component by component:
+//
+//	C = cov(e_a, e_b) = ρ L_a L_bᵀ
+//
+// For diagonal matrices C_ii = ρ σ_a,i σ_b,i, the per-bin rule, and
+// W = V_a + V_b - C - Cᵀ stays positive semi-definite for |ρ| <= 1. Under
+// blinding (V_ij scaled by s_i s_j) C scales the same way, so χ² is
+// unchanged.
+func CrossFromCorrelation(va, vb *mat.SymDense, rho float64) (*mat.Dense, error) {
+	var ca, cb mat.Cholesky
+	for _, x := range []struct {
+		ch   *mat.Cholesky
+		v    *mat.SymDense
+		name string
+	}{{&ca, va, "first"}, {&cb, vb, "second"}} {
+		if !x.ch.Factorize(x.v) {
+			return nil, fmt.Errorf("the covariance matrix of the %s chain is not positive definite (smallest eigenvalue %.4g)", x.name, minEigen(x.v))
 		}
 	}
-	return ErrNotPositiveDefinite
+	var la, lb mat.TriDense
+	ca.LTo(&la)
+	cb.LTo(&lb)
+	var c mat.Dense
+	c.Mul(&la, lb.T())
+	c.Scale(rho, &c)
+	return &c, nil
+}
+
+// notPD wraps ErrNotPositiveDefinite with W's smallest eigenvalue.
+func notPD(w *mat.SymDense) error {
+	return fmt.Errorf("%w: its smallest eigenvalue is %.4g", ErrNotPositiveDefinite, minEigen(w))
+}
+
+// minEigen is the smallest eigenvalue of v, or NaN if it cannot be found.
+func minEigen(v *mat.SymDense) float64 {
+	var es mat.EigenSym
+	if es.Factorize(v, false) {
+		if vals := es.Values(nil); len(vals) > 0 {
+			return vals[0]
+		}
+	}
+	return math.NaN()
 }
 
 // shape fills the pull-distribution statistics from the used pulls.

@@ -78,7 +78,8 @@ type Options struct {
 	// CovA and CovB are optional covariance matrices (n×n) of the two
 	// chains; when both are given, χ² is dᵀ W⁻¹ d with
 	// W = V_a + V_b - C - Cᵀ and C the optional cross-covariance CovCross
-	// (C_ij = cov(a_i, b_j)).
+	// (C_ij = cov(a_i, b_j)), or, when a number Default = ρ is declared
+	// instead, C = ρ L_a L_bᵀ (see [CrossFromCorrelation]).
 	CovA, CovB *mat.SymDense `toml:"-" json:"-"`
 	CovCross   *mat.Dense    `toml:"-" json:"-"`
 
@@ -265,8 +266,11 @@ func (o *Options) Validate() error {
 	if o.CovCross != nil && o.CovA == nil {
 		return errors.New("a cross-covariance needs the covariance matrices of both chains")
 	}
-	if o.CovA != nil && (o.Subset || o.Default.Set || len(o.Correlations) > 0 || o.Overlap.Enabled() || o.Correlation != 0) {
-		return errors.New("covariance matrices cannot be combined with the subset rule or declared correlations; give the correlation as a cross-covariance")
+	if o.CovA != nil && (o.Subset || len(o.Correlations) > 0 || o.Overlap.Enabled() || e.Default.Column != "") {
+		return errors.New("covariance matrices cannot be combined with the subset rule, per-source or per-bin correlations; give the correlation as a cross-covariance or one number")
+	}
+	if o.CovCross != nil && e.Default.Set {
+		return errors.New("give either a cross-covariance or a correlation, not both")
 	}
 	return nil
 }

@@ -11,7 +11,7 @@ import (
 
 	"filippo.io/age"
 
-	"tandem/blind"
+	"tandem/blind/campaign"
 	"tandem/blind/demo"
 	"tandem/compare/table"
 )
@@ -63,12 +63,11 @@ func TestSignWithSSHAgent(t *testing.T) {
 	if code != 1 || !strings.Contains(stderr, "ssh-agent holds no key") {
 		t.Errorf("heron has no key in the agent: exit %d: %s", code, stderr)
 	}
-	c, err := blind.Open(dir)
+	c, err := campaign.Open(dir)
 	if err != nil {
 		t.Fatal(err)
 	}
-	st, _ := c.CheckSignoffs()
-	for _, s := range st {
+	for _, s := range c.Signoffs() {
 		if s.Party == "otter" && !s.Valid {
 			t.Errorf("agent-made sign-off invalid: %v", s.Problems)
 		}
@@ -86,7 +85,7 @@ func TestBlindedReportsHoldNoTrueValue(t *testing.T) {
 	if code, _, stderr := runCLI(t, "report", dir); code != 0 {
 		t.Fatalf("report: %s", stderr)
 	}
-	ids, _, err := blind.ReadIdentityFile(filepath.Join(dir, "keys", "custodian.key"))
+	ids, _, err := campaign.ReadIdentityFile(filepath.Join(dir, "keys", "custodian.key"))
 	if err != nil {
 		t.Fatal(err)
 	}

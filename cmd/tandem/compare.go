@@ -154,9 +154,12 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if cf.covAB != "" && cf.covA == "" {
 		return usageErr("--cov-ab needs --cov-a and --cov-b")
 	}
-	if cf.covA != "" && (cf.subset || cf.set["correlation"] || len(cf.errCorr) > 0 || o.Overlap.Enabled()) {
-		return withHint(usageErr("covariance matrices cannot be combined with --subset or correlations"),
-			"give the correlation between the chains as --cov-ab")
+	if cf.covA != "" && (cf.subset || len(cf.errCorr) > 0 || o.Overlap.Enabled() || o.Default.Column != "") {
+		return withHint(usageErr("covariance matrices cannot be combined with --subset, per-source or per-bin correlations"),
+			"give the correlation between the chains as --cov-ab, or as one number with --correlation")
+	}
+	if cf.covAB != "" && cf.set["correlation"] {
+		return withHint(usageErr("--cov-ab and --correlation cannot be used together"), "the cross-covariance already says how the chains are correlated")
 	}
 	if cf.subset && (cf.set["correlation"] || len(cf.errCorr) > 0 || o.Overlap.Enabled()) {
 		return withHint(usageErr("--subset and --correlation cannot be used together"),

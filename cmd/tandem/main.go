@@ -120,6 +120,7 @@ type command struct {
 func commands() []command {
 	return []command{
 		{"compare", runCompare},
+		{"sync", runSync},
 		{"init", runInit},
 		{"seal", runSeal},
 		{"blind", runBlind},
