@@ -613,7 +613,7 @@ func TestAcceptedBesideVerdict(t *testing.T) {
 		t.Fatal(err)
 	}
 	page := buf.String()
-	v := strings.Index(page, `<p class="banner bad">Verdict:`)
+	v := strings.Index(page, `<p class="banner disagree">Verdict:`)
 	a := strings.Index(page, `<p class="banner accepted"><b>Disagreement accepted</b> by heron and otter: the tilt comes from a known alignment shift</p>`)
 	if v < 0 || a < 0 || strings.Contains(page[v:a], "<h") {
 		t.Errorf("accepted disagreement not right after the verdict (verdict at %d, accepted at %d)", v, a)
