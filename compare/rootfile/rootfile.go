@@ -23,7 +23,6 @@ import (
 	"os"
 	"strings"
 
-	"go-hep.org/x/hep/groot"
 	"go-hep.org/x/hep/groot/rhist"
 	"go-hep.org/x/hep/groot/riofs"
 	"go-hep.org/x/hep/groot/root"
@@ -55,21 +54,32 @@ func Split(spec string) (file, object string) {
 
 // Read reads the object named by spec ("file.root:path"). When the path is
 // empty and the file holds exactly one histogram or graph, that one is used.
-func Read(spec string) (t *table.Table, err error) {
-	file, path := Split(spec)
-	// groot can panic on some corrupted inputs; a bad file must give an
-	// error, never a crash.
-	defer func() {
-		if r := recover(); r != nil {
-			t, err = nil, table.Errorf(spec, 0, 0, "not a readable ROOT file (%v)", r)
-		}
-	}()
+func Read(spec string) (*table.Table, error) {
+	file, _ := Split(spec)
 	if _, err := os.Stat(file); err != nil {
 		return nil, table.Errorf(file, 0, 0, "%v", unwrap(err))
 	}
-	f, err := groot.Open(file)
+	if isolated.Load() {
+		return histInChild(spec)
+	}
+	return readHist(spec)
+}
+
+// recoverAs turns a panic inside groot into an error naming spec: a bad
+// file must give an error, never a crash.
+func recoverAs(spec string, err *error) {
+	if r := recover(); r != nil {
+		*err = table.Errorf(spec, 0, 0, "not a readable ROOT file (%v)", r)
+	}
+}
+
+// readHist decodes the histogram or graph named by spec in this process.
+func readHist(spec string) (t *table.Table, err error) {
+	defer recoverAs(spec, &err)
+	file, path := Split(spec)
+	f, err := open(file)
 	if err != nil {
-		return nil, table.Errorf(file, 0, 0, "not a readable ROOT file: %v", err)
+		return nil, err
 	}
 	defer f.Close()
 	if path == "" {
