@@ -11,6 +11,8 @@ import (
 	"golang.org/x/crypto/ssh"
 )
 
+var benchN = 500
+
 // BenchmarkParse reads a protocol of 500 observables.
 //
 //	go test ./blind/protocol -run '^$' -bench Parse
@@ -26,7 +28,7 @@ func BenchmarkParse(b *testing.B) {
 	for _, p := range []string{"a", "b"} {
 		fmt.Fprintf(&sb, "[[party]]\nname = %q\nrole = \"team\"\nkey = %q\n", p, key())
 	}
-	for i := 0; i < 500; i++ {
+	for i := 0; i < benchN; i++ {
 		fmt.Fprintf(&sb, "[[observable]]\nname = \"obs%03d\"\n  [[observable.column]]\n  name = \"counts\"\n  errors = [\"stat\"]\n  scale = [0.5, 2.0]\n  shift = [-2000.0, 2000.0]\n  correlation = 0.5\n", i)
 	}
 	data := []byte(sb.String())
@@ -35,4 +37,10 @@ func BenchmarkParse(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
+}
+
+func BenchmarkParse50(b *testing.B) {
+	benchN = 50
+	defer func() { benchN = 500 }()
+	BenchmarkParse(b)
 }
