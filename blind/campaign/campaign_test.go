@@ -16,6 +16,7 @@ import (
 	"tandem/blind"
 	"tandem/blind/audit"
 	"tandem/blind/campaign"
+	"tandem/blind/demo"
 	"tandem/blind/internal/format"
 	"tandem/blind/internal/sshsig"
 	"tandem/blind/protocol"
@@ -451,7 +452,7 @@ func TestProtocolLocked(t *testing.T) {
 	dir := buildDemo(t, "unblind")
 	p := filepath.Join(dir, campaign.ProtocolFile)
 	good, _ := os.ReadFile(p)
-	edited := strings.Replace(string(good), "shift = [-3000.0, 3000.0]", "shift = [-3000.0, 3000.0]\n  max_pull = 5.0", 1)
+	edited := strings.Replace(string(good), "shift = [-10000.0, 10000.0]", "shift = [-10000.0, 10000.0]\n  max_pull = 5.0", 1)
 	os.WriteFile(p, []byte(edited), 0o644)
 	if _, err := campaign.Open(dir); !errors.Is(err, campaign.ErrRefused) || !strings.Contains(err.Error(), "differs from the one the ledger locked") {
 		t.Errorf("open after an edit: %v", err)
@@ -642,11 +643,13 @@ func TestProtocolRefusals(t *testing.T) {
 		want string
 	}{
 		{func(s string) string { return s + "\nsurprise = 1\n" }, `surprise"`},
-		{func(s string) string { return strings.Replace(s, "scale = [0.5, 2.0]", "scale = [-0.5, 1.6]", 1) }, "must be positive"},
-		{func(s string) string { return strings.Replace(s, "scale = [0.5, 2.0]", "scale = [1.0, 1.0]", 1) }, "too narrow"},
-		{func(s string) string { return strings.Replace(s, "shift = [-3000.0, 3000.0]", "shift = [0.0, 0.0]", 1) }, "no width"},
-		{func(s string) string { return strings.Replace(s, "  shift = [-3000.0, 3000.0]\n", "", 1) }, "shift must be a range"},
-		{func(s string) string { return strings.Replace(s, "scale = [0.5, 2.0]", "scale = [1e-9, 2.0]", 1) }, "overflow or collapse"},
+		{func(s string) string { return strings.Replace(s, "scale = [0.1, 10.0]", "scale = [-0.5, 1.6]", 1) }, "must be positive"},
+		{func(s string) string { return strings.Replace(s, "scale = [0.1, 10.0]", "scale = [1.0, 1.0]", 1) }, "too narrow"},
+		{func(s string) string {
+			return strings.Replace(s, "shift = [-10000.0, 10000.0]", "shift = [0.0, 0.0]", 1)
+		}, "no width"},
+		{func(s string) string { return strings.Replace(s, "  shift = [-10000.0, 10000.0]\n", "", 1) }, "shift must be a range"},
+		{func(s string) string { return strings.Replace(s, "scale = [0.1, 10.0]", "scale = [1e-9, 2.0]", 1) }, "overflow or collapse"},
 		{func(s string) string {
 			return strings.Replace(s, `quorum = ["heron", "otter", "ibis"]`, "quorum = []", 1)
 		}, "quorum is empty"},
@@ -721,7 +724,7 @@ func TestBlindRefusesBrokenMap(t *testing.T) {
 		if accept {
 			narrow += "\n  accept_risk = \"a test of the refusal\""
 		}
-		os.WriteFile(p, []byte(strings.Replace(string(proto), "shift = [-100000.0, 100000.0]", narrow, 1)), 0o644)
+		os.WriteFile(p, []byte(strings.Replace(string(proto), "shift = [-400000.0, 400000.0]", narrow, 1)), 0o644)
 		c, err := campaign.Init(dir, signer(t, dir, "custodian"))
 		if err != nil {
 			t.Fatal(err)
@@ -775,5 +778,51 @@ func TestTemplateDefaultsPassAudit(t *testing.T) {
 				t.Errorf("key %d: %s breaks the template defaults (precision %.3g)", trial, f.Attack, f.Precision)
 			}
 		}
+	}
+}
+
+// TestDemoRangesPassAudit: the demo's declared ranges survive the attack
+// battery on the demo's tables for many keys (the demo must never be
+// refused by its own blind step).
+func TestDemoRangesPassAudit(t *testing.T) {
+	dir := buildDemoOnce(t)
+	p := open(t, dir).Protocol
+	broken := map[string]int{}
+	worst, worstWhat := 1.0, ""
+	const keys = 200
+	for trial := 0; trial < keys; trial++ {
+		k, _ := blind.GenerateKey()
+		for _, o := range p.Observables {
+			for _, team := range []string{"heron", "otter"} {
+				tb := demo.ChainOutput(team, o.Name)
+				col := o.Columns[0]
+				if col.AcceptRisk != "" {
+					continue // published anyway, with the reason shown
+				}
+				for _, scope := range []string{blind.CommonScope, blind.TeamScope(team)} {
+					m := k.Map(col.MapSpec(o.Name, scope), tb.Len())
+					ac := audit.Column{Observable: o.Name, Column: col.Name, Lo: tb.Lo, Hi: tb.Hi, True: tb.Column(col.Name),
+						Blinded: m.Values(tb.Column(col.Name)), Scale: [2]float64{col.Scale[0], col.Scale[1]}, Shift: [2]float64{col.Shift[0], col.Shift[1]}}
+					for _, e := range col.Errors {
+						ac.BlindedErr = append(ac.BlindedErr, m.Errors(tb.Column(e)))
+					}
+					for _, f := range audit.Run([]audit.Column{ac}, audit.DefaultThreshold) {
+						if f.Broken {
+							broken[o.Name+" "+f.Attack]++
+						}
+						if f.Precision < worst {
+							worst, worstWhat = f.Precision, o.Name+" "+f.Attack+" "+f.Detail
+						}
+					}
+				}
+			}
+		}
+	}
+	if len(broken) > 0 {
+		t.Errorf("attacks that broke the demo's maps (out of %d keys × 2 teams × 2 scopes): %v", keys, broken)
+	}
+	// a margin, so that no key of a demo run comes near the threshold
+	if worst < 1.5*audit.DefaultThreshold {
+		t.Errorf("the best attack reaches precision %.3g on some key (%s); the demo's ranges leave too little margin", worst, worstWhat)
 	}
 }

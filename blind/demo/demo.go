@@ -243,8 +243,9 @@ edges = ["lo", "hi"]
   [[observable.column]]
   name = "rate"
   errors = ["stat", "syst"]
-  scale = [0.5, 2.0]
-  shift = [-3000.0, 3000.0]
+  scale = [0.1, 10.0]
+  shift = [-10000.0, 10000.0]
+  accept_risk = "the monthly rate is flat to a few per cent, so its published errors give its level away; the blinded quantity is the seasonal modulation, which they do not reveal"
   correlation = 0.5
 
 [[observable]]
@@ -257,8 +258,8 @@ edges = ["lo", "hi"]
   [[observable.column]]
   name = "events"
   errors = ["stat", "syst"]
-  scale = [0.5, 2.0]
-  shift = [-8000.0, 8000.0]
+  scale = [0.1, 10.0]
+  shift = [-30000.0, 30000.0]
   correlation = 0.5
 
 [[observable]]
@@ -271,11 +272,19 @@ edges = ["lo", "hi"]
   [[observable.column]]
   name = "counts"
   errors = ["stat"]
-  scale = [0.5, 2.0]
-  shift = [-100000.0, 100000.0]
+  scale = [0.1, 10.0]
+  shift = [-400000.0, 400000.0]
   correlation = 0.5
 `, custodian, pubs["custodian"], pubs["heron"], pubs["otter"], pubs["ibis"])
 }
+
+// ChainOutput is the demo's invented true table of a team for an
+// observable (for tests that check the demo's blinding).
+func ChainOutput(team, obs string) *table.Table { return chainOutput(team, obs) }
+
+// Protocol is the demo's protocol text for a custodian recipient and
+// public keys by party name (heron, otter, ibis, custodian).
+func Protocol(custodian string, pubs map[string]string) string { return protocolText(custodian, pubs) }
 
 // chainOutput invents a team's table for an observable: a shared "truth"
 // with shared event fluctuations, each team's own smaller fluctuations,

@@ -67,8 +67,39 @@ func (f *TableFile) Encode() []byte {
 	} else {
 		fmt.Fprintf(&b, "# map: %s\n# sealed: %s\n", f.Map, f.SealedFrom)
 	}
-	f.Table.WriteCSV(&b)
+	b.Write(AppendCSV(nil, f.Table))
 	return b.Bytes()
+}
+
+// AppendCSV appends the canonical CSV of t: the header line, then one line
+// per bin, every number as [table.Format] writes it.
+func AppendCSV(b []byte, t *table.Table) []byte {
+	b = append(b, t.LoName...)
+	b = append(b, ',')
+	b = append(b, t.HiName...)
+	for _, n := range t.Names {
+		b = append(b, ',')
+		b = append(b, n...)
+	}
+	b = append(b, '\n')
+	num := func(v float64) {
+		if v == 0 {
+			b = append(b, '0')
+		} else {
+			b = strconv.AppendFloat(b, v, 'g', -1, 64)
+		}
+	}
+	for i := range t.Lo {
+		num(t.Lo[i])
+		b = append(b, ',')
+		num(t.Hi[i])
+		for _, c := range t.Cols {
+			b = append(b, ',')
+			num(c[i])
+		}
+		b = append(b, '\n')
+	}
+	return b
 }
 
 // DecodeTableFile parses a table file of the given kind whose edge columns
@@ -138,7 +169,7 @@ func (f *TableFile) Commitment() string {
 	h := sha256.New()
 	fmt.Fprintf(h, "%s seal-commitment\x00%s\x00%s\x00%s\x00%d\x00", blind.Version, f.Campaign, f.Team, f.Observable, f.Version)
 	h.Write(f.Nonce)
-	f.Table.WriteCSV(h)
+	h.Write(AppendCSV(nil, f.Table))
 	return hex.EncodeToString(h.Sum(nil))
 }
 
