@@ -59,6 +59,9 @@ func Read(spec string) (*table.Table, error) {
 	if _, err := os.Stat(file); err != nil {
 		return nil, table.Errorf(file, 0, 0, "%v", unwrap(err))
 	}
+	if isolated.Load() {
+		return histInChild(spec)
+	}
 	return readHist(spec)
 }
 

@@ -112,6 +112,9 @@ func TestWriteSeeds(t *testing.T) {
 		if err := writeSeeds("testdata/seeds"); err != nil {
 			t.Fatal(err)
 		}
+		if err := writeStreams("testdata/streams"); err != nil {
+			t.Fatal(err)
+		}
 	}
 	if len(seedFiles(t)) < 2 {
 		t.Fatal("seed files missing")

@@ -271,6 +271,9 @@ func TreeColumns(spec string) ([]TreeColumn, error) {
 	if _, err := os.Stat(file); err != nil {
 		return nil, table.Errorf(file, 0, 0, "%v", unwrap(err))
 	}
+	if isolated.Load() {
+		return columnsInChild(spec)
+	}
 	return treeColumns(spec)
 }
 
@@ -288,6 +291,9 @@ func ReadTree(spec string, columns []string, fn func(row []float64) error) error
 	file, _ := Split(spec)
 	if _, err := os.Stat(file); err != nil {
 		return table.Errorf(file, 0, 0, "%v", unwrap(err))
+	}
+	if isolated.Load() {
+		return treeInChild(spec, columns, fn)
 	}
 	n := len(columns)
 	return readTree(spec, columns, func(rows []float64) error {
