@@ -161,6 +161,9 @@ func TestJSONContract(t *testing.T) {
 	if doc["verdict"] != "fail" {
 		t.Errorf("verdict %v", doc["verdict"])
 	}
+	if _, ok := doc["accepted_disagreements"].([]any); !ok {
+		t.Errorf("accepted_disagreements is not a list: %v", doc["accepted_disagreements"])
+	}
 	obs := doc["observables"].([]any)
 	for _, o := range obs {
 		m := o.(map[string]any)
@@ -172,6 +175,21 @@ func TestJSONContract(t *testing.T) {
 		}
 		if len(m["pulls"].([]any)) != int(m["bins"].(float64)) {
 			t.Errorf("pulls length")
+		}
+		// the inputs and settings beside the contract
+		for _, k := range []string{"labels", "criteria", "limits", "family_size", "sources", "accepted_disagreement", "per_bin"} {
+			if _, ok := m[k]; !ok {
+				t.Errorf("observable %v lacks %q", m["name"], k)
+			}
+		}
+		per := m["per_bin"].(map[string]any)
+		for _, k := range []string{"lo", "hi", "a", "error_a", "b", "error_b", "difference", "sigma_difference"} {
+			if xs, ok := per[k].([]any); !ok || len(xs) != int(m["bins"].(float64)) {
+				t.Errorf("observable %v: per_bin.%s is not one value per bin", m["name"], k)
+			}
+		}
+		if a := m["limits"].(map[string]any)["alpha"]; a != 0.01 {
+			t.Errorf("limits.alpha = %v", a)
 		}
 	}
 }
