@@ -662,3 +662,21 @@ func TestAcceptedBesideVerdict(t *testing.T) {
 		}
 	}
 }
+
+// TestJUnitTableMode: without a campaign the suite is the pair of labels,
+// not the title repeated.
+func TestJUnitTableMode(t *testing.T) {
+	s := fixture(t)
+	s.Campaign, s.Title = "", "heron.csv vs otter.csv"
+	for i := range s.Entries {
+		s.Entries[i].Teams = [2]string{}
+		s.Entries[i].LabelA, s.Entries[i].LabelB = "heron.csv", "otter.csv"
+	}
+	var buf bytes.Buffer
+	if err := JUnit(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), `<testsuite name="heron.csv vs otter.csv" tests="2"`) {
+		t.Errorf("table-mode suite name:\n%s", buf.String())
+	}
+}
