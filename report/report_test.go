@@ -680,3 +680,56 @@ func TestJUnitTableMode(t *testing.T) {
 		t.Errorf("table-mode suite name:\n%s", buf.String())
 	}
 }
+
+// TestRenderOddInputs: every format renders degenerate comparisons
+// without panicking and the HTML stays finite: one bin, values of zero
+// (no ratio), values spanning 10⁻³⁰⁰ to 10³⁰⁰, zero combined uncertainty
+// with a difference (an infinite pull), negative values, 3000 bins.
+func TestRenderOddInputs(t *testing.T) {
+	mk := func(v, e []float64) *table.Series {
+		n := len(v)
+		s := &table.Series{Column: "y", Lo: make([]float64, n), Hi: make([]float64, n), V: v, Down: e, Up: e}
+		for i := range v {
+			s.Lo[i], s.Hi[i] = float64(i), float64(i+1)
+		}
+		return s
+	}
+	big := func(n int, f func(i int) float64) []float64 {
+		out := make([]float64, n)
+		for i := range out {
+			out[i] = f(i)
+		}
+		return out
+	}
+	cases := []struct {
+		name         string
+		a, ea, b, eb []float64
+	}{
+		{"one bin", []float64{5}, []float64{1}, []float64{6}, []float64{1}},
+		{"zeros", []float64{0, 0, 1}, []float64{1, 1, 1}, []float64{0, 1, 1}, []float64{1, 1, 1}},
+		{"extremes", []float64{1e-300, 1e300, 1}, []float64{1e-301, 1e299, 1}, []float64{2e-300, 1e300, 2}, []float64{1e-301, 1e299, 1}},
+		{"infinite pull", []float64{1, 2, 3}, []float64{0, 1, 1}, []float64{2, 2, 3}, []float64{0, 1, 1}},
+		{"negative", []float64{-5, -3, 2, 400}, []float64{1, 1, 1, 1}, []float64{-4, -3, 2, 401}, []float64{1, 1, 1, 1}},
+		{"3000 bins", big(3000, func(i int) float64 { return float64(i % 7) }), big(3000, func(int) float64 { return 1 }),
+			big(3000, func(i int) float64 { return float64(i % 5) }), big(3000, func(int) float64 { return 1 })},
+	}
+	for _, c := range cases {
+		r, err := compare.Series(mk(c.a, c.ea), mk(c.b, c.eb), compare.Options{Limits: compare.DefaultLimits})
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		s := &compare.Summary{Entries: []compare.Entry{{Observable: c.name, Result: r}}}
+		for _, f := range Formats {
+			var buf bytes.Buffer
+			if err := Render(&buf, f, s, Style{Color: true}); err != nil {
+				t.Errorf("%s, %s: %v", c.name, f, err)
+			}
+			if f == "html" && regexp.MustCompile(`="[^"]*(NaN|Inf)`).Match(buf.Bytes()) {
+				t.Errorf("%s: HTML has a NaN or Inf coordinate", c.name)
+			}
+			if f == "json" && !json.Valid(buf.Bytes()) {
+				t.Errorf("%s: invalid JSON", c.name)
+			}
+		}
+	}
+}
