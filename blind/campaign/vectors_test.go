@@ -651,9 +651,10 @@ func ledgerLineVectors(t *testing.T) []*vector {
 
 func katStatement() *format.Statement {
 	h := func(s string) string { return hex.EncodeToString(sum(s)) }
+	fp := func(name string) string { return ssh.FingerprintSHA256(fixedSigner(nil, name).PublicKey()) }
 	return &format.Statement{Campaign: "vectors-2026", Party: "reviewer", Role: "reviewer", Date: "2026-12-01T10:00:00Z",
 		Protocol: kat.protocolDigest, KeyCommitment: h("kc"), LedgerSeq: 9, LedgerHash: h("head"),
-		Sealed:     []string{"team-a/flux v1 " + h("s1") + " by team-a SHA256:AAAA", "team-b/flux v1 " + h("s2") + " by team-b SHA256:BBBB"},
+		Sealed:     []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
 		Blinded:    []string{"team-a/flux " + h("b1"), "team-b/flux " + h("b2")},
 		Comparison: h("cmp"), Verdict: "fail", Accepted: "the tilt is understood", AcceptedRisks: []string{"flux/value the errors are public anyway"}}
 }
@@ -747,7 +748,7 @@ func (g *gen) open() *Campaign {
 func fixedSigner(t *testing.T, name string) ssh.Signer {
 	s, err := ssh.NewSignerFromKey(ed25519.NewKeyFromSeed(sum("tandem vectors: ssh key of " + name)))
 	if err != nil {
-		t.Fatal(err)
+		panic(err) // an ed25519 key always makes a signer
 	}
 	return s
 }
