@@ -265,6 +265,21 @@ func TestHTMLInChromium(t *testing.T) {
 	if err != nil {
 		t.Fatalf("chromium --dump-dom: %v", err)
 	}
+	// The page prints, or saves as PDF, through the print stylesheet: a
+	// PDF of at least one page for the top and one per comparison (each
+	// starts a new page). Chromium writes one uncompressed "/Type /Page"
+	// dictionary per page. This does not prove where the breaks fall.
+	pdf := filepath.Join(dir, "report.pdf")
+	if out, err := exec.Command(bin, append(args, "--no-pdf-header-footer", "--print-to-pdf="+pdf, "file://"+page)...).CombinedOutput(); err != nil {
+		t.Fatalf("chromium --print-to-pdf: %v\n%s", err, out)
+	}
+	data, err := os.ReadFile(pdf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(data, -1)); !bytes.HasPrefix(data, []byte("%PDF-")) || pages < 1+len(s.Entries) {
+		t.Errorf("printed report has %d pages, want at least %d", pages, 1+len(s.Entries))
+	}
 	for _, label := range []string{"values of heron and otter", "ratio otter / heron", "pulls per bin", "pull distribution", "pull distribution (log scale)"} {
 		if got := strings.Count(string(dom), fmt.Sprintf(`aria-label="%s"`, label)); got != len(s.Entries) {
 			t.Errorf("figure %q appears %d times in the rendered DOM, want %d", label, got, len(s.Entries))
@@ -278,8 +293,8 @@ func TestHTMLInChromium(t *testing.T) {
 // in one figure whose boxes overlap.
 const measureScript = `<script>
 (function () {
-  var out = {figures: 0, small: [], overlaps: [], texts: 0, minPx: 1e9};
-  document.querySelectorAll('svg').forEach(function (svg) {
+  var out = {figures: 0, small: [], overlaps: [], outside: [], texts: 0, minPx: 1e9};
+  function measure() { document.querySelectorAll('svg').forEach(function (svg) {
     if (getComputedStyle(svg).display === 'none') return;
     out.figures++;
     var boxes = [];
@@ -289,7 +304,9 @@ const measureScript = `<script>
       out.texts++;
       out.minPx = Math.min(out.minPx, px);
       if (px < 12) out.small.push(t.textContent + ' (' + px.toFixed(1) + ' px)');
-      boxes.push({r: t.getBoundingClientRect(), s: t.textContent});
+      var r = t.getBoundingClientRect(), f = svg.getBoundingClientRect();
+      if (r.left < f.left - 1 || r.right > f.right + 1 || r.top < f.top - 1 || r.bottom > f.bottom + 1) out.outside.push(t.textContent);
+      boxes.push({r: r, s: t.textContent});
     });
     for (var i = 0; i < boxes.length; i++) for (var j = i + 1; j < boxes.length; j++) {
       var a = boxes[i].r, b = boxes[j].r;
@@ -297,7 +314,11 @@ const measureScript = `<script>
       var h = Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top);
       if (w > 1 && h > 1) out.overlaps.push(svg.getAttribute('aria-label') + ': "' + boxes[i].s + '" and "' + boxes[j].s + '"');
     }
-  });
+  }); }
+  measure();
+  // the other scale of each pull histogram
+  document.querySelectorAll('input.logtoggle').forEach(function (c) { c.checked = !c.checked; });
+  measure();
   var pre = document.createElement('pre');
   pre.id = 'measure';
   pre.textContent = JSON.stringify(out);
@@ -349,6 +370,10 @@ func figureFixture(t testing.TB) *compare.Summary {
 	add("fine", a, b)
 	a, b = series(60, func(i int) float64 { return math.Pow(10, float64(i)/15) }, func(x float64) float64 { return 1e6 * math.Pow(x, -1.25) }, func(i int) float64 { return 0.02 * float64(i) })
 	add("spectrum5", a, b)
+	// table mode with long labels: the legend and titles must still fit
+	last := &s.Entries[len(s.Entries)-1]
+	last.Teams = [2]string{}
+	last.LabelA, last.LabelB = "/data/groups/heron/2026-11/spectrum_final_v3.csv", "/data/groups/otter/2026-11/spectrum_final_v7.csv"
 	return s
 }
 
@@ -393,16 +418,20 @@ func TestFiguresInChromium(t *testing.T) {
 			MinPx          float64
 			Small          []string
 			Overlaps       []string
+			Outside        []string
 		}
 		if !ok || json.Unmarshal([]byte(html.UnescapeString(js)), &m) != nil {
 			t.Fatalf("no measurement in the DOM:\n%.500s", js)
 		}
 		t.Logf("%d px: %d figures, %d texts, smallest %.1f px", width, m.Figures, m.Texts, m.MinPx)
-		if m.Figures != 4*len(s.Entries) || m.Texts < 40*len(s.Entries) {
+		if m.Figures != 8*len(s.Entries) || m.Texts < 80*len(s.Entries) {
 			t.Errorf("%d px: %d figures with %d texts shown", width, m.Figures, m.Texts)
 		}
 		if len(m.Small) > 0 {
 			t.Errorf("%d px: %d texts smaller than 12 px, e.g. %q", width, len(m.Small), m.Small[:min(5, len(m.Small))])
+		}
+		if len(m.Outside) > 0 {
+			t.Errorf("%d px: texts cut off at the figure's edge: %q", width, m.Outside[:min(5, len(m.Outside))])
 		}
 		if len(m.Overlaps) > 0 {
 			t.Errorf("%d px: overlapping texts: %q", width, m.Overlaps[:min(5, len(m.Overlaps))])
@@ -584,7 +613,7 @@ func TestAcceptedBesideVerdict(t *testing.T) {
 		t.Fatal(err)
 	}
 	page := buf.String()
-	v := strings.Index(page, `<p class="banner bad">Verdict:`)
+	v := strings.Index(page, `<p class="banner disagree">Verdict:`)
 	a := strings.Index(page, `<p class="banner accepted"><b>Disagreement accepted</b> by heron and otter: the tilt comes from a known alignment shift</p>`)
 	if v < 0 || a < 0 || strings.Contains(page[v:a], "<h") {
 		t.Errorf("accepted disagreement not right after the verdict (verdict at %d, accepted at %d)", v, a)

@@ -164,7 +164,7 @@ func TestFlagTypo(t *testing.T) {
 // TestHelpFlags: -h lists every flag as typed, with two dashes for long
 // names, and each short/long pair once on one line.
 func TestHelpFlags(t *testing.T) {
-	for _, cmd := range []string{"compare", "init", "seal", "blind", "status", "sign", "unblind", "verify", "report", "demo"} {
+	for _, cmd := range []string{"compare", "sync", "init", "seal", "blind", "status", "sign", "unblind", "verify", "report", "demo"} {
 		code, stdout, stderr := runCLI(t, cmd, "-h")
 		if code != 0 || stdout != "" {
 			t.Errorf("%s -h: exit %d, stdout %q", cmd, code, stdout)

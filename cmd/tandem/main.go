@@ -35,6 +35,8 @@ const usage = `tandem: blind cross-checks between independent analysis chains
 Usage:
     tandem compare A B [flags]             compare two tables (CSV, TSV, JSON,
                                            TOML or a ROOT object), no campaign
+    tandem sync A B --key COL[,COL…]       match two event tables event by event
+                                           and compare their cut flows
     tandem demo DIR [--stop-before STEP]   build a complete demo campaign in DIR
 
   Campaign steps (DIR holds campaign.toml, the ledger and the tables):

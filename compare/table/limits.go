@@ -21,10 +21,10 @@ type Limits struct {
 }
 
 // DefaultLimits are generous for binned tables: a 10⁶-bin table of five
-// columns written with "%.18e" is 125 MB, an eighth of the default size.
+// columns written with "%.18e" is 125 MB, a quarter of the default size.
 // The memory a table needs is at most four times its size in bytes (one
-// float64 per two bytes of "0,0,…"), so the defaults bound it to 4 GiB.
-var DefaultLimits = Limits{MaxLineBytes: 1 << 20, MaxColumns: 10_000, MaxBytes: 1 << 30}
+// float64 per two bytes of "0,0,…"), so the defaults bound it to 2 GiB.
+var DefaultLimits = Limits{MaxLineBytes: 1 << 20, MaxColumns: 10_000, MaxBytes: 512 << 20}
 
 // resolved returns l with zero fields replaced by the defaults.
 func (l Limits) resolved() Limits {
