@@ -1,10 +1,5 @@
-package blind_test
+package blind
 
-import (
-	"fmt"
-	"time"
-)
+import "fmt"
 
 func sprintf(f string, a ...any) string { return fmt.Sprintf(f, a...) }
-
-func nowForTest() time.Time { return time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC) }

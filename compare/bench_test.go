@@ -90,6 +90,23 @@ func BenchmarkCompareOnly(b *testing.B) {
 	}
 }
 
+// BenchmarkColumnsOnly times the statistics alone on 10⁶ bins with the
+// errors as two sources, each with its own declared correlation.
+func BenchmarkColumnsOnly(b *testing.B) {
+	pa, pb := benchTables(b, 1_000_000)
+	ta, _ := table.ReadFile(pa, table.CSVOptions{})
+	tb, _ := table.ReadFile(pb, table.CSVOptions{})
+	sel := []Selection{{Value: "y", Errors: []string{"stat", "syst"}}}
+	opt := Defaults()
+	opt.Correlations = map[string]Rho{"stat": Number(0), "syst": Number(1)}
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := Columns(ta, tb, sel, opt); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
 // readBoth reads two CSV tables concurrently, as the command line does.
 func readBoth(pa, pb string) ([]*table.Table, error) {
 	var ta, tb *table.Table

@@ -49,52 +49,70 @@ import (
 	"tandem/compare/table"
 )
 
-// Limits are the declared tolerances of one comparison.
-type Limits struct {
-	// MaxPull is the largest allowed |pull|; 0 disables the criterion.
-	MaxPull float64
-	// MinP is the smallest allowed p-value, applied to the χ², KS, runs and
-	// trials-corrected largest-pull p-values; 0 disables those criteria.
-	MinP float64
-	// AbsTol and RelTol, when either is set, require numerical agreement in
-	// every bin:
-	//
-	//	|a_i - b_i| <= max(AbsTol, RelTol · max(|a_i|, |b_i|))
-	AbsTol, RelTol float64
-}
+// Criterion kinds.
+const (
+	// KindCheck is a precondition: every bin could be compared.
+	KindCheck = "check"
+	// KindPValue is a p-value held, after the family-wise adjustment, to α.
+	KindPValue = "p-value"
+	// KindTolerance is a declared physics or numerical tolerance.
+	KindTolerance = "tolerance"
+)
 
-// DefaultLimits are the limits used when none are declared.
-var DefaultLimits = Limits{MaxPull: 3, MinP: 0.01}
-
-// Options controls how the uncertainties of the two chains are combined.
-type Options struct {
-	// Correlation is ρ, the correlation between the two chains' errors.
-	Correlation float64
-	// Subset selects Barlow's rule for one sample being a subset of the other.
-	Subset bool
-	// CovA and CovB are optional covariance matrices (n×n) of the two
-	// chains; when both are given, χ² is computed from them. CovCross is the
-	// optional cross-covariance C between the chains (C_ij = cov(a_i, b_j)).
-	CovA, CovB *mat.SymDense
-	CovCross   *mat.Dense
-	Limits     Limits
-}
+// Criterion names, in the fixed order a [Result] lists them.
+const (
+	CritComparable = "comparable bins"
+	CritChi2       = "chi2 p-value"
+	CritKS         = "KS p-value"
+	CritRuns       = "runs p-value"
+	CritMaxPullP   = "max-pull p-value"
+	CritMaxPull    = "max |pull|"
+	CritNumerical  = "numerical tolerance (|a-b| / allowed)"
+)
 
 // Criterion is one test of the verdict.
 type Criterion struct {
-	Name  string  `json:"name"`
+	Name string `json:"name"`
+	Kind string `json:"kind"`
+	// Value is the raw value: the p-value for a p-value criterion.
 	Value float64 `json:"value"`
-	// Limit is the bound the value is held to; Op says how ("<=" or ">=").
+	// Adjusted is the family-wise adjusted p-value (Holm), for p-value
+	// criteria only; it is what is held to Limit.
+	Adjusted *float64 `json:"adjusted_p_value,omitempty"`
+	// Limit is the bound the value (or adjusted p-value) is held to; Op
+	// says how ("<=", or ">" for p-values: pass when adjusted p > α).
 	Limit float64 `json:"limit"`
 	Op    string  `json:"op"`
 	Pass  bool    `json:"pass"`
 	// Detail explains a failure in words.
 	Detail string `json:"detail,omitempty"`
+	// Note qualifies the criterion (e.g. "not trials-corrected").
+	Note string `json:"note,omitempty"`
+	// Bins lists the 1-based bins that fail a check or tolerance.
+	Bins []int `json:"bins,omitempty"`
+	why  string
+}
+
+// Source is one error source as it entered σ_d.
+type Source struct {
+	Name string `json:"name"`
+	// Rho is the correlation used; for a per-bin correlation, its mean
+	// over the compared bins, and PerBin says where it came from.
+	Rho    float64 `json:"rho"`
+	PerBin string  `json:"per_bin,omitempty"`
+	// Declared is false when Rho is the undeclared default 0.
+	Declared bool `json:"declared"`
+	// Share is the source's mean share of σ_d² over the compared bins:
+	// mean_i of (its term in σ_d,i²) / σ_d,i². Shares add up to 1.
+	Share float64 `json:"share"`
 }
 
 // Result is the outcome of comparing one column between two chains.
 type Result struct {
-	Column      string    `json:"column"`
+	Column string `json:"column"`
+	// LabelA and LabelB name the two sides (file names, or teams).
+	LabelA      string    `json:"label_a,omitempty"`
+	LabelB      string    `json:"label_b,omitempty"`
 	Bins        int       `json:"bins"`
 	Lo          []float64 `json:"-"`
 	Hi          []float64 `json:"-"`
@@ -121,112 +139,337 @@ type Result struct {
 	RunsP       float64   `json:"runs_p_value"`
 	// ZeroSigma lists (0-based) bins whose combined uncertainty is zero; they
 	// are left out of the pulls, χ² and shape tests.
-	ZeroSigma  []int       `json:"zero_sigma_bins,omitempty"`
-	Covariance bool        `json:"covariance"`
-	Asymmetric bool        `json:"asymmetric_errors"`
-	Criteria   []Criterion `json:"criteria"`
-	Warnings   []string    `json:"warnings,omitempty"`
-	Pass       bool        `json:"-"`
+	ZeroSigma []int `json:"zero_sigma_bins,omitempty"`
+	// Incomparable lists (0-based) the zero-σ bins with d ≠ 0: they fail
+	// the comparison, and their pulls are ±Inf.
+	Incomparable []int `json:"incomparable_bins,omitempty"`
+	Covariance   bool  `json:"covariance"`
+	// Condition is the condition number of W when covariance matrices
+	// were used (an estimate, from the Cholesky factor).
+	Condition  float64  `json:"condition_number,omitempty"`
+	Asymmetric bool     `json:"asymmetric_errors"`
+	Sources    []Source `json:"sources"`
+	// Criteria are in the fixed order of the Crit* names; absent ones
+	// are left out.
+	Criteria []Criterion `json:"criteria"`
+	// Alpha is the family-wise false-alarm rate the p-value criteria were
+	// held to, and Family the number of p-values adjusted together.
+	Alpha    float64  `json:"alpha"`
+	Family   int      `json:"family_size"`
+	Warnings []string `json:"warnings,omitempty"`
+	Pass     bool     `json:"-"`
 }
 
-// ErrNotPositiveDefinite is returned when W is not positive definite.
+// ErrNotPositiveDefinite is returned (wrapped, with detail) when W is not
+// positive definite.
 var ErrNotPositiveDefinite = errors.New("combined covariance W = Va + Vb - C - Cᵀ is not positive definite")
 
-// Series compares two series bin by bin. The series must have the same bins
-// (see [table.SameEdges]); the caller checks the edges, since it knows the
-// file names and the edge tolerance.
+// ErrNoCriterion is returned when the options leave nothing to judge by.
+var ErrNoCriterion = errors.New("no criterion left to judge agreement (alpha is 0 and no tolerance is declared)")
+
+// ErrNoUncertainty is matched (errors.Is) by a [*NoUncertaintyError].
+var ErrNoUncertainty = errors.New("no uncertainty")
+
+// NoUncertaintyError says that a column has no uncertainty source and no
+// numerical tolerance was declared, so it cannot be compared statistically.
+type NoUncertaintyError struct {
+	Source, Column string
+}
+
+func (e *NoUncertaintyError) Error() string {
+	return fmt.Sprintf("%s: column %q has no uncertainty column, so it cannot be compared statistically", e.Source, e.Column)
+}
+
+// Is makes errors.Is(err, ErrNoUncertainty) hold.
+func (e *NoUncertaintyError) Is(target error) bool { return target == ErrNoUncertainty }
+
+// errSource is one uncertainty source of both sides, bin by bin. For
+// symmetric errors up and down are the same slice.
+type errSource struct {
+	name                   string
+	downA, upA, downB, upB []float64
+	rho                    float64
+	rhoBins                []float64
+	perBin                 string
+	declared               bool
+}
+
+// sides is one column of both chains, ready for comparison.
+type sides struct {
+	column, labelA, labelB string
+	lo, hi, a, b           []float64
+	src                    []errSource
+	asym                   bool
+}
+
+// Series compares two series bin by bin, taking each series' combined
+// uncertainty as a single error source "total" with the correlation
+// opt.Default (or the deprecated opt.Correlation). The series must have the
+// same bins (see [table.SameEdges]); the caller checks the edges. The
+// result is adjusted as a family of its own (see [AdjustFamily]).
 func Series(a, b *table.Series, opt Options) (*Result, error) {
-	n := len(a.V)
-	if n != len(b.V) {
-		return nil, fmt.Errorf("tables have %d and %d bins", n, len(b.V))
+	e := opt.effective()
+	if e.Default.Column != "" {
+		return nil, fmt.Errorf("a per-bin correlation column (%q) needs tables, not series", e.Default.Column)
+	}
+	s := &sides{column: a.Column, labelA: a.Source, labelB: b.Source, lo: a.Lo, hi: a.Hi, a: a.V, b: b.V,
+		asym: a.Asymmetric() || b.Asymmetric()}
+	if len(a.Down) > 0 || len(b.Down) > 0 {
+		s.src = []errSource{{name: "total", downA: a.Down, upA: a.Up, downB: b.Down, upB: b.Up,
+			rho: e.Default.Value, declared: opt.Declared()}}
+	}
+	r, err := compareSides(s, &opt)
+	if err != nil {
+		return nil, err
+	}
+	if err := AdjustFamily([]*Result{r}, e.Alpha); err != nil {
+		return nil, err
+	}
+	return r, nil
+}
+
+// compareSides computes every statistic and the criteria of one column;
+// the p-value criteria are not adjusted yet.
+func compareSides(s *sides, opt *Options) (*Result, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	e := opt.effective()
+	n := len(s.a)
+	if n != len(s.b) {
+		return nil, fmt.Errorf("tables have %d and %d bins", n, len(s.b))
 	}
 	if n == 0 {
 		return nil, errors.New("no bins to compare")
 	}
-	if opt.Correlation < -1 || opt.Correlation > 1 || math.IsNaN(opt.Correlation) {
-		return nil, fmt.Errorf("correlation %v is outside [-1, 1]", opt.Correlation)
+	for _, src := range s.src {
+		if len(src.downA) != n || len(src.upA) != n || len(src.downB) != n || len(src.upB) != n {
+			return nil, fmt.Errorf("error source %q does not have one value per bin", src.name)
+		}
+	}
+	cov := opt.CovA != nil && opt.CovB != nil
+	statistical := len(s.src) > 0 || cov
+	tol := e.AbsTol > 0 || e.RelTol > 0
+	switch {
+	case !statistical && !tol:
+		return nil, &NoUncertaintyError{Source: s.labelA, Column: s.column}
+	case e.Alpha == 0 && e.MaxPull == 0 && !tol:
+		return nil, ErrNoCriterion
+	}
+	if cov && (opt.CovA.SymmetricDim() != n || opt.CovB.SymmetricDim() != n) {
+		return nil, fmt.Errorf("covariance matrices are %d×%d and %d×%d for %d bins", opt.CovA.SymmetricDim(), opt.CovA.SymmetricDim(), opt.CovB.SymmetricDim(), opt.CovB.SymmetricDim(), n)
+	}
+	if c := e.Default; cov && opt.CovCross == nil && c.Set && c.Value != 0 {
+		cross, err := CrossFromCorrelation(opt.CovA, opt.CovB, c.Value)
+		if err != nil {
+			return nil, err
+		}
+		o := *opt
+		o.CovCross = cross
+		opt = &o
 	}
 	r := &Result{
-		Column: a.Column, Bins: n, Lo: a.Lo, Hi: a.Hi, A: a.V, B: b.V,
+		Column: s.column, LabelA: s.labelA, LabelB: s.labelB, Bins: n, Lo: s.lo, Hi: s.hi, A: s.a, B: s.b,
 		Diff: make([]float64, n), SigmaDiff: make([]float64, n), Pulls: make([]float64, n),
-		Asymmetric: a.Asymmetric() || b.Asymmetric(),
+		Asymmetric: s.asym,
 	}
-	if r.Asymmetric {
-		// the error used on each side depends on the sign of the difference
-		r.ErrA, r.ErrB = make([]float64, n), make([]float64, n)
+	if len(s.src) == 1 && !s.asym && !cov {
+		// one symmetric source: its errors are the totals
+		r.ErrA, r.ErrB = s.src[0].downA, s.src[0].downB
 	} else {
-		r.ErrA, r.ErrB = a.Down, b.Down
+		r.ErrA, r.ErrB = make([]float64, n), make([]float64, n)
 	}
+	ownErrs := len(s.src) != 1 || s.asym || cov
 	// Bins are independent: large tables are split over the cores, each
-	// part collecting its own zero-σ bins, merged in order afterwards.
+	// part collecting its own zero-σ bins and source shares, merged in
+	// order afterwards.
 	parts := splitRange(n)
-	zeros := make([][]int, len(parts))
+	outs := make([]binsOut, len(parts))
 	var wg sync.WaitGroup
 	for k, pr := range parts {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			zeros[k] = r.pulls(a, b, opt, pr[0], pr[1])
+			outs[k] = r.pulls(s, opt, pr[0], pr[1], ownErrs)
 		}()
 	}
 	wg.Wait()
-	for _, z := range zeros {
-		r.ZeroSigma = append(r.ZeroSigma, z...)
+	nShare := len(s.src)
+	if opt.Subset || cov {
+		nShare = 1
+	}
+	shares := make([]float64, nShare)
+	for _, o := range outs {
+		r.ZeroSigma = append(r.ZeroSigma, o.zero...)
+		r.Incomparable = append(r.Incomparable, o.bad...)
+		for k, v := range o.share {
+			shares[k] += v
+		}
 	}
 	used := r.withoutZeroSigma(r.Pulls)
 	r.NDF = len(used)
-	if opt.CovA != nil && opt.CovB != nil {
-		chi2, err := covChi2(r, opt)
+	if !statistical {
+		r.NDF = 0
+		used = nil
+	}
+	r.sources(s, opt, shares)
+	if cov {
+		chi2, cond, err := covChi2(r, opt)
 		if err != nil {
 			return nil, err
 		}
-		r.Chi2, r.Covariance = chi2, true
+		r.Chi2, r.Covariance, r.Condition = chi2, true, cond
 	} else {
 		for _, p := range used {
 			r.Chi2 += p * p
 		}
 	}
 	shape(r, used)
-	r.warn(opt)
-	r.judge(opt.Limits)
+	r.warn(opt, statistical)
+	r.judge(e, statistical)
 	return r, nil
 }
 
+// binsOut is what one part of the per-bin loop found.
+type binsOut struct {
+	zero, bad []int
+	share     []float64
+}
+
 // pulls fills differences, combined uncertainties and pulls for bins
-// [lo, hi) and returns the bins whose combined uncertainty is zero.
-func (r *Result) pulls(a, b *table.Series, opt Options, lo, hi int) []int {
-	var zero []int
-	rho := opt.Correlation
+// [lo, hi). When a bin's largest σ is below 2⁻⁵⁰⁰ or above 2⁵⁰⁰, every σ
+// of the bin is scaled by a power of two (exact) so that the largest is in
+// [0.5, 1) before squaring, which keeps 1e-200 and 1e200 errors from
+// under- or overflowing; in between, squares cannot over- or underflow.
+func (r *Result) pulls(s *sides, opt *Options, lo, hi int, ownErrs bool) binsOut {
+	var out binsOut
+	K := len(s.src)
+	cov := opt.CovA != nil && opt.CovB != nil
+	sa, sb, term := make([]float64, K), make([]float64, K), make([]float64, K)
+	if opt.Subset || cov {
+		out.share = make([]float64, 1)
+	} else {
+		out.share = make([]float64, K)
+	}
 	for i := lo; i < hi; i++ {
-		d := a.V[i] - b.V[i]
-		sa, sb := a.Up[i], b.Down[i]
-		if d > 0 {
-			sa, sb = a.Down[i], b.Up[i]
+		d := s.a[i] - s.b[i]
+		m := 0.0
+		for k := range s.src {
+			src := &s.src[k]
+			x, y := src.upA[i], src.downB[i]
+			if d > 0 {
+				x, y = src.downA[i], src.upB[i]
+			}
+			sa[k], sb[k] = x, y
+			m = max(m, x, y)
 		}
-		var v float64
-		if opt.Subset {
-			v = math.Abs(sa*sa - sb*sb)
-		} else {
-			v = sa*sa + sb*sb - 2*rho*sa*sb
-		}
-		if opt.CovA != nil && opt.CovB != nil {
-			v = opt.CovA.At(i, i) + opt.CovB.At(i, i)
-			if opt.CovCross != nil {
-				v -= 2 * opt.CovCross.At(i, i)
+		v, qa, qb := 0.0, 0.0, 0.0 // σ_d², σ_a², σ_b², in units of 2^(2ex)
+		ex := 0
+		if m > 0 {
+			if m < 0x1p-500 || m > 0x1p500 {
+				_, ex = math.Frexp(m)
+			}
+			for k := range sa {
+				x, y := sa[k], sb[k]
+				if ex != 0 {
+					x, y = math.Ldexp(x, -ex), math.Ldexp(y, -ex)
+				}
+				qa, qb = qa+x*x, qb+y*y
+				rho := s.src[k].rho
+				if s.src[k].rhoBins != nil {
+					rho = s.src[k].rhoBins[i]
+				}
+				dd := x - y
+				term[k] = dd*dd + 2*(1-rho)*x*y
+				v += term[k]
 			}
 		}
-		if r.Asymmetric {
-			r.ErrA[i], r.ErrB[i] = sa, sb
+		ta, tb := math.Sqrt(qa), math.Sqrt(qb)
+		if opt.Subset {
+			v = math.Abs((ta - tb) * (ta + tb))
+		}
+		sd := math.Sqrt(v)
+		if ex != 0 {
+			ta, tb, sd = math.Ldexp(ta, ex), math.Ldexp(tb, ex), math.Ldexp(sd, ex)
+		}
+		if ownErrs {
+			r.ErrA[i], r.ErrB[i] = ta, tb
+		}
+		if cov {
+			w := opt.CovA.At(i, i) + opt.CovB.At(i, i)
+			if opt.CovCross != nil {
+				w -= 2 * opt.CovCross.At(i, i)
+			}
+			sd = 0
+			if w > 0 {
+				sd = math.Sqrt(w)
+			}
+			r.ErrA[i], r.ErrB[i] = math.Sqrt(max(opt.CovA.At(i, i), 0)), math.Sqrt(max(opt.CovB.At(i, i), 0))
 		}
 		r.Diff[i] = d
-		if v <= 0 || math.IsNaN(v) {
-			zero = append(zero, i)
+		r.SigmaDiff[i] = sd
+		if !(sd > 0) {
+			out.zero = append(out.zero, i)
+			if d != 0 {
+				out.bad = append(out.bad, i)
+				r.Pulls[i] = math.Copysign(math.Inf(1), d)
+			}
 			continue
 		}
-		r.SigmaDiff[i] = math.Sqrt(v)
-		r.Pulls[i] = d / r.SigmaDiff[i]
+		r.Pulls[i] = d / sd
+		switch {
+		case opt.Subset || cov:
+			out.share[0]++
+		default:
+			for k := range term {
+				out.share[k] += term[k] / v
+			}
+		}
 	}
-	return zero
+	return out
+}
+
+// sources fills r.Sources from the summed per-bin shares.
+func (r *Result) sources(s *sides, opt *Options, shares []float64) {
+	used := float64(r.Bins - len(r.ZeroSigma))
+	frac := func(x float64) float64 {
+		if used == 0 {
+			return 0
+		}
+		return x / used
+	}
+	switch {
+	case opt.CovA != nil && opt.CovB != nil:
+		name := "covariance matrices Va, Vb"
+		if opt.CovCross != nil {
+			name += " and cross-covariance C"
+		}
+		r.Sources = []Source{{Name: name, Declared: true, Share: frac(shares[0])}}
+		return
+	case opt.Subset:
+		r.Sources = []Source{{Name: "all sources (subset rule)", PerBin: "subset rule |σa² - σb²|", Declared: true, Share: frac(shares[0])}}
+		return
+	}
+	r.Sources = make([]Source, 0, len(s.src))
+	for k, src := range s.src {
+		so := Source{Name: src.name, Rho: src.rho, PerBin: src.perBin, Declared: src.declared, Share: frac(shares[k])}
+		if src.rhoBins != nil {
+			sum, cnt := 0.0, 0
+			z := 0
+			for i, v := range src.rhoBins {
+				if z < len(r.ZeroSigma) && r.ZeroSigma[z] == i {
+					z++
+					continue
+				}
+				sum, cnt = sum+v, cnt+1
+			}
+			so.Rho = 0
+			if cnt > 0 {
+				so.Rho = sum / float64(cnt)
+			}
+		}
+		r.Sources = append(r.Sources, so)
+	}
 }
 
 // splitRange cuts [0, n) into one part per core for large n, else one.
@@ -261,12 +504,20 @@ func (r *Result) withoutZeroSigma(xs []float64) []float64 {
 	return out
 }
 
-// covChi2 computes dᵀ W⁻¹ d over all bins by Cholesky factorisation.
-func covChi2(r *Result, opt Options) (float64, error) {
+// CondWarn is the condition number of W above which a warning is given:
+// at 1e10 about 10 of the 16 significant digits of χ² may be lost.
+const CondWarn = 1e10
+
+// covChi2 computes dᵀ W⁻¹ d over all bins by Cholesky factorisation, and
+// the condition number of W.
+func covChi2(r *Result, opt *Options) (float64, float64, error) {
 	n := r.Bins
 	w := mat.NewSymDense(n, nil)
 	w.AddSym(opt.CovA, opt.CovB)
 	if opt.CovCross != nil {
+		if rr, cc := opt.CovCross.Dims(); rr != n || cc != n {
+			return 0, 0, fmt.Errorf("cross-covariance is %d×%d for %d bins", rr, cc, n)
+		}
 		for i := 0; i < n; i++ {
 			for j := i; j < n; j++ {
 				w.SetSym(i, j, w.At(i, j)-opt.CovCross.At(i, j)-opt.CovCross.At(j, i))
@@ -275,14 +526,61 @@ func covChi2(r *Result, opt Options) (float64, error) {
 	}
 	var ch mat.Cholesky
 	if ok := ch.Factorize(w); !ok {
-		return 0, ErrNotPositiveDefinite
+		return 0, 0, notPD(w)
 	}
+	cond := ch.Cond()
 	d := mat.NewVecDense(n, slices.Clone(r.Diff))
 	var x mat.VecDense
 	if err := ch.SolveVecTo(&x, d); err != nil {
-		return 0, fmt.Errorf("solving with W: %w", err)
+		return 0, cond, fmt.Errorf("solving with W: %w", err)
 	}
-	return mat.Dot(d, &x), nil
+	return mat.Dot(d, &x), cond, nil
+}
+
+// CrossFromCorrelation is the cross-covariance of two chains whose errors
+// are e_a = L_a u and e_b = L_b v, with V = L Lᵀ the Cholesky factors and u,
+// v unit normal vectors correlated by ρ component by component:
+//
+//	C = cov(e_a, e_b) = ρ L_a L_bᵀ
+//
+// For diagonal matrices C_ii = ρ σ_a,i σ_b,i, the per-bin rule, and
+// W = V_a + V_b - C - Cᵀ stays positive semi-definite for |ρ| <= 1. Under
+// blinding (V_ij scaled by s_i s_j) C scales the same way, so χ² is
+// unchanged.
+func CrossFromCorrelation(va, vb *mat.SymDense, rho float64) (*mat.Dense, error) {
+	var ca, cb mat.Cholesky
+	for _, x := range []struct {
+		ch   *mat.Cholesky
+		v    *mat.SymDense
+		name string
+	}{{&ca, va, "first"}, {&cb, vb, "second"}} {
+		if !x.ch.Factorize(x.v) {
+			return nil, fmt.Errorf("the covariance matrix of the %s chain is not positive definite (smallest eigenvalue %.4g)", x.name, minEigen(x.v))
+		}
+	}
+	var la, lb mat.TriDense
+	ca.LTo(&la)
+	cb.LTo(&lb)
+	var c mat.Dense
+	c.Mul(&la, lb.T())
+	c.Scale(rho, &c)
+	return &c, nil
+}
+
+// notPD wraps ErrNotPositiveDefinite with W's smallest eigenvalue.
+func notPD(w *mat.SymDense) error {
+	return fmt.Errorf("%w: its smallest eigenvalue is %.4g", ErrNotPositiveDefinite, minEigen(w))
+}
+
+// minEigen is the smallest eigenvalue of v, or NaN if it cannot be found.
+func minEigen(v *mat.SymDense) float64 {
+	var es mat.EigenSym
+	if es.Factorize(v, false) {
+		if vals := es.Values(nil); len(vals) > 0 {
+			return vals[0]
+		}
+	}
+	return math.NaN()
 }
 
 // shape fills the pull-distribution statistics from the used pulls.
@@ -290,6 +588,12 @@ func shape(r *Result, used []float64) {
 	n := len(used)
 	r.PValue = 1
 	r.KSP, r.RunsP, r.MaxPullP = 1, 1, 1
+	r.MaxPullBin = -1
+	for i, p := range r.Pulls {
+		if a := math.Abs(p); a > r.MaxAbsPull || r.MaxPullBin < 0 {
+			r.MaxAbsPull, r.MaxPullBin = a, i
+		}
+	}
 	if n == 0 {
 		return
 	}
@@ -318,12 +622,6 @@ func shape(r *Result, used []float64) {
 		r.PullMeanErr = r.PullWidth / math.Sqrt(float64(n))
 		r.PullWidthEr = r.PullWidth / math.Sqrt(2*float64(n-1))
 	}
-	r.MaxPullBin = -1
-	for i, p := range r.Pulls {
-		if a := math.Abs(p); a > r.MaxAbsPull || r.MaxPullBin < 0 {
-			r.MaxAbsPull, r.MaxPullBin = a, i
-		}
-	}
 	r.MaxPullP = SidakP(r.MaxAbsPull, n)
 	// The runs test uses the signs of the differences of the bins that
 	// carry a pull.
@@ -346,97 +644,3 @@ func SidakP(x float64, n int) float64 {
 	}
 	return -math.Expm1(float64(n) * math.Log1p(-q))
 }
-
-func (r *Result) warn(opt Options) {
-	if opt.Correlation == 0 && !opt.Subset && !r.Covariance {
-		r.Warnings = append(r.Warnings,
-			"correlation of the two chains' errors taken as 0: if both chains use the same events, the pulls are too small and the test too lenient; declare the correlation")
-	}
-	if len(r.ZeroSigma) > 0 {
-		r.Warnings = append(r.Warnings, fmt.Sprintf("%d bin(s) with zero combined uncertainty left out of the pulls and χ²", len(r.ZeroSigma)))
-	}
-	if r.Asymmetric {
-		r.Warnings = append(r.Warnings, "asymmetric errors: each side uses the error that faces the other value")
-	}
-	if r.Bins > 1 && len(r.ZeroSigma) == r.Bins-1 {
-		r.Warnings = append(r.Warnings, "only one bin carries a pull: no pull width")
-	}
-}
-
-// judge applies the limits and fills Criteria (failures first) and Pass.
-func (r *Result) judge(l Limits) {
-	var cs []Criterion
-	add := func(name string, value, limit float64, op, detail string) {
-		pass := value <= limit
-		if op == ">=" {
-			pass = value >= limit
-		}
-		c := Criterion{Name: name, Value: value, Limit: limit, Op: op, Pass: pass}
-		if !pass {
-			c.Detail = detail
-		}
-		cs = append(cs, c)
-	}
-	if l.MaxPull > 0 {
-		add("max |pull|", r.MaxAbsPull, l.MaxPull, "<=",
-			fmt.Sprintf("bin %d has pull %s", r.MaxPullBin+1, fmtG(r.Pulls[max(r.MaxPullBin, 0)])))
-	}
-	if l.MinP > 0 {
-		add("chi2 p-value", r.PValue, l.MinP, ">=", fmt.Sprintf("χ² = %s for %d degrees of freedom", fmtG(r.Chi2), r.NDF))
-		add("KS p-value", r.KSP, l.MinP, ">=", fmt.Sprintf("pulls are not distributed as N(0,1): D = %s", fmtG(r.KSStat)))
-		add("runs p-value", r.RunsP, l.MinP, ">=", fmt.Sprintf("%d runs in %d positive and %d negative differences: a coherent trend", r.Runs, r.RunsPos, r.RunsNeg))
-		add("max-pull p-value", r.MaxPullP, l.MinP, ">=", fmt.Sprintf("|pull| %s is unlikely among %d bins", fmtG(r.MaxAbsPull), r.NDF))
-	}
-	if l.AbsTol > 0 || l.RelTol > 0 {
-		worst, worstBin, bad := 0.0, 0, 0
-		for i := range r.A {
-			tol := math.Max(l.AbsTol, l.RelTol*math.Max(math.Abs(r.A[i]), math.Abs(r.B[i])))
-			ex := math.Abs(r.Diff[i])
-			if ex > tol {
-				bad++
-			}
-			// ratio of the difference to the allowed tolerance
-			q := math.Inf(1)
-			if tol > 0 {
-				q = ex / tol
-			} else if ex == 0 {
-				q = 0
-			}
-			if q > worst || i == 0 {
-				worst, worstBin = q, i
-			}
-		}
-		c := Criterion{Name: "numerical tolerance (|a-b| / allowed)", Value: worst, Limit: 1, Op: "<=", Pass: bad == 0}
-		if !c.Pass {
-			c.Detail = fmt.Sprintf("%d bin(s) beyond tolerance; worst is bin %d (a = %s, b = %s)", bad, worstBin+1, fmtG(r.A[worstBin]), fmtG(r.B[worstBin]))
-		}
-		cs = append(cs, c)
-	}
-	slices.SortStableFunc(cs, func(x, y Criterion) int {
-		switch {
-		case x.Pass == y.Pass:
-			return 0
-		case !x.Pass:
-			return -1
-		}
-		return 1
-	})
-	r.Criteria = cs
-	r.Pass = true
-	for _, c := range cs {
-		r.Pass = r.Pass && c.Pass
-	}
-}
-
-// Failures lists the failed criteria in words.
-func (r *Result) Failures() []string {
-	out := []string{}
-	for _, c := range r.Criteria {
-		if !c.Pass {
-			out = append(out, fmt.Sprintf("%s %s not %s %s: %s", c.Name, fmtG(c.Value), c.Op, fmtG(c.Limit), c.Detail))
-		}
-	}
-	return out
-}
-
-func fmtG(v float64) string { return fmt.Sprintf("%.4g", v) }

@@ -19,7 +19,21 @@ type Entry struct {
 	XLabel, YLabel string
 	// Blinded says whether the values are blinded.
 	Blinded bool
+	// Title is the observable's title in words (from the protocol), shown
+	// under its name; empty when none was declared.
+	Title string
+	// Files names the two tables compared (A, B), as the reader gave them;
+	// empty when not known.
+	Files [2]string
 	*Result
+}
+
+// Acceptance is a disagreement the parties accepted when signing off.
+type Acceptance struct {
+	// By lists the parties that accepted it, in signing order.
+	By []string `json:"by"`
+	// Reason is the reason they gave, in their words.
+	Reason string `json:"reason"`
 }
 
 // Summary is a set of comparisons with one overall verdict.
@@ -27,9 +41,15 @@ type Summary struct {
 	Entries []Entry
 	// Title describes what was compared, for reports.
 	Title string
+	// Campaign names the campaign the comparisons belong to; empty in table
+	// mode.
+	Campaign string
 	// Notes are free-text lines a report shows on top (campaign state,
-	// accepted disagreements).
+	// sign-offs).
 	Notes []string
+	// Accepted lists the disagreements the signing parties accepted;
+	// reports show them beside the verdict they qualify.
+	Accepted []Acceptance
 }
 
 // Pass reports whether every entry passes.
@@ -50,6 +70,23 @@ func verdict(ok bool) string {
 		return "pass"
 	}
 	return "fail"
+}
+
+// Sides returns the names of the two chains compared: the team names in a
+// campaign, else the result's labels (--label-a, --label-b, by default the
+// file names), else "A" and "B".
+func (e *Entry) Sides() (string, string) {
+	if e.Teams[0] != "" || e.Teams[1] != "" {
+		return e.Teams[0], e.Teams[1]
+	}
+	a, b := "A", "B"
+	if e.Result != nil && e.LabelA != "" {
+		a = e.LabelA
+	}
+	if e.Result != nil && e.LabelB != "" {
+		b = e.LabelB
+	}
+	return a, b
 }
 
 // Verdict is "pass" or "fail" for one entry.

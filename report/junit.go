@@ -44,26 +44,37 @@ type junitText struct {
 	Text string `xml:",cdata"`
 }
 
-// JUnit writes one test suite per observable with one test case per
-// compared column (and team pair); a failing case carries its failed
-// criteria.
+// JUnit writes one test suite per pair of chains, named after the
+// campaign and the pair, e.g. "campaign muon: heron vs otter" (in table
+// mode the pair alone), with one test case per observable and column, named
+// "observable / column" (and its title when declared); a failing case
+// carries its failed criteria, and an accepted disagreement says so.
 func JUnit(w io.Writer, s *compare.Summary) error {
 	name := s.Title
+	if s.Campaign != "" {
+		name = "campaign " + s.Campaign
+	}
 	if name == "" {
 		name = "tandem cross-check"
 	}
 	out := junitSuites{Name: name}
-	suiteOf := map[string]int{}
+	suiteOf := map[[2]string]int{}
 	for _, e := range s.Entries {
-		k, ok := suiteOf[e.Observable]
+		a, b := e.Sides()
+		pair := [2]string{a, b}
+		k, ok := suiteOf[pair]
 		if !ok {
 			k = len(out.Suites)
-			suiteOf[e.Observable] = k
-			out.Suites = append(out.Suites, junitSuite{Name: e.Observable})
+			suiteOf[pair] = k
+			suite := fmt.Sprintf("%s vs %s", a, b)
+			if s.Campaign != "" {
+				suite = "campaign " + s.Campaign + ": " + suite
+			}
+			out.Suites = append(out.Suites, junitSuite{Name: suite})
 		}
-		caseName := e.Column
-		if e.Teams[0] != "" {
-			caseName += fmt.Sprintf(" (%s vs %s)", e.Teams[0], e.Teams[1])
+		caseName := e.Observable + " / " + e.Column
+		if e.Title != "" {
+			caseName += " (" + e.Title + ")"
 		}
 		c := junitCase{Name: caseName, Classname: "tandem." + e.Observable}
 		var crit []string
@@ -73,7 +84,14 @@ func JUnit(w io.Writer, s *compare.Summary) error {
 		c.SystemOut = &junitText{Text: strings.Join(crit, "\n")}
 		if !e.Pass {
 			f := e.Failures()
-			c.Failure = &junitFailure{Message: f[0], Type: "disagreement", Text: strings.Join(f, "\n")}
+			if len(f) == 0 {
+				f = []string{"the comparison failed"}
+			}
+			text := strings.Join(f, "\n")
+			for _, acc := range s.Accepted {
+				text += fmt.Sprintf("\ndisagreement accepted by %s: %s", joinList(acc.By), acc.Reason)
+			}
+			c.Failure = &junitFailure{Message: f[0], Type: "disagreement", Text: text}
 			out.Suites[k].Failures++
 			out.Failures++
 		}

@@ -21,6 +21,9 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		title = "Cross-check"
 	}
 	fmt.Fprintf(ew, "## %s: %s\n\n", mdEscape(title), word)
+	for _, a := range s.Accepted {
+		fmt.Fprintf(ew, "**Disagreement accepted** by %s: %s\n\n", mdEscape(joinList(a.By)), mdEscape(a.Reason))
+	}
 	for _, n := range s.Notes {
 		fmt.Fprintf(ew, "- %s\n", mdEscape(n))
 	}
@@ -35,21 +38,31 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	}
 	for _, e := range ordered(s) {
 		fmt.Fprintf(ew, "\n### %s: %s\n\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass))
+		if e.Title != "" {
+			fmt.Fprintf(ew, "%s\n\n", mdEscape(e.Title))
+		}
 		if e.Blinded {
 			fmt.Fprint(ew, "Values are blinded.\n\n")
 		}
-		fmt.Fprintln(ew, "| criterion | value | limit | result |")
-		fmt.Fprintln(ew, "| --- | ---: | ---: | --- |")
+		if !e.Pass {
+			for _, a := range s.Accepted {
+				fmt.Fprintf(ew, "**Disagreement accepted** by %s: %s\n\n", mdEscape(joinList(a.By)), mdEscape(a.Reason))
+			}
+		}
+		fmt.Fprintln(ew, "| criterion | value | adjusted | limit | result |")
+		fmt.Fprintln(ew, "| --- | ---: | ---: | ---: | --- |")
 		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
 				res = "**FAIL**: " + mdEscape(c.Detail)
 			}
-			fmt.Fprintf(ew, "| %s | %s | %s %s | %s |\n", mdEscape(c.Name), num(c.Value), c.Op, num(c.Limit), res)
+			name, v, adj, lim := critCells(c)
+			fmt.Fprintf(ew, "| %s | %s | %s | %s | %s |\n", mdEscape(name), v, adj, mdEscape(lim), res)
 		}
-		fmt.Fprintf(ew, "\nPulls: mean %s ± %s, width %s ± %s; KS D = %s (p = %s); %d runs (p = %s).\n",
-			num(e.PullMean), num(e.PullMeanErr), num(e.PullWidth), num(e.PullWidthEr),
-			num(e.KSStat), pval(e.KSP), e.Runs, pval(e.RunsP))
+		if l := sourcesLine(e); l != "" {
+			fmt.Fprintf(ew, "\n%s\n", mdEscape(capitalize(l)))
+		}
+		fmt.Fprintf(ew, "\n%s.\n", mdEscape(capitalize(shapeLine(e))))
 		for _, wn := range e.Warnings {
 			fmt.Fprintf(ew, "\n> warning: %s\n", mdEscape(wn))
 		}
@@ -57,19 +70,21 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		if cut {
 			fmt.Fprintf(ew, "\nThe %d bins with the largest |pull| of %d:\n", len(idx), e.Bins)
 		}
-		a, b := "a", "b"
-		if e.Teams[0] != "" {
-			a, b = mdEscape(e.Teams[0]), mdEscape(e.Teams[1])
-		}
-		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | diff | σ_diff | pull |\n", a, b)
+		a, b := e.Sides()
+		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | a − b | σ\\_d | pull |\n", mdEscape(a), mdEscape(b))
 		fmt.Fprintln(ew, "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
 		for _, i := range idx {
-			fmt.Fprintf(ew, "| %d | %s | %s | %s | %s | %s | %s | %s | %s | %s |\n", i+1,
-				val(e.Lo[i]), val(e.Hi[i]), val(e.A[i]), val(e.ErrA[i]), val(e.B[i]), val(e.ErrB[i]),
-				val(e.Diff[i]), val(e.SigmaDiff[i]), num(e.Pulls[i]))
+			fmt.Fprintf(ew, "| %s |\n", strings.Join(binCells(e, i), " | "))
 		}
 	}
 	return ew.err
+}
+
+func capitalize(s string) string {
+	if s == "" {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
 }
 
 func mdVerdict(pass bool) string {

@@ -12,6 +12,7 @@ import (
 	"math"
 	"slices"
 	"strconv"
+	"strings"
 
 	"tandem/compare"
 )
@@ -71,9 +72,10 @@ func num(v float64) string {
 	return strconv.FormatFloat(v, 'g', 4, 64)
 }
 
-// pval formats a p-value.
+// pval formats a p-value: four decimals, or three significant digits
+// below 0.01.
 func pval(p float64) string {
-	if p < 1e-4 && p > 0 {
+	if p < 1e-2 && p > 0 {
 		return strconv.FormatFloat(p, 'e', 2, 64)
 	}
 	return strconv.FormatFloat(p, 'f', 4, 64)
@@ -131,7 +133,125 @@ func (h *pullHeap) Pop() any {
 
 // criterionLine is a criterion in words, e.g. "chi2 p-value 0.31 >= 0.01".
 func criterionLine(c compare.Criterion) string {
-	return fmt.Sprintf("%s = %s (limit %s %s)", c.Name, num(c.Value), c.Op, num(c.Limit))
+	name, v, adj, lim := critCells(c)
+	if adj != "" {
+		return fmt.Sprintf("%s = %s (adjusted %s, limit %s)", name, v, adj, lim)
+	}
+	return fmt.Sprintf("%s = %s (limit %s)", name, v, lim)
+}
+
+// critCells formats one criterion for a table: name, raw value, the
+// family-wise adjusted p-value ("" for criteria that are not p-values), the
+// limit with its comparison, and whether it passed.
+func critCells(c compare.Criterion) (name, value, adjusted, limit string) {
+	name = c.Name
+	if c.Note != "" {
+		name += " (" + c.Note + ")"
+	}
+	value = num(c.Value)
+	if c.Kind == compare.KindPValue {
+		value = pval(c.Value)
+	}
+	if c.Adjusted != nil {
+		adjusted = pval(*c.Adjusted)
+	}
+	return name, value, adjusted, c.Op + " " + num(c.Limit)
+}
+
+// sourcesLine lists the error sources with their correlation and share of
+// σ_d², e.g. "stat ρ = 0.6 (71 % of σ_d²), syst ρ = 1 (0 %)".
+func sourcesLine(e compare.Entry) string {
+	var parts []string
+	for _, s := range e.Sources {
+		rho := num(s.Rho)
+		switch {
+		case s.PerBin != "":
+			rho = "mean " + rho + " per bin from " + s.PerBin
+		case !s.Declared:
+			rho += " (not declared)"
+		}
+		parts = append(parts, fmt.Sprintf("%s ρ = %s, %s%% of σ_d²", s.Name, rho, strconv.FormatFloat(100*s.Share, 'f', 0, 64)))
+	}
+	if len(parts) == 0 {
+		return ""
+	}
+	return "error sources: " + strings.Join(parts, "; ")
+}
+
+// pullLimit is the largest allowed |pull| of e, 0 when there is none.
+func pullLimit(e compare.Entry) float64 {
+	for _, c := range e.Criteria {
+		if c.Name == compare.CritMaxPull {
+			return c.Limit
+		}
+	}
+	return 0
+}
+
+// shapeLine describes the pull distribution in one sentence, with n/a for
+// what is undefined (a width needs two pulls).
+func shapeLine(e compare.Entry) string {
+	n := len(pullsUsed(e))
+	mean, width := "n/a", "n/a"
+	if n >= 1 {
+		mean = num(e.PullMean)
+	}
+	if n >= 2 {
+		mean += " ± " + num(e.PullMeanErr)
+		width = num(e.PullWidth) + " ± " + num(e.PullWidthEr)
+	}
+	return fmt.Sprintf("pulls: mean %s, width %s; KS D = %s (p = %s); %d runs (p = %s); χ²/ndf = %s/%d",
+		mean, width, num(e.KSStat), pval(e.KSP), e.Runs, pval(e.RunsP), num(e.Chi2), e.NDF)
+}
+
+// binCells formats one row of a per-bin table: bin number, edges, each
+// side's value and uncertainty, the difference, its uncertainty and the
+// pull. Each value is rounded where its uncertainty has its second
+// significant digit.
+func binCells(e compare.Entry, i int) []string {
+	va, ea := withError(e.A[i], e.ErrA[i])
+	vb, eb := withError(e.B[i], e.ErrB[i])
+	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
+	p := pullText(e.Pulls[i])
+	if slices.Contains(e.ZeroSigma, i) {
+		p = "n/a"
+	}
+	return []string{strconv.Itoa(i + 1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p}
+}
+
+// pullText writes a pull with two decimals, so that a column of pulls
+// lines up on the decimal point; huge ones keep four significant digits.
+func pullText(p float64) string {
+	if math.Abs(p) < 1000 {
+		return strconv.FormatFloat(p, 'f', 2, 64)
+	}
+	return num(p)
+}
+
+// withError formats a value and its uncertainty to the same decimal place,
+// the uncertainty to two significant digits (common practice; the PDG's
+// rounding rule keeps one or two). Values of everyday size are written as
+// decimals, others in exponent form. Without a positive uncertainty the
+// value keeps six significant digits.
+func withError(v, e float64) (string, string) {
+	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
+		return val(v), val(e)
+	}
+	last := int(math.Floor(math.Log10(e))) - 1 // decimal exponent of the second digit
+	big := math.Max(math.Abs(v), e)
+	if big < 1e6 && e >= 1e-4 {
+		places := max(0, -last)
+		q := math.Pow(10, float64(last))
+		if last > 0 {
+			v, e = math.Round(v/q)*q, math.Round(e/q)*q
+		}
+		return strconv.FormatFloat(v, 'f', places, 64), strconv.FormatFloat(e, 'f', places, 64)
+	}
+	ve := last + 1
+	if v != 0 {
+		ve = int(math.Floor(math.Log10(math.Abs(v))))
+	}
+	return strconv.FormatFloat(v, 'e', max(1, ve-last), 64), strconv.FormatFloat(e, 'e', 1, 64)
 }
 
 func entryTitle(e compare.Entry) string {

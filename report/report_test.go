@@ -6,11 +6,14 @@ import (
 	"encoding/xml"
 	"flag"
 	"fmt"
+	"html"
 	"image/png"
 	"math"
+	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -45,10 +48,12 @@ func fixture(t testing.TB) *compare.Summary {
 		t.Fatal(err)
 	}
 	return &compare.Summary{
-		Title: "golden campaign",
-		Notes: []string{"campaign golden is blinded"},
+		Title:    "golden campaign",
+		Campaign: "golden",
+		Notes:    []string{"campaign golden is blinded"},
+		Accepted: []compare.Acceptance{{By: []string{"heron", "otter"}, Reason: "the tilt comes from a known alignment shift"}},
 		Entries: []compare.Entry{
-			{Observable: "spectrum", Teams: [2]string{"heron", "otter"}, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Blinded: true, Result: good},
+			{Observable: "spectrum", Title: "Energy spectrum of through-going muons", Teams: [2]string{"heron", "otter"}, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Blinded: true, Result: good},
 			{Observable: "tilt", Teams: [2]string{"heron", "otter"}, XLabel: "cos θ", Result: bad},
 		},
 	}
@@ -156,6 +161,9 @@ func TestJSONContract(t *testing.T) {
 	if doc["verdict"] != "fail" {
 		t.Errorf("verdict %v", doc["verdict"])
 	}
+	if _, ok := doc["accepted_disagreements"].([]any); !ok {
+		t.Errorf("accepted_disagreements is not a list: %v", doc["accepted_disagreements"])
+	}
 	obs := doc["observables"].([]any)
 	for _, o := range obs {
 		m := o.(map[string]any)
@@ -167,6 +175,21 @@ func TestJSONContract(t *testing.T) {
 		}
 		if len(m["pulls"].([]any)) != int(m["bins"].(float64)) {
 			t.Errorf("pulls length")
+		}
+		// the inputs and settings beside the contract
+		for _, k := range []string{"labels", "criteria", "limits", "family_size", "sources", "accepted_disagreement", "per_bin"} {
+			if _, ok := m[k]; !ok {
+				t.Errorf("observable %v lacks %q", m["name"], k)
+			}
+		}
+		per := m["per_bin"].(map[string]any)
+		for _, k := range []string{"lo", "hi", "a", "error_a", "b", "error_b", "difference", "sigma_difference"} {
+			if xs, ok := per[k].([]any); !ok || len(xs) != int(m["bins"].(float64)) {
+				t.Errorf("observable %v: per_bin.%s is not one value per bin", m["name"], k)
+			}
+		}
+		if a := m["limits"].(map[string]any)["alpha"]; a != 0.01 {
+			t.Errorf("limits.alpha = %v", a)
 		}
 	}
 }
@@ -187,28 +210,38 @@ func TestHTMLEscapesAndNoTrueValuesWhenBlinded(t *testing.T) {
 			t.Errorf("HTML is not self-contained: contains %q", bad)
 		}
 	}
-	if got := strings.Count(out, "<svg"); got != 3*len(s.Entries) {
-		t.Errorf("%d figures, want %d", got, 3*len(s.Entries))
+	// values, ratio, pulls, and the pull histogram on a linear and a log axis
+	if got := strings.Count(out, "<svg"); got != 5*len(s.Entries) {
+		t.Errorf("%d figures, want %d", got, 5*len(s.Entries))
 	}
 }
 
-// TestHTMLInChromium renders the report in headless Chromium (Debian's
-// chromium package), checks the screenshot is not blank and that the
-// browser built every figure.
-func TestHTMLInChromium(t *testing.T) {
-	bin := ""
+// chromium finds headless Chromium (Debian's chromium package) or skips.
+func chromium(t *testing.T) string {
+	t.Helper()
 	for _, name := range []string{"chromium", "chromium-browser"} {
 		if p, err := exec.LookPath(name); err == nil {
-			bin = p
-			break
+			return p
 		}
 	}
-	if bin == "" {
-		if os.Getenv("TANDEM_REQUIRE_TOOLS") != "" {
-			t.Fatal("chromium is required in CI but not installed")
-		}
-		t.Skip("skipping: chromium is not installed (apt-get install chromium)")
+	if os.Getenv("TANDEM_REQUIRE_TOOLS") != "" {
+		t.Fatal("chromium is required in CI but not installed")
 	}
+	t.Skip("skipping: chromium is not installed (apt-get install chromium)")
+	return ""
+}
+
+func chromiumArgs(dir string, width int) []string {
+	return []string{"--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+		"--disable-background-networking", "--disable-component-update", "--disable-sync", "--hide-scrollbars",
+		"--user-data-dir=" + filepath.Join(dir, "profile"), fmt.Sprintf("--window-size=%d,1400", width)}
+}
+
+// TestHTMLInChromium renders the report in headless Chromium, checks the
+// screenshot is not blank and that the browser built every figure.
+// TANDEM_SCREENSHOTS=DIR keeps full-page screenshots for a person to look at.
+func TestHTMLInChromium(t *testing.T) {
+	bin := chromium(t)
 	dir := t.TempDir()
 	page := filepath.Join(dir, "report.html")
 	var buf bytes.Buffer
@@ -217,9 +250,7 @@ func TestHTMLInChromium(t *testing.T) {
 		t.Fatal(err)
 	}
 	os.WriteFile(page, buf.Bytes(), 0o644)
-	args := []string{"--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-		"--disable-background-networking", "--disable-component-update", "--disable-sync",
-		"--user-data-dir=" + filepath.Join(dir, "profile"), "--window-size=1100,1400"}
+	args := chromiumArgs(dir, 1100)
 	shot := filepath.Join(dir, "shot.png")
 	if out, err := exec.Command(bin, append(args, "--screenshot="+shot, "file://"+page)...).CombinedOutput(); err != nil {
 		t.Fatalf("chromium screenshot: %v\n%s", err, out)
@@ -252,17 +283,205 @@ func TestHTMLInChromium(t *testing.T) {
 	if err != nil {
 		t.Fatalf("chromium --dump-dom: %v", err)
 	}
-	for _, e := range s.Entries {
-		for _, label := range []string{"values of heron and otter", "pulls per bin", "pull distribution"} {
-			_ = e
-			if !strings.Contains(string(dom), fmt.Sprintf(`aria-label="%s"`, label)) {
-				t.Errorf("figure %q missing from the rendered DOM", label)
+	// The page prints, or saves as PDF, through the print stylesheet: a
+	// PDF of at least one page for the top and one per comparison (each
+	// starts a new page). Chromium writes one uncompressed "/Type /Page"
+	// dictionary per page. This does not prove where the breaks fall.
+	pdf := filepath.Join(dir, "report.pdf")
+	if out, err := exec.Command(bin, append(args, "--no-pdf-header-footer", "--print-to-pdf="+pdf, "file://"+page)...).CombinedOutput(); err != nil {
+		t.Fatalf("chromium --print-to-pdf: %v\n%s", err, out)
+	}
+	data, err := os.ReadFile(pdf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(data, -1)); !bytes.HasPrefix(data, []byte("%PDF-")) || pages < 1+len(s.Entries) {
+		t.Errorf("printed report has %d pages, want at least %d", pages, 1+len(s.Entries))
+	}
+	for _, label := range []string{"values of heron and otter", "ratio otter / heron", "pulls per bin", "pull distribution", "pull distribution (log scale)"} {
+		if got := strings.Count(string(dom), fmt.Sprintf(`aria-label="%s"`, label)); got != len(s.Entries) {
+			t.Errorf("figure %q appears %d times in the rendered DOM, want %d", label, got, len(s.Entries))
+		}
+	}
+}
+
+// measureScript, added to a copy of the page by the test only (reports
+// carry no script), measures every visible SVG text: its rendered font
+// size in CSS pixels and its box on the page, and lists the pairs of texts
+// in one figure whose boxes overlap.
+const measureScript = `<script>
+(function () {
+  var out = {figures: 0, small: [], overlaps: [], outside: [], texts: 0, minPx: 1e9};
+  function measure() { document.querySelectorAll('svg').forEach(function (svg) {
+    if (getComputedStyle(svg).display === 'none') return;
+    out.figures++;
+    var boxes = [];
+    svg.querySelectorAll('text').forEach(function (t) {
+      var m = t.getScreenCTM();
+      var px = parseFloat(getComputedStyle(t).fontSize) * Math.hypot(m.a, m.b);
+      out.texts++;
+      out.minPx = Math.min(out.minPx, px);
+      if (px < 12) out.small.push(t.textContent + ' (' + px.toFixed(1) + ' px)');
+      var r = t.getBoundingClientRect(), f = svg.getBoundingClientRect();
+      if (r.left < f.left - 1 || r.right > f.right + 1 || r.top < f.top - 1 || r.bottom > f.bottom + 1) out.outside.push(t.textContent);
+      boxes.push({r: r, s: t.textContent});
+    });
+    for (var i = 0; i < boxes.length; i++) for (var j = i + 1; j < boxes.length; j++) {
+      var a = boxes[i].r, b = boxes[j].r;
+      var w = Math.min(a.right, b.right) - Math.max(a.left, b.left);
+      var h = Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top);
+      if (w > 1 && h > 1) out.overlaps.push(svg.getAttribute('aria-label') + ': "' + boxes[i].s + '" and "' + boxes[j].s + '"');
+    }
+  }); }
+  measure();
+  // the other scale of each pull histogram
+  document.querySelectorAll('input.logtoggle').forEach(function (c) { c.checked = !c.checked; });
+  measure();
+  var pre = document.createElement('pre');
+  pre.id = 'measure';
+  pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>`
+
+// figureFixture holds the hard cases for the figures: a small agreeing
+// comparison, one with pulls far beyond any axis, a 5000-bin comparison
+// and a spectrum over five decades on log axes (invented numbers, seeded).
+func figureFixture(t testing.TB) *compare.Summary {
+	t.Helper()
+	s := fixture(t)
+	rng := rand.New(rand.NewPCG(1, 1))
+	mk := func(lo, hi, v, e []float64) *table.Series {
+		return &table.Series{Column: "rate", Lo: lo, Hi: hi, V: v, Down: e, Up: e}
+	}
+	series := func(n int, edge func(i int) float64, value func(x float64) float64, shift func(i int) float64) (*table.Series, *table.Series) {
+		lo, hi := make([]float64, n), make([]float64, n)
+		va, vb, ea, eb := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+		for i := range n {
+			lo[i], hi[i] = edge(i), edge(i+1)
+			mu := value((lo[i] + hi[i]) / 2)
+			ea[i], eb[i] = math.Sqrt(mu), math.Sqrt(mu)
+			va[i] = mu + ea[i]*rng.NormFloat64()
+			vb[i] = mu + eb[i]*rng.NormFloat64() + shift(i)*eb[i]
+		}
+		return mk(lo, hi, va, ea), mk(lo, hi, vb, eb)
+	}
+	opt := compare.Options{Correlation: 0.2, Limits: compare.DefaultLimits}
+	add := func(name string, a, b *table.Series) {
+		r, err := compare.Series(a, b, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s.Entries = append(s.Entries, compare.Entry{Observable: name, Teams: [2]string{"heron", "otter"}, XLabel: "x", YLabel: "counts", Result: r})
+	}
+	a, b := series(24, func(i int) float64 { return float64(i) }, func(float64) float64 { return 400 }, func(i int) float64 {
+		switch i {
+		case 5:
+			return -20 // a pull far beyond the axis
+		case 17:
+			return 14
+		}
+		return 0
+	})
+	add("outliers", a, b)
+	a, b = series(5000, func(i int) float64 { return float64(i) }, func(x float64) float64 { return 2e4 + 5e3*math.Sin(x/700) }, func(int) float64 { return 0 })
+	add("fine", a, b)
+	a, b = series(60, func(i int) float64 { return math.Pow(10, float64(i)/15) }, func(x float64) float64 { return 1e6 * math.Pow(x, -1.25) }, func(i int) float64 { return 0.02 * float64(i) })
+	add("spectrum5", a, b)
+	// table mode with long labels: the legend and titles must still fit
+	last := &s.Entries[len(s.Entries)-1]
+	last.Teams = [2]string{}
+	last.LabelA, last.LabelB = "/data/groups/heron/2026-11/spectrum_final_v3.csv", "/data/groups/otter/2026-11/spectrum_final_v7.csv"
+	return s
+}
+
+// TestFiguresInChromium renders the hard cases at a projector's 1280 px
+// and a narrow 1000 px window and holds the figures to what a meeting
+// needs: every text at least 12 px, no two texts in a figure overlapping,
+// a ratio panel for every comparison, overflow marks for the pulls beyond
+// the axes, and the decimation stated for 5000 bins.
+func TestFiguresInChromium(t *testing.T) {
+	bin := chromium(t)
+	s := figureFixture(t)
+	var buf bytes.Buffer
+	if err := HTML(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	page := buf.String()
+	if got := strings.Count(page, `class="ratio"`); got != len(s.Entries) {
+		t.Errorf("%d ratio panels for %d comparisons", got, len(s.Entries))
+	}
+	if !strings.Contains(page, "5000 bins are drawn as 1000 groups of 5 consecutive bins") {
+		t.Errorf("the 5000-bin overlay does not say how it was decimated")
+	}
+	sec := section(page, "outliers")
+	for _, want := range []string{`<path class="overflow"`, `<rect class="overflow"`, "2 beyond ±8 (largest ", "&lt; −8: 1", "&gt; 8: 1"} {
+		if !strings.Contains(sec, want) {
+			t.Errorf("outliers: no %q: pulls beyond the axes are not marked", want)
+		}
+	}
+	for _, width := range []int{1280, 1000} {
+		dir := t.TempDir()
+		path := filepath.Join(dir, "figures.html")
+		os.WriteFile(path, []byte(strings.Replace(page, "</body>", measureScript+"</body>", 1)), 0o644)
+		args := chromiumArgs(dir, width)
+		dom, err := exec.Command(bin, append(args, "--dump-dom", "file://"+path)...).Output()
+		if err != nil {
+			t.Fatalf("chromium --dump-dom: %v", err)
+		}
+		_, js, ok := strings.Cut(string(dom), `<pre id="measure">`)
+		js, _, _ = strings.Cut(js, "</pre>")
+		var m struct {
+			Figures, Texts int
+			MinPx          float64
+			Small          []string
+			Overlaps       []string
+			Outside        []string
+		}
+		if !ok || json.Unmarshal([]byte(html.UnescapeString(js)), &m) != nil {
+			t.Fatalf("no measurement in the DOM:\n%.500s", js)
+		}
+		t.Logf("%d px: %d figures, %d texts, smallest %.1f px", width, m.Figures, m.Texts, m.MinPx)
+		if m.Figures != 8*len(s.Entries) || m.Texts < 80*len(s.Entries) {
+			t.Errorf("%d px: %d figures with %d texts shown", width, m.Figures, m.Texts)
+		}
+		if len(m.Small) > 0 {
+			t.Errorf("%d px: %d texts smaller than 12 px, e.g. %q", width, len(m.Small), m.Small[:min(5, len(m.Small))])
+		}
+		if len(m.Outside) > 0 {
+			t.Errorf("%d px: texts cut off at the figure's edge: %q", width, m.Outside[:min(5, len(m.Outside))])
+		}
+		if len(m.Overlaps) > 0 {
+			t.Errorf("%d px: overlapping texts: %q", width, m.Overlaps[:min(5, len(m.Overlaps))])
+		}
+		if d := os.Getenv("TANDEM_SCREENSHOTS"); d != "" && width == 1280 {
+			shot, _ := filepath.Abs(filepath.Join(d, "figures.png"))
+			args[len(args)-1] = "--window-size=1280,9000"
+			if out, err := exec.Command(bin, append(args, "--screenshot="+shot, "file://"+path)...).CombinedOutput(); err != nil {
+				t.Errorf("screenshot: %v\n%s", err, out)
 			}
 		}
 	}
-	if got := strings.Count(string(dom), "<svg"); got != 3*len(s.Entries) {
-		t.Errorf("browser DOM has %d figures, want %d", got, 3*len(s.Entries))
+}
+
+// section returns the part of the page about one observable.
+func section(page, name string) string {
+	i := strings.Index(page, "<h2 id=")
+	for i >= 0 {
+		j := strings.Index(page[i+1:], "<h2 id=")
+		end := len(page)
+		if j >= 0 {
+			end = i + 1 + j
+		}
+		if strings.Contains(page[i:min(end, i+200)], ">"+name+" / ") {
+			return page[i:end]
+		}
+		if j < 0 {
+			break
+		}
+		i = end
 	}
+	return ""
 }
 
 // BenchmarkHTML500 renders a campaign of 500 observables of 40 bins and
@@ -300,5 +519,217 @@ func TestJSONSurvivesOverflow(t *testing.T) {
 	}
 	if !strings.Contains(buf.String(), `"verdict": "fail"`) {
 		t.Errorf("verdict lost:\n%s", buf.String())
+	}
+}
+
+// TestTextAlignsColouredPulls: the bold worst pull and the red FAIL do not
+// shift their columns: every row of a table has the same visible width.
+func TestTextAlignsColouredPulls(t *testing.T) {
+	var buf bytes.Buffer
+	if err := Text(&buf, fixture(t), Style{Color: true}); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), ansiBold) {
+		t.Fatal("no bold pull in coloured output")
+	}
+	ansi := regexp.MustCompile("\x1b\\[[0-9;]*m")
+	var table []string
+	check := func() {
+		for _, l := range table {
+			if w := len([]rune(ansi.ReplaceAllString(l, ""))); w != len([]rune(ansi.ReplaceAllString(table[0], ""))) {
+				t.Errorf("row %q is %d wide, header %d", l, w, len([]rune(table[0])))
+			}
+		}
+		table = nil
+	}
+	for _, l := range strings.Split(buf.String(), "\n") {
+		if strings.HasPrefix(strings.TrimSpace(l), "bin ") || len(table) > 0 && regexp.MustCompile(`^\s+\d+\s`).MatchString(l) {
+			table = append(table, l)
+			continue
+		}
+		check()
+	}
+	check()
+}
+
+// TestOneBinSaysNA: with one bin, the pull width and the error of the mean
+// are undefined (the sample standard deviation needs n ≥ 2) and shown as
+// n/a, not as 0 ± 0.
+func TestOneBinSaysNA(t *testing.T) {
+	a := &table.Series{Column: "y", Lo: []float64{0}, Hi: []float64{1}, V: []float64{10}, Down: []float64{1}}
+	b := &table.Series{Column: "y", Lo: a.Lo, Hi: a.Hi, V: []float64{11}, Down: []float64{1}}
+	a.Up, b.Up = a.Down, b.Down
+	r, err := compare.Series(a, b, compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := &compare.Summary{Entries: []compare.Entry{{Observable: "one", Result: r}}}
+	for _, f := range []string{"text", "markdown", "html"} {
+		var buf bytes.Buffer
+		if err := Render(&buf, f, s, Style{}); err != nil {
+			t.Fatal(err)
+		}
+		if out := buf.String(); !strings.Contains(out, "width n/a") || strings.Contains(out, "width 0 ± 0") {
+			t.Errorf("%s: one bin does not say the width is n/a", f)
+		}
+	}
+}
+
+func TestWithError(t *testing.T) {
+	// two significant digits on the uncertainty, the value to the same place
+	for _, c := range []struct {
+		v, e         float64
+		wantV, wantE string
+	}{
+		{100, 10, "100", "10"},
+		{90, 9.48683, "90.0", "9.5"},
+		{2415.3712, 48.95, "2415", "49"},
+		{123456, 3456, "123500", "3500"},
+		{0.012345, 0.00067, "0.01235", "0.00067"},
+		{1.2345e7, 3.4e5, "1.234e+07", "3.4e+05"},
+		{5, 0, "5", "0"},
+	} {
+		v, e := withError(c.v, c.e)
+		if v != c.wantV || e != c.wantE {
+			t.Errorf("withError(%v, %v) = %s ± %s, want %s ± %s", c.v, c.e, v, e, c.wantV, c.wantE)
+		}
+	}
+}
+
+// TestTickLabels: one format per axis: the same number of decimals on
+// every label, a common ×10ⁿ factor for large or small numbers (never
+// "1e+04" beside "8000"), and 10ⁿ on log axes.
+func TestTickLabels(t *testing.T) {
+	for _, c := range []struct {
+		lo, hi   float64
+		log      bool
+		want     string
+		wantMult string
+	}{
+		{0, 10000, false, "0.0 0.2 0.4 0.6 0.8 1.0", "×10⁴"},
+		{0, 9000, false, "0 2000 4000 6000 8000", ""},
+		{-4, 4, false, "−4 −2 0 2 4", ""},
+		{0.9, 1.1, false, "0.90 0.95 1.00 1.05 1.10", ""},
+		{0, 0.004, false, "0 1 2 3 4", "×10⁻³"},
+		{1, 1e5, true, "10⁰ 10¹ 10² 10³ 10⁴ 10⁵", ""},
+		{1e-3, 1e12, true, "10⁻³ 10⁻¹ 10¹ 10³ 10⁵ 10⁷ 10⁹ 10¹¹", ""},
+	} {
+		labels, mult := tickLabels(ticks(c.lo, c.hi, c.log), c.log)
+		if got := strings.Join(labels, " "); got != c.want || mult != c.wantMult {
+			t.Errorf("[%g, %g] log=%v: %q %q, want %q %q", c.lo, c.hi, c.log, got, mult, c.want, c.wantMult)
+		}
+	}
+}
+
+// TestAcceptedBesideVerdict: an accepted disagreement stands right after
+// the verdict, in the same banner style and size, and is a structured
+// field in JSON.
+func TestAcceptedBesideVerdict(t *testing.T) {
+	s := fixture(t)
+	var buf bytes.Buffer
+	if err := HTML(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	page := buf.String()
+	v := strings.Index(page, `<p class="banner disagree">Verdict:`)
+	a := strings.Index(page, `<p class="banner accepted"><b>Disagreement accepted</b> by heron and otter: the tilt comes from a known alignment shift</p>`)
+	if v < 0 || a < 0 || strings.Contains(page[v:a], "<h") {
+		t.Errorf("accepted disagreement not right after the verdict (verdict at %d, accepted at %d)", v, a)
+	}
+	buf.Reset()
+	if err := JSON(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Accepted []struct {
+			By     []string
+			Reason string
+		} `json:"accepted_disagreements"`
+		Observables []struct {
+			Name     string
+			Accepted bool `json:"accepted_disagreement"`
+		}
+	}
+	if err := json.Unmarshal(buf.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.Accepted) != 1 || doc.Accepted[0].Reason == "" || len(doc.Accepted[0].By) != 2 {
+		t.Errorf("accepted_disagreements = %+v", doc.Accepted)
+	}
+	for _, o := range doc.Observables {
+		if o.Accepted != (o.Name == "tilt") {
+			t.Errorf("%s: accepted_disagreement = %v", o.Name, o.Accepted)
+		}
+	}
+}
+
+// TestJUnitTableMode: without a campaign the suite is the pair of labels,
+// not the title repeated.
+func TestJUnitTableMode(t *testing.T) {
+	s := fixture(t)
+	s.Campaign, s.Title = "", "heron.csv vs otter.csv"
+	for i := range s.Entries {
+		s.Entries[i].Teams = [2]string{}
+		s.Entries[i].LabelA, s.Entries[i].LabelB = "heron.csv", "otter.csv"
+	}
+	var buf bytes.Buffer
+	if err := JUnit(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), `<testsuite name="heron.csv vs otter.csv" tests="2"`) {
+		t.Errorf("table-mode suite name:\n%s", buf.String())
+	}
+}
+
+// TestRenderOddInputs: every format renders degenerate comparisons
+// without panicking and the HTML stays finite: one bin, values of zero
+// (no ratio), values spanning 10⁻³⁰⁰ to 10³⁰⁰, zero combined uncertainty
+// with a difference (an infinite pull), negative values, 3000 bins.
+func TestRenderOddInputs(t *testing.T) {
+	mk := func(v, e []float64) *table.Series {
+		n := len(v)
+		s := &table.Series{Column: "y", Lo: make([]float64, n), Hi: make([]float64, n), V: v, Down: e, Up: e}
+		for i := range v {
+			s.Lo[i], s.Hi[i] = float64(i), float64(i+1)
+		}
+		return s
+	}
+	big := func(n int, f func(i int) float64) []float64 {
+		out := make([]float64, n)
+		for i := range out {
+			out[i] = f(i)
+		}
+		return out
+	}
+	cases := []struct {
+		name         string
+		a, ea, b, eb []float64
+	}{
+		{"one bin", []float64{5}, []float64{1}, []float64{6}, []float64{1}},
+		{"zeros", []float64{0, 0, 1}, []float64{1, 1, 1}, []float64{0, 1, 1}, []float64{1, 1, 1}},
+		{"extremes", []float64{1e-300, 1e300, 1}, []float64{1e-301, 1e299, 1}, []float64{2e-300, 1e300, 2}, []float64{1e-301, 1e299, 1}},
+		{"infinite pull", []float64{1, 2, 3}, []float64{0, 1, 1}, []float64{2, 2, 3}, []float64{0, 1, 1}},
+		{"negative", []float64{-5, -3, 2, 400}, []float64{1, 1, 1, 1}, []float64{-4, -3, 2, 401}, []float64{1, 1, 1, 1}},
+		{"3000 bins", big(3000, func(i int) float64 { return float64(i % 7) }), big(3000, func(int) float64 { return 1 }),
+			big(3000, func(i int) float64 { return float64(i % 5) }), big(3000, func(int) float64 { return 1 })},
+	}
+	for _, c := range cases {
+		r, err := compare.Series(mk(c.a, c.ea), mk(c.b, c.eb), compare.Options{Limits: compare.DefaultLimits})
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		s := &compare.Summary{Entries: []compare.Entry{{Observable: c.name, Result: r}}}
+		for _, f := range Formats {
+			var buf bytes.Buffer
+			if err := Render(&buf, f, s, Style{Color: true}); err != nil {
+				t.Errorf("%s, %s: %v", c.name, f, err)
+			}
+			if f == "html" && regexp.MustCompile(`="[^"]*(NaN|Inf)`).Match(buf.Bytes()) {
+				t.Errorf("%s: HTML has a NaN or Inf coordinate", c.name)
+			}
+			if f == "json" && !json.Valid(buf.Bytes()) {
+				t.Errorf("%s: invalid JSON", c.name)
+			}
+		}
 	}
 }

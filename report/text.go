@@ -4,7 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"text/tabwriter"
+	"strings"
 
 	"tandem/compare"
 )
@@ -30,23 +30,20 @@ func verdictWord(st Style, pass bool) string {
 	return paint(st, ansiRed+ansiBold, "DISAGREE")
 }
 
-// Text writes a terminal report: the overall verdict first, one line per
-// comparison, then for each comparison its criteria (failures first),
-// warnings and a per-bin table.
+// Text writes a terminal report: the overall verdict first, any accepted
+// disagreement beside it, one line per comparison, then for each
+// comparison its criteria (in a fixed order), warnings and a per-bin table.
 func Text(w io.Writer, s *compare.Summary, st Style) error {
 	ew := &errWriter{w: w}
 	pass := s.Pass()
-	failed := 0
-	for _, e := range s.Entries {
-		if !e.Pass {
-			failed++
-		}
-	}
 	fmt.Fprintf(ew, "verdict: %s", verdictWord(st, pass))
 	if !pass {
-		fmt.Fprintf(ew, " (%d of %d comparisons outside tolerance)", failed, len(s.Entries))
+		fmt.Fprintf(ew, " (%d of %d comparisons outside tolerance)", failures(s), len(s.Entries))
 	}
 	fmt.Fprintln(ew)
+	for _, a := range s.Accepted {
+		fmt.Fprintf(ew, "%s by %s: %s\n", paint(st, ansiBold, "DISAGREEMENT ACCEPTED"), joinList(a.By), a.Reason)
+	}
 	if s.Title != "" {
 		fmt.Fprintf(ew, "%s\n", s.Title)
 	}
@@ -67,24 +64,32 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 			fmt.Fprint(ew, " [blinded values]")
 		}
 		fmt.Fprintf(ew, ": %s\n", verdictWord(st, e.Pass))
-		tw := tabwriter.NewWriter(ew, 0, 0, 2, ' ', 0)
-		fmt.Fprintln(tw, "  criterion\tvalue\tlimit\tresult\t")
+		if e.Title != "" {
+			fmt.Fprintf(ew, "  %s\n", e.Title)
+		}
+		if e.Files[0] != "" || e.Files[1] != "" {
+			a, b := e.Sides()
+			fmt.Fprintf(ew, "  %s: %s; %s: %s\n", a, e.Files[0], b, e.Files[1])
+		}
+		crit := [][]string{{"criterion", "value", "adjusted", "limit", "result"}}
 		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
 				res = paint(st, ansiRed, "FAIL")
 			}
-			fmt.Fprintf(tw, "  %s\t%s\t%s %s\t%s\t\n", c.Name, num(c.Value), c.Op, num(c.Limit), res)
+			name, v, adj, lim := critCells(c)
+			crit = append(crit, []string{name, v, adj, lim, res})
 		}
-		tw.Flush()
+		alignTable(ew, "  ", crit, false)
+		if l := sourcesLine(e); l != "" {
+			fmt.Fprintf(ew, "  %s\n", l)
+		}
 		for _, c := range e.Criteria {
 			if !c.Pass && c.Detail != "" {
 				fmt.Fprintf(ew, "  why: %s: %s\n", c.Name, c.Detail)
 			}
 		}
-		fmt.Fprintf(ew, "  pulls: mean %s ± %s, width %s ± %s, KS D = %s (p = %s), %d runs (p = %s)\n",
-			num(e.PullMean), num(e.PullMeanErr), num(e.PullWidth), num(e.PullWidthEr),
-			num(e.KSStat), pval(e.KSP), e.Runs, pval(e.RunsP))
+		fmt.Fprintf(ew, "  %s\n", shapeLine(e))
 		for _, wn := range e.Warnings {
 			fmt.Fprintf(ew, "  warning: %s\n", wn)
 		}
@@ -92,29 +97,75 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		if cut {
 			fmt.Fprintf(ew, "  showing the %d bins with the largest |pull| of %d\n", len(idx), e.Bins)
 		}
-		a, b := "a", "b"
-		if e.Teams[0] != "" {
-			a, b = e.Teams[0], e.Teams[1]
-		}
-		tw = tabwriter.NewWriter(ew, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintf(tw, "bin\tlo\thi\t%s\t±\t%s\t±\tdiff\tσ_diff\tpull\t\n", a, b)
+		a, b := e.Sides()
+		bins := [][]string{{"bin", "lo", "hi", shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull"}}
 		for _, i := range idx {
-			p := num(e.Pulls[i])
+			c := binCells(e, i)
 			if e.MaxPullBin == i || (st.Color && !passPull(e, i)) {
-				p = paint(st, ansiBold, p)
+				c[9] = paint(st, ansiBold, c[9])
 			}
-			fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1,
-				val(e.Lo[i]), val(e.Hi[i]), val(e.A[i]), val(e.ErrA[i]), val(e.B[i]), val(e.ErrB[i]),
-				val(e.Diff[i]), val(e.SigmaDiff[i]), p)
+			bins = append(bins, c)
 		}
-		tw.Flush()
+		alignTable(ew, "  ", bins, true)
 	}
 	return ew.err
 }
 
+// alignTable writes rows as columns two spaces apart, right-aligned (or
+// left-aligned), measuring each cell by what a terminal shows: characters,
+// not bytes, and no ANSI escape sequences.
+func alignTable(w io.Writer, indent string, rows [][]string, right bool) {
+	var width []int
+	for _, r := range rows {
+		for j, c := range r {
+			if j >= len(width) {
+				width = append(width, 0)
+			}
+			width[j] = max(width[j], visibleWidth(c))
+		}
+	}
+	for _, r := range rows {
+		var b strings.Builder
+		b.WriteString(indent)
+		for j, c := range r {
+			pad := strings.Repeat(" ", width[j]-visibleWidth(c))
+			if j > 0 {
+				b.WriteString("  ")
+			}
+			if right {
+				b.WriteString(pad + c)
+			} else if j < len(r)-1 {
+				b.WriteString(c + pad)
+			} else {
+				b.WriteString(c)
+			}
+		}
+		fmt.Fprintln(w, b.String())
+	}
+}
+
+// visibleWidth counts the runes of s outside ANSI escape sequences
+// (ESC [ … final byte).
+func visibleWidth(s string) int {
+	n, esc := 0, false
+	for _, r := range s {
+		switch {
+		case esc:
+			if r >= 0x40 && r <= 0x7e && r != '[' {
+				esc = false
+			}
+		case r == 0x1b:
+			esc = true
+		default:
+			n++
+		}
+	}
+	return n
+}
+
 func passPull(e compare.Entry, i int) bool {
 	for _, c := range e.Criteria {
-		if c.Name == "max |pull|" {
+		if c.Name == compare.CritMaxPull {
 			return math.Abs(e.Pulls[i]) <= c.Limit
 		}
 	}

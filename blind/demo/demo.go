@@ -25,7 +25,7 @@ import (
 
 	"golang.org/x/crypto/ssh"
 
-	"tandem/blind"
+	"tandem/blind/campaign"
 	"tandem/blind/safefile"
 	"tandem/compare/table"
 )
@@ -39,10 +39,6 @@ type Options struct {
 	StopBefore string
 	// Log receives a few plain lines about each step.
 	Log func(format string, args ...any)
-	// Reports writes the reports of the campaign at a stage ("compare" or
-	// "unblind"); the command line supplies it, since rendering lives in
-	// package report.
-	Reports func(c *blind.Campaign, stage string) error
 }
 
 // Parties of the demo.
@@ -52,6 +48,9 @@ var parties = []struct{ name, role string }{{"heron", "team"}, {"otter", "team"}
 const acceptReason = "otter's zenith correction still uses the pre-upgrade tower survey; the tilt is understood and will be fixed in the next pass"
 
 // Build creates the demo campaign in dir, which must not exist or be empty.
+// Keys go to dir/keys: an SSH key per party and for the custodian
+// ("custodian", which signs the custodian's steps) and the custodian's age
+// identity ("custodian.key").
 func Build(dir string, opt Options) error {
 	logf := opt.Log
 	if logf == nil {
@@ -66,22 +65,22 @@ func Build(dir string, opt Options) error {
 	keys := filepath.Join(dir, "keys")
 	signers := map[string]ssh.Signer{}
 	pubs := map[string]string{}
-	for _, p := range parties {
-		s, pub, err := makeSSHKey(filepath.Join(keys, p.name), p.name+"@kettlewell-demo")
+	for _, name := range []string{"heron", "otter", "ibis", "custodian"} {
+		s, pub, err := makeSSHKey(filepath.Join(keys, name), name+"@kettlewell-demo")
 		if err != nil {
 			return err
 		}
-		signers[p.name], pubs[p.name] = s, pub
+		signers[name], pubs[name] = s, pub
 	}
-	rcpt, err := blind.GenerateCustodian(filepath.Join(keys, "custodian.key"), time.Now())
+	rcpt, err := campaign.GenerateCustodian(filepath.Join(keys, "custodian.key"), time.Now())
 	if err != nil {
 		return err
 	}
-	logf("made SSH keys for heron, otter and ibis and a custodian age identity in %s", keys)
-	if err := safefile.Create(filepath.Join(dir, blind.ProtocolFile), []byte(protocol(rcpt, pubs)), 0o644); err != nil {
+	logf("made SSH keys for heron, otter, ibis and the custodian, and a custodian age identity, in %s", keys)
+	if err := safefile.Create(filepath.Join(dir, campaign.ProtocolFile), []byte(protocolText(rcpt, pubs)), 0o644); err != nil {
 		return err
 	}
-	logf("wrote the protocol %s: 3 observables, quorum heron + otter + ibis", filepath.Join(dir, blind.ProtocolFile))
+	logf("wrote the protocol %s: 3 observables, quorum heron + otter + ibis", filepath.Join(dir, campaign.ProtocolFile))
 	stop := func(step string) bool {
 		if step == opt.StopBefore {
 			logf("stopped before %q, as asked; the campaign is ready for that step by hand", step)
@@ -92,60 +91,72 @@ func Build(dir string, opt Options) error {
 	if stop("init") {
 		return nil
 	}
-	c, err := blind.Init(dir)
+	c, err := campaign.Init(dir, signers["custodian"])
 	if err != nil {
 		return err
 	}
-	c.Actor = "demo"
 	logf("init: drew the blinding key, sealed it to the custodian, logged its commitment")
 	if stop("seal") {
 		return nil
 	}
-	for _, team := range []string{"heron", "otter"} {
+	ids, _, err := campaign.ReadIdentityFile(filepath.Join(keys, "custodian.key"))
+	if err != nil {
+		return err
+	}
+	sealAll := func(team string) error {
 		for _, o := range c.Protocol.Observables {
-			t := chainOutput(team, o.Name)
-			if _, err := c.Seal(team, o.Name, t); err != nil {
+			if _, err := c.Seal(team, o.Name, chainOutput(team, o.Name), signers[team], ""); err != nil {
 				return err
 			}
 		}
+		return nil
 	}
-	logf("seal: each team sealed its 3 true tables to the custodian (only commitments are public)")
+	if err := sealAll("heron"); err != nil {
+		return err
+	}
+	res, err := c.Blind(ids, signers["custodian"])
+	if err != nil {
+		return err
+	}
+	logf("seal: heron sealed its 3 true tables; the custodian published them in heron's own map (%d tables), which nobody can compare with otter's", len(res.Files))
+	if err := sealAll("otter"); err != nil {
+		return err
+	}
+	logf("seal: otter sealed its 3 true tables (only commitments are public)")
 	if stop("blind") {
 		return nil
 	}
-	ids, _, err := blind.ReadIdentityFile(filepath.Join(keys, "custodian.key"))
+	res, err = c.Blind(ids, signers["custodian"])
 	if err != nil {
 		return err
 	}
-	done, err := c.Blind(ids)
-	if err != nil {
-		return err
-	}
-	logf("blind: the custodian wrote %d blinded tables under %s", len(done), filepath.Join(dir, "blinded"))
+	logf("blind: every team has sealed; the custodian opened %d comparisons, publishing %d tables in the common map under %s", len(res.Opened), len(res.Files), filepath.Join(dir, "blinded"))
 	if stop("compare") {
 		return nil
 	}
-	sum, _, err := c.Compare(blind.Blinded)
+	cmp, err := c.Compare()
 	if err != nil {
 		return err
 	}
-	if opt.Reports != nil {
-		if err := opt.Reports(c, "compare"); err != nil {
-			return err
-		}
+	if _, err := c.WriteBlindedReports(); err != nil {
+		return err
 	}
 	failed := 0
-	for _, e := range sum.Entries {
+	for _, e := range cmp.Summary.Entries {
 		if !e.Pass {
 			failed++
 		}
 	}
-	logf("compare: %d comparisons on blinded tables, %d outside tolerance (the zenith tilt); reports in %s", len(sum.Entries), failed, filepath.Join(dir, "reports"))
+	logf("compare: %d comparisons on blinded tables, %d outside tolerance (the zenith tilt); reports in %s", len(cmp.Summary.Entries), failed, filepath.Join(dir, "reports"))
 	if stop("sign") {
 		return nil
 	}
 	for _, p := range parties {
-		if _, err := c.Sign(p.name, acceptReason, signers[p.name]); err != nil {
+		st, _, err := c.Draft(p.name, acceptReason)
+		if err != nil {
+			return err
+		}
+		if _, err := c.Sign(st, signers[p.name]); err != nil {
 			return err
 		}
 	}
@@ -153,23 +164,22 @@ func Build(dir string, opt Options) error {
 	if stop("unblind") {
 		return nil
 	}
-	if _, err := c.Unblind(ids); err != nil {
+	if _, err := c.Unblind(ids, signers["custodian"]); err != nil {
 		return err
 	}
-	if opt.Reports != nil {
-		if err := opt.Reports(c, "unblind"); err != nil {
-			return err
-		}
-	}
-	logf("unblind: quorum met; true tables in %s, key published in %s", filepath.Join(dir, "unblinded"), filepath.Join(dir, blind.RevealedFile))
+	logf("unblind: quorum met; true tables in %s, key published in %s", filepath.Join(dir, "unblinded"), filepath.Join(dir, campaign.RevealedFile))
 	if stop("verify") {
 		return nil
 	}
-	r := blind.Verify(dir)
+	r := campaign.Verify(dir)
 	if !r.OK() {
-		return fmt.Errorf("verify found problems in the demo: %s", strings.Join(r.Problems, "; "))
+		var ps []string
+		for _, p := range r.Problems {
+			ps = append(ps, p.String())
+		}
+		return fmt.Errorf("verify found problems in the demo: %s", strings.Join(ps, "; "))
 	}
-	logf("verify: ledger chain, digests, signatures, quorum and every commitment hold")
+	logf("verify: ledger chain, signatures, digests, sign-offs, quorum and every commitment hold")
 	return nil
 }
 
@@ -198,13 +208,14 @@ func makeSSHKey(path, comment string) (ssh.Signer, string, error) {
 	return signer, line, err
 }
 
-func protocol(custodian string, pubs map[string]string) string {
+func protocolText(custodian string, pubs map[string]string) string {
 	return fmt.Sprintf(`# Demo protocol: the Kettlewell Deep Lab muon-telescope cross-check.
 # Invented scenario and numbers, made by "tandem demo".
-format = "tandem/v1"
+format = "tandem/v2"
 campaign = "kettlewell-muon-2026"
 description = "Kettlewell Deep Lab (fictional): one year of muon-telescope data, two independent chains"
 custodian = "%s"
+custodian_key = "%s"
 quorum = ["heron", "otter", "ibis"]
 
 [[party]]
@@ -232,8 +243,8 @@ edges = ["lo", "hi"]
   [[observable.column]]
   name = "rate"
   errors = ["stat", "syst"]
-  scale = [0.6, 1.6]
-  shift = [-20.0, 20.0]
+  scale = [0.5, 2.0]
+  shift = [-3000.0, 3000.0]
   correlation = 0.5
 
 [[observable]]
@@ -246,8 +257,8 @@ edges = ["lo", "hi"]
   [[observable.column]]
   name = "events"
   errors = ["stat", "syst"]
-  scale = [0.8, 1.25]
-  shift = [-100.0, 100.0]
+  scale = [0.5, 2.0]
+  shift = [-8000.0, 8000.0]
   correlation = 0.5
 
 [[observable]]
@@ -261,9 +272,9 @@ edges = ["lo", "hi"]
   name = "counts"
   errors = ["stat"]
   scale = [0.5, 2.0]
-  shape = true
+  shift = [-100000.0, 100000.0]
   correlation = 0.5
-`, custodian, pubs["heron"], pubs["otter"], pubs["ibis"])
+`, custodian, pubs["custodian"], pubs["heron"], pubs["otter"], pubs["ibis"])
 }
 
 // chainOutput invents a team's table for an observable: a shared "truth"

@@ -6,7 +6,6 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -31,59 +30,123 @@ campaign folder it compares the teams' blinded tables as the protocol says.
 
 Value columns: --value names them (repeatable); otherwise every column that
 is not a bin edge or an uncertainty. Uncertainties: --error names them
-(repeatable, added in quadrature, used for every value column); otherwise
-columns named VALUE_err, VALUE_stat, VALUE_syst, VALUE_sys (and bare err,
-stat, syst, sys when there is one value column).
+(repeatable; each is an error source with its own correlation between the
+two chains, set by --error-correlation NAME=RHO, where RHO is a number in
+[-1, 1] or a column holding one value per bin; --correlation sets the
+sources not named). Without --error: columns named VALUE_err, VALUE_stat,
+VALUE_syst, VALUE_sys (and bare err, stat, syst, sys when there is one value
+column). --overlap-count N --overlap-common C derive the correlation of the
+"stat" source per bin as C/sqrt(N_A N_B) from event counts.
+
+Verdict: the chi-square, Kolmogorov-Smirnov, runs and trials-corrected
+largest-pull p-values of every compared column are adjusted together
+(Holm-Bonferroni) so that agreeing tables fail with probability at most
+--alpha. --max-pull adds a raw limit on |pull| (not trials-corrected);
+--abs-tol/--rel-tol require numerical agreement, and are the only criterion
+when the tables have no uncertainties.
+
+Exit status: 0 agreement, 1 disagreement, 2 bad usage or input (also: no
+uncertainty column and no tolerance, or no criterion left).
 
 Example:
     tandem compare heron.csv otter.csv --value rate --error stat --error syst \
-        --correlation 0.6 --format json -o verdict.json
+        --error-correlation stat=0.6 --error-correlation syst=1 --format json -o verdict.json
 `
 
 // compareFlags are the comparison settings shared by table and campaign mode.
 type compareFlags struct {
 	edges, format, output, name, tables string
-	values, errs                        listFlag
+	values, errs, errCorr               listFlag
 	covA, covB, covAB                   string
-	correlation, maxPull, minP          float64
+	correlation                         string
+	alpha, maxPull, minP                float64
 	absTol, relTol, edgeTol             float64
 	subset                              bool
+	overlapCount, overlapCommon         string
+	overlapSource                       string
+	labelA, labelB                      string
 	set                                 map[string]bool
+	opt                                 compare.Options
 }
 
+// tableOnly are the flags that campaign mode refuses (the protocol sets them).
+var tableOnly = []string{"alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol"}
+
 func (cf *compareFlags) register(fs *flag.FlagSet) {
+	d := compare.Defaults()
 	fs.StringVar(&cf.edges, "edges", table.DefaultLo+","+table.DefaultHi, "names of the bin-edge columns `LO,HI`")
 	fs.Var(&cf.values, "value", "value `COLUMN` to compare (repeatable)")
-	fs.Var(&cf.errs, "error", "uncertainty `COLUMN` (repeatable, added in quadrature)")
-	fs.Float64Var(&cf.correlation, "correlation", 0, "correlation `R` of the two chains' errors, in [-1, 1]")
+	fs.Var(&cf.errs, "error", "uncertainty `COLUMN` (repeatable; one error source each)")
+	fs.Var(&cf.errCorr, "error-correlation", "correlation of one error source between the chains, `NAME=RHO` (repeatable; RHO a number in [-1, 1] or a per-bin column)")
+	fs.StringVar(&cf.correlation, "correlation", "0", "correlation `R` of the error sources not named by --error-correlation (a number in [-1, 1] or a per-bin column)")
 	fs.BoolVar(&cf.subset, "subset", false, "one sample is a subset of the other: σ_d² = |σ_a² - σ_b²| (Barlow)")
+	fs.StringVar(&cf.overlapCount, "overlap-count", "", "per-bin event-count `COLUMN` of each table (N_A in A, N_B in B), for ρ from the overlap")
+	fs.StringVar(&cf.overlapCommon, "overlap-common", "", "per-bin `COLUMN` with the number of events both chains select")
+	fs.StringVar(&cf.overlapSource, "overlap-source", compare.DefaultOverlapSource, "error `SOURCE` whose correlation the overlap sets")
 	fs.StringVar(&cf.covA, "cov-a", "", "covariance matrix `FILE` of A (CSV, one row and column per bin)")
 	fs.StringVar(&cf.covB, "cov-b", "", "covariance matrix `FILE` of B")
 	fs.StringVar(&cf.covAB, "cov-ab", "", "cross-covariance matrix `FILE` between A and B (optional)")
-	fs.Float64Var(&cf.maxPull, "max-pull", compare.DefaultLimits.MaxPull, "largest allowed |pull| `X` (0: no limit)")
-	fs.Float64Var(&cf.minP, "min-p", compare.DefaultLimits.MinP, "smallest allowed p-value `P` (0: no limit)")
+	fs.Float64Var(&cf.alpha, "alpha", d.Alpha, "family-wise false-alarm rate `A` of the p-value criteria (0: no p-value criteria)")
+	fs.Float64Var(&cf.minP, "min-p", d.Alpha, "deprecated: the same as --alpha")
+	fs.Float64Var(&cf.maxPull, "max-pull", 0, "optional raw limit `X` on the largest |pull|, not trials-corrected (0: none)")
 	fs.Float64Var(&cf.absTol, "abs-tol", 0, "absolute numerical tolerance per bin (chains that must agree to rounding)")
 	fs.Float64Var(&cf.relTol, "rel-tol", 0, "relative numerical tolerance per bin")
-	fs.Float64Var(&cf.edgeTol, "edge-tol", 1e-9, "relative tolerance on bin edges")
+	fs.Float64Var(&cf.edgeTol, "edge-tol", d.EdgeTol, "relative tolerance on bin edges")
 	fs.StringVar(&cf.format, "format", "text", "output `FORMAT`: text, json, markdown, junit or html")
 	stringVar(fs, &cf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout")
 	fs.StringVar(&cf.name, "name", "", "observable `NAME` in the report (default: the first file's name)")
+	fs.StringVar(&cf.labelA, "label-a", "", "`LABEL` of the first table in the report (default: its file name)")
+	fs.StringVar(&cf.labelB, "label-b", "", "`LABEL` of the second table in the report (default: its file name)")
 	fs.StringVar(&cf.tables, "tables", "blinded", "campaign mode: compare the `blinded` or the `unblinded` tables")
 }
 
-// check validates the flag values before any file is touched.
+// check validates the flag values before any file is touched, and builds
+// the comparison options.
 func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	cf.set = map[string]bool{}
 	fs.Visit(func(f *flag.Flag) { cf.set[f.Name] = true })
 	if !slices.Contains(report.Formats, cf.format) {
 		return usageErr("--format %q is not one of %s", cf.format, strings.Join(report.Formats, ", "))
 	}
-	if math.IsNaN(cf.correlation) || cf.correlation < -1 || cf.correlation > 1 {
-		return usageErr("--correlation %v is outside [-1, 1]", cf.correlation)
+	if cf.tables != "blinded" && cf.tables != "unblinded" {
+		return usageErr("--tables must be blinded or unblinded, got %q", cf.tables)
 	}
-	if cf.subset && cf.set["correlation"] {
-		return withHint(usageErr("--subset and --correlation cannot be used together"),
-			"--subset already accounts for the shared events of a subset analysis")
+	o := compare.Defaults()
+	o.MaxPull, o.AbsTol, o.RelTol, o.EdgeTol, o.Subset = cf.maxPull, cf.absTol, cf.relTol, cf.edgeTol, cf.subset
+	o.Alpha = cf.alpha
+	if cf.set["min-p"] {
+		if cf.set["alpha"] && cf.minP != cf.alpha {
+			return usageErr("--min-p (deprecated) and --alpha disagree")
+		}
+		o.Alpha = cf.minP
+	}
+	if cf.set["correlation"] {
+		r, err := compare.ParseRho(cf.correlation)
+		if err != nil {
+			return usageErr("--correlation: %v", err)
+		}
+		o.Default = r
+	}
+	for _, kv := range cf.errCorr {
+		name, val, ok := strings.Cut(kv, "=")
+		name = strings.TrimSpace(name)
+		if !ok || name == "" {
+			return withHint(usageErr("--error-correlation wants NAME=RHO, got %q", kv), "--error-correlation stat=0.6 or --error-correlation stat=rho_stat (a per-bin column)")
+		}
+		r, err := compare.ParseRho(val)
+		if err != nil {
+			return usageErr("--error-correlation %s: %v", name, err)
+		}
+		if _, dup := o.Correlations[name]; dup {
+			return usageErr("--error-correlation names source %q twice", name)
+		}
+		if o.Correlations == nil {
+			o.Correlations = map[string]compare.Rho{}
+		}
+		o.Correlations[name] = r
+	}
+	if cf.overlapCount != "" || cf.overlapCommon != "" {
+		o.Overlap = compare.Overlap{Count: cf.overlapCount, Common: cf.overlapCommon, Source: cf.overlapSource}
 	}
 	if (cf.covA == "") != (cf.covB == "") {
 		return usageErr("--cov-a and --cov-b go together")
@@ -91,29 +154,25 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if cf.covAB != "" && cf.covA == "" {
 		return usageErr("--cov-ab needs --cov-a and --cov-b")
 	}
-	if cf.covA != "" && (cf.subset || cf.set["correlation"]) {
-		return withHint(usageErr("covariance matrices cannot be combined with --subset or --correlation"),
-			"give the correlation between the chains as --cov-ab")
+	if cf.covA != "" && (cf.subset || len(cf.errCorr) > 0 || o.Overlap.Enabled() || o.Default.Column != "") {
+		return withHint(usageErr("covariance matrices cannot be combined with --subset, per-source or per-bin correlations"),
+			"give the correlation between the chains as --cov-ab, or as one number with --correlation")
 	}
-	for _, v := range []struct {
-		name string
-		v    float64
-	}{{"max-pull", cf.maxPull}, {"abs-tol", cf.absTol}, {"rel-tol", cf.relTol}, {"edge-tol", cf.edgeTol}} {
-		if math.IsNaN(v.v) || v.v < 0 || math.IsInf(v.v, 0) {
-			return usageErr("--%s must be a finite number >= 0, got %v", v.name, v.v)
-		}
+	if cf.covAB != "" && cf.set["correlation"] {
+		return withHint(usageErr("--cov-ab and --correlation cannot be used together"), "the cross-covariance already says how the chains are correlated")
 	}
-	if math.IsNaN(cf.minP) || cf.minP < 0 || cf.minP >= 1 {
-		return usageErr("--min-p must be in [0, 1), got %v", cf.minP)
+	if cf.subset && (cf.set["correlation"] || len(cf.errCorr) > 0 || o.Overlap.Enabled()) {
+		return withHint(usageErr("--subset and --correlation cannot be used together"),
+			"--subset already accounts for the shared events of a subset analysis")
 	}
-	if cf.tables != "blinded" && cf.tables != "unblinded" {
-		return usageErr("--tables must be blinded or unblinded, got %q", cf.tables)
+	if err := o.Validate(); err != nil {
+		return usageErr("%v", err)
 	}
+	if o.Alpha == 0 && o.MaxPull == 0 && o.AbsTol == 0 && o.RelTol == 0 {
+		return withHint(usageErr("%v", compare.ErrNoCriterion), "keep the default --alpha 0.01, or declare --max-pull, --abs-tol or --rel-tol")
+	}
+	cf.opt = o
 	return nil
-}
-
-func (cf *compareFlags) limits() compare.Limits {
-	return compare.Limits{MaxPull: cf.maxPull, MinP: cf.minP, AbsTol: cf.absTol, RelTol: cf.relTol}
 }
 
 func (cf *compareFlags) edgeNames() (string, string, error) {
@@ -138,6 +197,11 @@ func runCompare(e *env, args []string) error {
 	}
 	switch {
 	case len(pos) == 1 && isDir(pos[0]):
+		for _, f := range tableOnly {
+			if cf.set[f] {
+				return withHint(usageErr("--%s does not apply to a campaign", f), "the protocol in campaign.toml declares columns and tolerances")
+			}
+		}
 		return compareCampaign(e, pos[0], &cf)
 	case len(pos) != 2:
 		return withHint(usageErr("compare wants two tables (or one campaign folder), got %d arguments", len(pos)),
@@ -152,8 +216,7 @@ func runCompare(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	opt := table.CSVOptions{Lo: lo, Hi: hi}
-	ts, err := input.ReadAll(opt, pos[0], pos[1])
+	ts, err := input.ReadAll(table.CSVOptions{Lo: lo, Hi: hi}, pos[0], pos[1])
 	if err != nil {
 		return inputErr(err)
 	}
@@ -163,27 +226,22 @@ func runCompare(e *env, args []string) error {
 			e.warnf("%s", n)
 		}
 	}
-	var sels []compare.Selection
-	if len(cf.values) == 0 {
-		sels = table.DefaultSelections(a)
-	}
-	for _, v := range cf.values {
-		if len(cf.errs) > 0 {
-			sels = append(sels, compare.Selection{Value: v, Errors: cf.errs})
-		} else {
-			sels = append(sels, table.ConventionalSelection(a, v, len(cf.values) == 1))
-		}
-	}
-	copt := compare.Options{Correlation: cf.correlation, Subset: cf.subset, Limits: cf.limits()}
+	sels := cf.selections(a, b)
+	copt := cf.opt
 	if cf.covA != "" {
 		if err := readCovariances(&copt, &cf, a.Len()); err != nil {
 			return err
 		}
 	}
-	results, err := compare.Tables(a, b, sels, cf.edgeTol, copt)
+	results, err := compare.Columns(a, b, sels, copt)
 	if err != nil {
-		if errors.Is(err, compare.ErrNotPositiveDefinite) {
+		switch {
+		case errors.Is(err, compare.ErrNotPositiveDefinite):
 			return withHint(inputErr(err), "check that --cov-a, --cov-b and --cov-ab describe the same bins and that the cross-covariance is not too large")
+		case errors.Is(err, compare.ErrNoUncertainty):
+			return withHint(inputErr(err), "name the uncertainty columns with --error COL (repeatable), or judge by --abs-tol/--rel-tol")
+		case errors.Is(err, compare.ErrNoCriterion):
+			return withHint(inputErr(err), "keep the default --alpha 0.01, or declare --max-pull, --abs-tol or --rel-tol")
 		}
 		return inputErr(err)
 	}
@@ -193,7 +251,16 @@ func runCompare(e *env, args []string) error {
 	}
 	s := &compare.Summary{Title: fmt.Sprintf("%s vs %s", a.Source, b.Source)}
 	for _, r := range results {
+		if cf.labelA != "" {
+			r.LabelA = cf.labelA
+		}
+		if cf.labelB != "" {
+			r.LabelB = cf.labelB
+		}
 		s.Entries = append(s.Entries, compare.Entry{Observable: name, Result: r})
+	}
+	if cf.labelA != "" || cf.labelB != "" {
+		s.Title = fmt.Sprintf("%s vs %s", results[0].LabelA, results[0].LabelB)
 	}
 	if err := emit(e, s, cf.format, cf.output); err != nil {
 		return err
@@ -202,6 +269,37 @@ func runCompare(e *env, args []string) error {
 		return silentFail
 	}
 	return nil
+}
+
+// selections are the compared columns: --value (or every column that is
+// not an edge, an uncertainty or a correlation or event-count column, and
+// that both tables have), each
+// with the --error sources or the conventionally named ones.
+func (cf *compareFlags) selections(a, b *table.Table) []compare.Selection {
+	if len(cf.values) == 0 && len(cf.errs) == 0 {
+		return table.DefaultSelections(a)
+	}
+	values := cf.values
+	if len(values) == 0 {
+		aux := append(slices.Clone([]string(cf.errs)), cf.opt.Overlap.Count, cf.opt.Overlap.Common, cf.opt.Default.Column)
+		for _, r := range cf.opt.Correlations {
+			aux = append(aux, r.Column)
+		}
+		for _, s := range table.DefaultSelections(a) {
+			if !slices.Contains(aux, s.Value) && b.Column(s.Value) != nil {
+				values = append(values, s.Value)
+			}
+		}
+	}
+	var sels []compare.Selection
+	for _, v := range values {
+		if len(cf.errs) > 0 {
+			sels = append(sels, compare.Selection{Value: v, Errors: cf.errs})
+		} else {
+			sels = append(sels, table.ConventionalSelection(a, v, len(values) == 1))
+		}
+	}
+	return sels
 }
 
 func readCovariances(opt *compare.Options, cf *compareFlags, n int) error {

@@ -6,9 +6,7 @@ import (
 	"slices"
 	"strings"
 
-	"tandem/blind"
 	"tandem/blind/demo"
-	"tandem/report"
 )
 
 const demoHelp = `Usage:
@@ -39,23 +37,17 @@ func runDemo(e *env, args []string) error {
 	err = demo.Build(dir, demo.Options{
 		StopBefore: stop,
 		Log:        func(f string, a ...any) { fmt.Fprintf(e.stdout, f+"\n", a...) },
-		Reports: func(c *blind.Campaign, stage string) error {
-			if stage == "unblind" {
-				return finalReports(c)
-			}
-			s, _, err := c.Compare(blind.Blinded)
-			if err != nil {
-				return err
-			}
-			addNotes(c, s)
-			return writeReports(c, s, report.Formats, "campaign")
-		},
 	})
 	if err != nil {
 		return campaignErr(err)
 	}
 	rep := filepath.Join(dir, "reports")
-	fmt.Fprintf(e.stdout, "\nreports: %s (campaign.* blinded, final.* after unblinding; open final.html in a browser)\n", rep)
-	fmt.Fprintf(e.stdout, "try: tandem status %s, tandem verify %s\n", dir, dir)
+	switch i := slices.Index(demo.Steps, stop); {
+	case stop == "" || i > slices.Index(demo.Steps, "unblind"):
+		fmt.Fprintf(e.stdout, "\nreports: %s (campaign.* blinded, final.* after unblinding; open final.html in a browser)\n", rep)
+	case i > slices.Index(demo.Steps, "compare"):
+		fmt.Fprintf(e.stdout, "\nreports: %s (campaign.* on blinded tables; open campaign.html in a browser)\n", rep)
+	}
+	fmt.Fprintf(e.stdout, "try: tandem status %s, tandem verify %s (build the tool with: go build -o tandem ./cmd/tandem)\n", dir, dir)
 	return nil
 }

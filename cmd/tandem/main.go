@@ -17,7 +17,11 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"path/filepath"
+	"reflect"
+	"regexp"
 	"runtime/debug"
+	"slices"
 	"strings"
 
 	"tandem/compare/table"
@@ -29,7 +33,10 @@ var Version = ""
 const usage = `tandem: blind cross-checks between independent analysis chains
 
 Usage:
-    tandem compare A.csv B.csv [flags]     compare two tables, no campaign needed
+    tandem compare A B [flags]             compare two tables (CSV, TSV, JSON,
+                                           TOML or a ROOT object), no campaign
+    tandem sync A B --key COL[,COL…]       match two event tables event by event
+                                           and compare their cut flows
     tandem demo DIR [--stop-before STEP]   build a complete demo campaign in DIR
 
   Campaign steps (DIR holds campaign.toml, the ledger and the tables):
@@ -37,14 +44,17 @@ Usage:
     tandem seal DIR --team T --observable O [FILE]   (stdin when no FILE)
     tandem blind DIR --identity FILE
     tandem compare DIR [--tables blinded|unblinded]
-    tandem status DIR
+    tandem status DIR [--format json]
     tandem sign DIR --as PARTY [--key FILE] [--yes] [--accept-disagreement REASON]
     tandem unblind DIR --identity FILE
     tandem verify DIR
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
 
+    tandem --version                       the version and the revision built
+
 Run "tandem COMMAND -h" for the flags of one command. Flags may come before
-or after the positional arguments.
+or after the positional arguments. With -o FILE and no --format, the file's
+extension (.txt .json .md .xml .html) chooses the format.
 
 Exit status:
     0  success, or the chains agree
@@ -112,6 +122,7 @@ type command struct {
 func commands() []command {
 	return []command{
 		{"compare", runCompare},
+		{"sync", runSync},
 		{"init", runInit},
 		{"seal", runSeal},
 		{"blind", runBlind},
@@ -182,38 +193,140 @@ func finish(e *env, err error) int {
 	return code
 }
 
+// version is the link-time Version, else the module version and the VCS
+// revision the binary was built from (go build in a git checkout records
+// it), e.g. "tandem (devel) 7c97d86e2b1f 2026-12-01T18:55:02Z modified".
 func version() string {
-	if Version != "" {
-		return Version
+	v := Version
+	bi, ok := debug.ReadBuildInfo()
+	if v == "" && ok {
+		v = bi.Main.Version
 	}
-	if bi, ok := debug.ReadBuildInfo(); ok && bi.Main.Version != "" {
-		return bi.Main.Version
+	if v == "" {
+		v = "(devel)"
 	}
-	return "(devel)"
+	out := "tandem " + v
+	if ok {
+		var rev, at, dirty string
+		for _, s := range bi.Settings {
+			switch s.Key {
+			case "vcs.revision":
+				rev = s.Value
+			case "vcs.time":
+				at = s.Value
+			case "vcs.modified":
+				if s.Value == "true" {
+					dirty = "modified"
+				}
+			}
+		}
+		if len(rev) > 12 {
+			rev = rev[:12]
+		}
+		if rev != "" && strings.Contains(v, rev) {
+			rev, at = "", "" // a pseudo-version already names them
+		}
+		for _, x := range []string{rev, at, dirty} {
+			if x != "" {
+				out += " " + x
+			}
+		}
+		out += " (" + bi.GoVersion + ")"
+	}
+	return out
 }
 
-// newFlags makes a flag set whose errors and help go to stderr.
+// newFlags makes a flag set whose help (-h) goes to stderr: the command's
+// help text, then its flags written as they are typed (--name, short
+// forms as -o), each flag once with its aliases.
 func newFlags(e *env, name, help string) *flag.FlagSet {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	fs.SetOutput(e.stderr)
 	fs.Usage = func() {
 		fmt.Fprint(e.stderr, help)
-		fmt.Fprintln(e.stderr, "\nFlags:")
-		fs.PrintDefaults()
+		n := 0
+		fs.VisitAll(func(*flag.Flag) { n++ })
+		if n > 0 {
+			fmt.Fprintln(e.stderr, "\nFlags:")
+			printFlags(e.stderr, fs)
+		}
 	}
 	return fs
 }
 
+// dashed writes a flag name as users type it: -o for one letter, --name
+// otherwise.
+func dashed(name string) string {
+	if len(name) == 1 {
+		return "-" + name
+	}
+	return "--" + name
+}
+
+// printFlags lists the flags of fs, aliases of one variable together
+// ("-o, --output FILE"), ordered by their long name.
+func printFlags(w io.Writer, fs *flag.FlagSet) {
+	type entry struct {
+		names []string
+		f     *flag.Flag
+	}
+	var entries []*entry
+	byTarget := map[uintptr]*entry{}
+	fs.VisitAll(func(f *flag.Flag) {
+		var key uintptr
+		if v := reflect.ValueOf(f.Value); v.Kind() == reflect.Pointer {
+			key = v.Pointer()
+		}
+		if en := byTarget[key]; key != 0 && en != nil && en.f.Usage == f.Usage {
+			en.names = append(en.names, f.Name)
+			return
+		}
+		en := &entry{names: []string{f.Name}, f: f}
+		entries = append(entries, en)
+		if key != 0 {
+			byTarget[key] = en
+		}
+	})
+	long := func(en *entry) string {
+		return slices.MaxFunc(en.names, func(a, b string) int { return len(a) - len(b) })
+	}
+	slices.SortFunc(entries, func(a, b *entry) int { return strings.Compare(long(a), long(b)) })
+	for _, en := range entries {
+		slices.SortFunc(en.names, func(a, b string) int { return len(a) - len(b) })
+		names := make([]string, len(en.names))
+		for i, n := range en.names {
+			names[i] = dashed(n)
+		}
+		arg, help := flag.UnquoteUsage(en.f)
+		line := "  " + strings.Join(names, ", ")
+		if arg != "" {
+			line += " " + arg
+		}
+		if d := en.f.DefValue; d != "" && d != "0" && d != "false" {
+			help += fmt.Sprintf(" (default %s)", d)
+		}
+		fmt.Fprintf(w, "%s\n        %s\n", line, help)
+	}
+}
+
 // parse parses flags that may stand before or after positional arguments,
-// and returns the positional arguments. "--" ends flag parsing.
+// and returns the positional arguments. "--" ends flag parsing. A bad flag
+// is one error line naming it as typed (with a suggestion for a typo); -h
+// prints the command's help.
 func parse(fs *flag.FlagSet, args []string) ([]string, error) {
+	out, usage := fs.Output(), fs.Usage
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() {}
+	defer func() { fs.SetOutput(out); fs.Usage = usage }()
 	var pos []string
 	for {
 		if err := fs.Parse(args); err != nil {
 			if errors.Is(err, flag.ErrHelp) {
+				fs.SetOutput(out)
+				usage()
 				return nil, err
 			}
-			return nil, &exitError{code: 2, err: errors.New(strings.TrimSpace(err.Error()))}
+			return nil, &exitError{code: 2, err: flagError(fs, err)}
 		}
 		rest := fs.Args()
 		if len(rest) == 0 {
@@ -227,6 +340,129 @@ func parse(fs *flag.FlagSet, args []string) ([]string, error) {
 		pos = append(pos, rest[0])
 		args = rest[1:]
 	}
+}
+
+// flagErrors match the messages of the standard flag package.
+var flagErrors = []struct {
+	re   *regexp.Regexp
+	text func(m []string) string
+}{
+	{regexp.MustCompile(`^flag provided but not defined: -(.*)$`), nil},
+	{regexp.MustCompile(`^invalid value ("[^"]*") for flag -([^:]*): (.*)$`), func(m []string) string {
+		return fmt.Sprintf("%s: invalid value %s: %s", dashed(m[2]), m[1], m[3])
+	}},
+	{regexp.MustCompile(`^invalid boolean value ("[^"]*") for -([^:]*): (.*)$`), func(m []string) string {
+		return fmt.Sprintf("%s: invalid boolean value %s (it takes no value, or --%s=true|false)", dashed(m[2]), m[1], m[2])
+	}},
+	{regexp.MustCompile(`^flag needs an argument: -(.*)$`), func(m []string) string {
+		return fmt.Sprintf("%s needs a value", dashed(m[1]))
+	}},
+}
+
+// flagError rewrites an error of the flag package with the flag as typed;
+// an unknown flag gets the closest known one as a suggestion.
+func flagError(fs *flag.FlagSet, err error) error {
+	msg := strings.TrimSpace(err.Error())
+	for _, fe := range flagErrors {
+		m := fe.re.FindStringSubmatch(msg)
+		if m == nil {
+			continue
+		}
+		if fe.text != nil {
+			return errors.New(fe.text(m))
+		}
+		name := m[1]
+		if i := strings.IndexByte(name, '='); i >= 0 {
+			name = name[:i]
+		}
+		out := fmt.Sprintf("unknown flag %s", dashed(name))
+		if s := suggestFlag(fs, name); s != "" {
+			out += fmt.Sprintf(" (did you mean %s?)", dashed(s))
+		}
+		return errors.New(out)
+	}
+	return errors.New(msg)
+}
+
+// suggestFlag returns the defined flag closest to name: one that starts
+// with it, or one within an edit distance of 1 (2 for names of five or more
+// letters), counting a swap of neighbours as one edit; "" if none is.
+func suggestFlag(fs *flag.FlagSet, name string) string {
+	best, bestD := "", 1<<30
+	limit := 1
+	if len(name) >= 5 {
+		limit = 2
+	}
+	fs.VisitAll(func(f *flag.Flag) {
+		d := editDistance(name, f.Name)
+		if len(name) >= 3 && strings.HasPrefix(f.Name, name) {
+			d = min(d, 1)
+		}
+		if d <= limit && (d < bestD || d == bestD && len(f.Name) > len(best)) {
+			best, bestD = f.Name, d
+		}
+	})
+	return best
+}
+
+// editDistance is the optimal-string-alignment distance between a and b:
+// insertions, deletions, substitutions and swaps of adjacent letters.
+func editDistance(a, b string) int {
+	x, y := []rune(a), []rune(b)
+	d := make([][]int, len(x)+1)
+	for i := range d {
+		d[i] = make([]int, len(y)+1)
+		d[i][0] = i
+	}
+	for j := range d[0] {
+		d[0][j] = j
+	}
+	for i := 1; i <= len(x); i++ {
+		for j := 1; j <= len(y); j++ {
+			cost := 1
+			if x[i-1] == y[j-1] {
+				cost = 0
+			}
+			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+cost)
+			if i > 1 && j > 1 && x[i-1] == y[j-2] && x[i-2] == y[j-1] {
+				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
+			}
+		}
+	}
+	return d[len(x)][len(y)]
+}
+
+// argCount writes "1 argument", "2 arguments" (for messages such as "got 1
+// argument").
+func argCount(n int) string {
+	if n == 1 {
+		return "1 argument"
+	}
+	return fmt.Sprintf("%d arguments", n)
+}
+
+// nameList writes names for people: "kestrel, marmot" (never Go's
+// "[kestrel marmot]").
+func nameList(names []string) string { return strings.Join(names, ", ") }
+
+// formatFromPath picks the report format from an output file's extension
+// (.json, .md, .html, .xml, .txt; .junit.xml too), for -o FILE without
+// --format. ok is false for any other extension.
+func formatFromPath(path string) (format string, ok bool) {
+	ext := strings.ToLower(filepath.Ext(path))
+	switch ext {
+	case ".json":
+		return "json", true
+	case ".md", ".markdown":
+		return "markdown", true
+	case ".html", ".htm":
+		return "html", true
+	case ".xml":
+		return "junit", true
+	case ".txt", ".text":
+		return "text", true
+	}
+	return "", false
 }
 
 // listFlag is a repeatable string flag.

@@ -19,6 +19,14 @@ func TestMain(m *testing.M) {
 // TestScripts runs the workflow scripts in testdata/script: each is a
 // txtar archive of commands and the files they use.
 func TestScripts(t *testing.T) {
+	// go-hep's ROOT test files, read where the module cache keeps them
+	// (go-hep.org/x/hep v0.36.0); scripts name them as
+	// $GOHEP_TESTDATA/groot/testdata/… and guard them with [gohep].
+	out, err := exec.Command("go", "list", "-m", "-f", "{{.Dir}}", "go-hep.org/x/hep").Output()
+	gohep := strings.TrimSpace(string(out))
+	if (err != nil || gohep == "") && os.Getenv("TANDEM_REQUIRE_TOOLS") != "" {
+		t.Fatalf("go-hep's test files are not in the module cache (go list -m go-hep.org/x/hep: %v)", err)
+	}
 	testscript.Run(t, testscript.Params{
 		Dir: "testdata/script",
 		Setup: func(env *testscript.Env) error {
@@ -29,6 +37,7 @@ func TestScripts(t *testing.T) {
 				return err
 			}
 			env.Setenv("TESTDATA", abs)
+			env.Setenv("GOHEP_TESTDATA", gohep)
 			return nil
 		},
 		Cmds: map[string]func(ts *testscript.TestScript, neg bool, args []string){
@@ -53,6 +62,9 @@ func TestScripts(t *testing.T) {
 		},
 		Condition: func(cond string) (bool, error) {
 			// [tool:NAME] holds when NAME is on PATH.
+			if cond == "gohep" { // go-hep's module, with its test files, is at hand
+				return gohep != "", nil
+			}
 			if len(cond) > 5 && cond[:5] == "tool:" {
 				_, err := exec.LookPath(cond[5:])
 				return err == nil, nil

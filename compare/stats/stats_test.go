@@ -17,6 +17,8 @@ type scipyValues struct {
 	Chi2SF  [][3]float64 `json:"chi2_sf"`
 	NormCDF [][2]float64 `json:"norm_cdf"`
 	KStwoSF [][3]float64 `json:"kstwo_sf"`
+	KSLarge [][3]float64 `json:"kstwo_sf_large"`
+	KSDMTW  [][3]float64 `json:"kstwo_sf_dmtw"`
 	RunsCDF [][4]float64 `json:"runs_cdf"`
 }
 
@@ -55,6 +57,52 @@ func TestKSAgainstScipy(t *testing.T) {
 	}
 }
 
+// TestKSLargeAgainstScipy: around and beyond n = 10⁴, where KSPValue
+// changes method, and up to n = 10⁶, the p-value is within 1e-6 absolute of
+// scipy.stats.kstwo.sf and of scipy's exact Durbin-matrix routine
+// (testdata/reference/make_scipy_reference.py records the version).
+func TestKSLargeAgainstScipy(t *testing.T) {
+	ref := loadScipy(t)
+	if len(ref.KSLarge) < 100 || len(ref.KSDMTW) == 0 {
+		t.Fatal("reference file lacks the large-n KS values")
+	}
+	worst, maxN, worstN, worstD := 0.0, 0, 0, 0.0
+	for _, set := range [][][3]float64{ref.KSLarge, ref.KSDMTW} {
+		for _, c := range set {
+			n, d, want := int(c[0]), c[1], c[2]
+			got := KSPValue(n, d)
+			if diff := math.Abs(got - want); diff > 1e-6 {
+				t.Errorf("KSPValue(%d, %v) = %.10g, scipy %s: %.10g (off by %.2g)", n, d, got, ref.SciPy, want, diff)
+			} else if diff > worst {
+				worst, worstN, worstD = diff, n, d
+			}
+			maxN = max(maxN, n)
+		}
+	}
+	if maxN < 100000 {
+		t.Errorf("reference goes only to n = %d", maxN)
+	}
+	t.Logf("largest difference from scipy %s: %.2g at n = %d, d = %.4g", ref.SciPy, worst, worstN, worstD)
+}
+
+// TestPelzGoodExact: above KSExactLimit the Pelz–Good expansion is within
+// 1e-7 of the exact matrix method, so the p-value is continuous across the
+// switch (the earlier asymptotic form jumped by 1e-3 at its switch, n =
+// 10⁴), across the central region (λ = √n·d from
+// 0.3 to 1.9; beyond, the matrix method itself takes an upper-tail
+// shortcut).
+func TestPelzGoodExact(t *testing.T) {
+	for _, n := range []int{KSExactLimit + 1, 2 * KSExactLimit, 5 * KSExactLimit} {
+		for c := 0.3; c < 1.9; c += 0.1 {
+			d := c / math.Sqrt(float64(n))
+			ex, pg := 1-mtwCDF(n, d), 1-pelzGood(float64(n), d)
+			if math.Abs(ex-pg) > 1e-7 {
+				t.Errorf("n = %d, λ = %.1f: Pelz–Good %.10g, exact %.10g", n, c, pg, ex)
+			}
+		}
+	}
+}
+
 // TestKSCriticalValues checks published two-sided critical values of the
 // one-sample KS statistic: L. H. Miller, "Table of percentage points of
 // Kolmogorov statistics", JASA 51 (1956) 111–121, as reprinted in common
@@ -81,18 +129,17 @@ func TestKSCriticalValues(t *testing.T) {
 	}
 }
 
-// TestKSLargeN checks the Stephens-corrected asymptotic branch against the
-// exact branch where both apply, and the 5% point of the limiting
-// Kolmogorov distribution, λ = 1.3581 (standard tables; from memory).
+// TestKSLargeN checks the Pelz–Good branch against the exact matrix method
+// at n = 10⁴, and, at very large n, the 5% point of the limiting Kolmogorov
+// distribution, λ = 1.3581 (standard tables; from memory).
 func TestKSLargeN(t *testing.T) {
-	exact := KSPValue(KSExactLimit, 0.012)
-	sn := math.Sqrt(KSExactLimit)
-	approx := kolmogorovQ((sn + 0.12 + 0.11/sn) * 0.012)
-	if !close(approx, exact, 2e-3, 0) {
-		t.Errorf("asymptotic %v vs exact %v at n=%d", approx, exact, KSExactLimit)
+	exact := 1 - mtwCDF(10000, 0.012)
+	if approx := KSPValue(10000, 0.012); !close(approx, exact, 0, 1e-8) {
+		t.Errorf("Pelz–Good %v vs exact %v at n = 10⁴", approx, exact)
 	}
-	if got := kolmogorovQ(1.3581); !close(got, 0.05, 1e-3, 0) {
-		t.Errorf("Q_KS(1.3581) = %v, want 0.05", got)
+	const n = 1e12
+	if got := KSPValue(n, 1.3581/math.Sqrt(n)); !close(got, 0.05, 1e-3, 0) {
+		t.Errorf("p at λ = 1.3581, n = 10¹² is %v, want 0.05", got)
 	}
 }
 

@@ -1,14 +1,12 @@
 package table
 
 import (
-	"bufio"
 	"bytes"
 	"io"
 	"os"
-	"strconv"
+	"runtime"
 	"strings"
 	"unicode/utf8"
-	"unsafe"
 )
 
 // DefaultLo and DefaultHi are the bin-edge column names used when a caller
@@ -18,40 +16,40 @@ const (
 	DefaultHi = "hi"
 )
 
-// CSVOptions controls [ParseCSV].
+// CSVOptions controls the readers of text tables (and the JSON and TOML
+// layouts, which use Lo, Hi and Limits).
 type CSVOptions struct {
 	// Lo and Hi name the bin-edge columns; empty means DefaultLo/DefaultHi.
 	Lo, Hi string
 	// Delim is the field separator; 0 means detect from the header line
-	// (a tab when the header has a tab and no comma, else a comma).
+	// (a tab when the header has a tab and no comma, else a comma). A
+	// header separated by semicolons is refused unless Delim is ';'.
 	Delim byte
+	// Limits bound the input; zero fields are the defaults.
+	Limits Limits
 }
 
 // ReadFile reads a CSV or TSV table from a file. A ".tsv" suffix selects tab
 // separation; otherwise it is detected from the header. The file is read
-// in a stream, so memory is that of the table, not of the text.
+// in a stream, in blocks of whole lines parsed on all cores, so memory is
+// that of the table, not of the text.
 func ReadFile(path string, opt CSVOptions) (*Table, error) {
-	f, err := os.Open(path)
+	lim := opt.Limits.resolved()
+	f, size, err := openFile(path, lim)
 	if err != nil {
-		return nil, Errorf(path, 0, 0, "%v", unwrapPath(err))
+		return nil, err
 	}
 	defer f.Close()
-	size := 0
-	if fi, err := f.Stat(); err == nil {
-		if fi.IsDir() {
-			return nil, Errorf(path, 0, 0, "is a directory, not a table")
-		}
-		size = int(fi.Size())
-	}
 	if opt.Delim == 0 && strings.HasSuffix(strings.ToLower(path), ".tsv") {
 		opt.Delim = '\t'
 	}
-	return parse(path, f, size, opt)
+	return parse(path, f, size, opt, blockBytes)
 }
 
-// ReadCSV reads a table from r; name is used in messages.
+// ReadCSV reads a table from r; name is used in messages ([StdinName] for
+// the standard input).
 func ReadCSV(name string, r io.Reader, opt CSVOptions) (*Table, error) {
-	return parse(name, r, 0, opt)
+	return parse(name, r, 0, opt, blockBytes)
 }
 
 func unwrapPath(err error) error {
@@ -63,20 +61,28 @@ func unwrapPath(err error) error {
 
 // ParseCSV parses delimited text: one header row of column names, then one
 // row per bin. Lines starting with '#' (after optional blanks) and blank lines
-// are ignored. Fields are trimmed of spaces; quoting is not supported, since
-// every field is a column name or a number.
+// are ignored, and a UTF-8 byte order mark at the start is skipped. Fields
+// are trimmed of spaces; quoting is not supported, since every field is a
+// column name or a number. Numbers follow the strict grammar of
+// [parseNumber]: plain decimals with an optional exponent.
 //
 // Refused, with the line and column of the problem: empty or header-only
 // input, NUL bytes or invalid UTF-8, rows with a different number of fields,
-// numbers that do not parse or are NaN or infinite, duplicate or missing
-// columns, and the bin-structure problems of [Table.Validate].
+// numbers that do not parse, are NaN or infinite, overflow or fall below the
+// smallest normal float64, duplicate or missing columns, a header separated
+// by semicolons, input beyond the [Limits], and the bin-structure problems
+// of [Table.Validate].
 func ParseCSV(name string, data []byte, opt CSVOptions) (*Table, error) {
-	return parse(name, bytes.NewReader(data), len(data), opt)
+	return parse(name, bytes.NewReader(data), int64(len(data)), opt, blockBytes)
 }
 
-// parse reads a table line by line from r; size, when known, is the input
-// length in bytes and sizes the columns once.
-func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
+// parse reads a table from r in blocks of about target bytes; size, when
+// known, is the input length in bytes and sizes the columns.
+func parse(name string, r io.Reader, size int64, opt CSVOptions, target int) (*Table, error) {
+	lim := opt.Limits.resolved()
+	if size > lim.MaxBytes {
+		return nil, tooLarge(name, lim)
+	}
 	if opt.Lo == "" {
 		opt.Lo = DefaultLo
 	}
@@ -84,142 +90,17 @@ func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 		opt.Hi = DefaultHi
 	}
 	t := &Table{Source: name, LoName: opt.Lo, HiName: opt.Hi}
-	var (
-		header  []string
-		colIdx  []int // field index -> destination column (-1 lo, -2 hi, >=0 Cols)
-		lineNo  int
-		delim   = opt.Delim
-		fields  [][]byte
-		fstarts []int
-		sized   bool
-		long    []byte // a line longer than the read buffer
-	)
-	br := bufio.NewReaderSize(r, 1<<20)
-	for {
-		line, err := br.ReadSlice('\n')
-		if err == bufio.ErrBufferFull {
-			long = append(long[:0], line...)
-			for err == bufio.ErrBufferFull {
-				line, err = br.ReadSlice('\n')
-				long = append(long, line...)
-			}
-			line = long
-		}
-		if err != nil && err != io.EOF {
-			return nil, Errorf(name, lineNo+1, 0, "%v", err)
-		}
-		if len(line) == 0 && err == io.EOF {
-			break
-		}
-		lineNo++
-		if n := len(line); n > 0 && line[n-1] == '\n' {
-			line = line[:n-1]
-		}
-		if n := len(line); n > 0 && line[n-1] == '\r' {
-			line = line[:n-1]
-		}
-		lead := 0
-		for lead < len(line) && (line[lead] == ' ' || line[lead] == '\t') {
-			lead++
-		}
-		// Rows the fast path parses whole are ASCII digits and
-		// delimiters; every other line is checked for binary data and
-		// UTF-8 before it is used (or skipped).
-		plain := header != nil && lead == 0 && len(line) > 0
-		if !plain {
-			if err := checkText(name, lineNo, line); err != nil {
-				return nil, err
-			}
-		}
-		if lead == len(line) || line[lead] == '#' {
-			continue
-		}
-		if header == nil {
-			if delim == 0 {
-				delim = ','
-				if bytes.IndexByte(line, '\t') >= 0 && bytes.IndexByte(line, ',') < 0 {
-					delim = '\t'
-				}
-			}
-			fields, fstarts = split(line, delim, fields[:0], fstarts[:0])
-			var err error
-			header, colIdx, err = t.setHeader(name, lineNo, fields, fstarts)
-			if err != nil {
-				return nil, err
-			}
-			continue
-		}
-		if !sized && size > 0 {
-			// Size the columns once from the first row's length: the
-			// rows left fit in the bytes left, with a margin.
-			sized = true
-			rows := size/(len(line)+1)*5/4 + 16
-			t.Lo, t.Hi = make([]float64, 0, rows), make([]float64, 0, rows)
-			for k := range t.Cols {
-				t.Cols[k] = make([]float64, 0, rows)
-			}
-		}
-		// One pass over the row: find each field, trim it, parse it.
-		k, pos := 0, 0
-		for {
-			if k >= len(header) {
-				return nil, raggedErr(name, lineNo, line, delim, len(header))
-			}
-			// Most fields are plain decimals with no blanks: parse them
-			// in the same pass that finds the delimiter.
-			if v, end, ok := plainField(line, pos, delim); ok {
-				t.put(colIdx[k], v)
-				k++
-				if end >= len(line) {
-					break
-				}
-				pos = end + 1
-				continue
-			}
-			if plain {
-				if err := checkText(name, lineNo, line); err != nil {
-					return nil, err
-				}
-				plain = false
-			}
-			start, stop, end := nextField(line, pos, delim)
-			v, msg := parseNumber(line[start:stop])
-			if msg != "" {
-				if n := 1 + bytes.Count(line, []byte{delim}); n != len(header) {
-					return nil, raggedErr(name, lineNo, line, delim, len(header))
-				}
-				return nil, Errorf(name, lineNo, start+1, "column %q: %s", header[k], msg)
-			}
-			t.put(colIdx[k], v)
-			k++
-			if end >= len(line) {
-				break
-			}
-			pos = end + 1
-		}
-		if k != len(header) {
-			return nil, raggedErr(name, lineNo, line, delim, len(header))
-		}
-		// Line numbers are kept only once rows stop being consecutive.
-		switch row := len(t.Lo) - 1; {
-		case row == 0:
-			t.FirstLine = lineNo
-		case t.Lines == nil && lineNo != t.FirstLine+row:
-			t.Lines = make([]int32, row, row+16)
-			for j := range t.Lines {
-				t.Lines[j] = int32(t.FirstLine + j)
-			}
-			t.FirstLine = 0
-			fallthrough
-		case t.Lines != nil:
-			t.Lines = append(t.Lines, int32(lineNo))
-		}
-		if err == io.EOF {
-			break
-		}
+	s := newSplitter(r, lim, target, 2*runtime.GOMAXPROCS(0)+2)
+	s.size = size
+	p, first, err := t.header(name, s, opt)
+	if err != nil {
+		return nil, err
 	}
-	if header == nil {
-		return nil, Errorf(name, 0, 0, "empty table: no header row")
+	s.ncols = 2 + len(t.Names)
+	first.cols = make([][]float64, s.ncols)
+	m := &merger{t: t, lineOff: first.first - 1, size: size}
+	if err := parseBlocks(name, s, p, first, m); err != nil {
+		return nil, err
 	}
 	if len(t.Lo) == 0 {
 		return nil, Errorf(name, 0, 0, "table has a header but no bins")
@@ -229,6 +110,214 @@ func parse(name string, r io.Reader, size int, opt CSVOptions) (*Table, error) {
 		return nil, err
 	}
 	return t, nil
+}
+
+// header reads lines from the splitter until the header row, and returns
+// the row parser it defines with the data left in the current block.
+func (t *Table) header(name string, s *splitter, opt CSVOptions) (*rowParser, *block, error) {
+	lineNo := 0
+	for {
+		b, err := s.next()
+		if err != nil {
+			err.File = name
+			if err.Line > 0 {
+				err.Line += lineNo
+			}
+			return nil, nil, err
+		}
+		if b == nil {
+			if s.total == 0 {
+				return nil, nil, emptyInput(name)
+			}
+			return nil, nil, Errorf(name, 0, 0, "empty table: no header row")
+		}
+		data := b.data
+		for len(data) > 0 {
+			var line []byte
+			line, data = cutLine(data)
+			lineNo++
+			if lineNo == 1 {
+				line = bytes.TrimPrefix(line, []byte("\xef\xbb\xbf"))
+			}
+			if len(line) > s.lim.MaxLineBytes {
+				return nil, nil, lineTooLong(name, lineNo, line, s.lim)
+			}
+			if err := checkText(name, lineNo, line); err != nil {
+				return nil, nil, err
+			}
+			lead := 0
+			for lead < len(line) && (line[lead] == ' ' || line[lead] == '\t') {
+				lead++
+			}
+			if lead == len(line) || line[lead] == '#' {
+				continue
+			}
+			p, err := t.headerRow(name, lineNo, line, opt.Delim, s.lim)
+			if err != nil {
+				return nil, nil, err
+			}
+			b.data = data
+			b.first = lineNo + 1
+			return p, b, nil
+		}
+		s.release(b)
+	}
+}
+
+// headerRow sets the columns of t from the header line.
+func (t *Table) headerRow(name string, lineNo int, line []byte, delim byte, lim Limits) (*rowParser, error) {
+	if delim == 0 {
+		delim = ','
+		hasComma, hasTab := bytes.IndexByte(line, ',') >= 0, bytes.IndexByte(line, '\t') >= 0
+		if hasTab && !hasComma {
+			delim = '\t'
+		}
+		if i := bytes.IndexByte(line, ';'); i >= 0 && !hasTab && !hasComma {
+			e := Errorf(name, lineNo, i+1, "the header is separated by semicolons; tandem reads comma- or tab-separated tables with decimal points")
+			e.Hint = "write the table with commas, or name the separator with --delimiter ';' (numbers need decimal points)"
+			return nil, e
+		}
+	}
+	if n := 1 + bytes.Count(line, []byte{delim}); n > lim.MaxColumns {
+		e := Errorf(name, lineNo, 0, "the header has %d columns, more than the limit of %d", n, lim.MaxColumns)
+		e.Hint = "raise the limit with " + flagMaxColumns
+		return nil, e
+	}
+	fields, starts := split(line, delim, nil, nil)
+	header, idx, err := t.setHeader(name, lineNo, fields, starts)
+	if err != nil {
+		return nil, err
+	}
+	p := &rowParser{name: name, header: header, delim: delim, maxLine: lim.MaxLineBytes, dest: make([]int, len(idx))}
+	for k, d := range idx {
+		switch d {
+		case -1:
+			p.dest[k] = 0
+		case -2:
+			p.dest[k] = 1
+		default:
+			p.dest[k] = 2 + d
+		}
+	}
+	return p, nil
+}
+
+// cutLine returns the first line of data without its line ending, and the
+// rest.
+func cutLine(data []byte) (line, rest []byte) {
+	if i := bytes.IndexByte(data, '\n'); i >= 0 {
+		line, rest = data[:i], data[i+1:]
+	} else {
+		line = data
+	}
+	if n := len(line); n > 0 && line[n-1] == '\r' {
+		line = line[:n-1]
+	}
+	return line, rest
+}
+
+// rowParser parses the data rows of one table; it is shared, read-only,
+// by the goroutines that parse blocks.
+type rowParser struct {
+	name    string
+	header  []string
+	dest    []int // field → destination: 0 lower edges, 1 upper edges, 2+k Cols[k]
+	delim   byte
+	maxLine int
+}
+
+// rows parses the lines of b into its columns. Line numbers in b are
+// relative: line 1 is the first line of the block.
+func (p *rowParser) rows(b *block) {
+	data := b.data
+	rel := 0
+	for len(data) > 0 {
+		var line []byte
+		line, data = cutLine(data)
+		rel++
+		if len(line) > p.maxLine {
+			b.err = lineTooLong(p.name, rel, line, Limits{MaxLineBytes: p.maxLine})
+			return
+		}
+		lead := 0
+		for lead < len(line) && (line[lead] == ' ' || line[lead] == '\t') {
+			lead++
+		}
+		// Rows the fast path parses whole are ASCII digits, signs,
+		// points, exponents and delimiters; every other line is checked
+		// for binary data and UTF-8 before it is used (or skipped).
+		plain := lead == 0 && len(line) > 0
+		if !plain {
+			if err := checkText(p.name, rel, line); err != nil {
+				b.err = err
+				return
+			}
+		}
+		if lead == len(line) || line[lead] == '#' {
+			continue
+		}
+		if err := p.row(b, rel, line, plain); err != nil {
+			b.err = err
+			return
+		}
+		switch {
+		case b.nrows == 0:
+			b.firstRow = rel
+		case b.lines == nil && rel != b.firstRow+b.nrows:
+			b.lines = b.lines[:0]
+			for j := 0; j < b.nrows; j++ {
+				b.lines = append(b.lines, int32(b.firstRow+j))
+			}
+			fallthrough
+		case b.lines != nil:
+			b.lines = append(b.lines, int32(rel))
+		}
+		b.nrows++
+	}
+	b.nlines = rel
+}
+
+// row parses one data line: one pass finds each field, trims it and
+// parses it.
+func (p *rowParser) row(b *block, rel int, line []byte, plain bool) *Error {
+	k, pos, delim := 0, 0, p.delim
+	for {
+		if k >= len(p.header) {
+			return raggedErr(p.name, rel, line, delim, len(p.header))
+		}
+		// Most fields are numbers with no blanks: parse them in the
+		// same pass that finds the delimiter.
+		v, end, ok := scanField(line, pos, delim)
+		if !ok {
+			if plain {
+				if err := checkText(p.name, rel, line); err != nil {
+					return err
+				}
+				plain = false
+			}
+			var start, stop int
+			var msg string
+			start, stop, end = nextField(line, pos, delim)
+			v, msg = parseNumber(line[start:stop])
+			if msg != "" {
+				if n := 1 + bytes.Count(line, []byte{delim}); n != len(p.header) {
+					return raggedErr(p.name, rel, line, delim, len(p.header))
+				}
+				return Errorf(p.name, rel, start+1, "column %q: %s", p.header[k], msg)
+			}
+		}
+		d := p.dest[k]
+		b.cols[d] = append(b.cols[d], v)
+		k++
+		if end >= len(line) {
+			break
+		}
+		pos = end + 1
+	}
+	if k != len(p.header) {
+		return raggedErr(p.name, rel, line, delim, len(p.header))
+	}
+	return nil
 }
 
 func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int) ([]string, []int, error) {
@@ -266,7 +355,7 @@ func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int
 
 // checkText refuses a line with a NUL byte or invalid UTF-8, pointing at
 // the first bad byte.
-func checkText(name string, lineNo int, line []byte) error {
+func checkText(name string, lineNo int, line []byte) *Error {
 	if i := bytes.IndexByte(line, 0); i >= 0 {
 		return Errorf(name, lineNo, i+1, "binary data (NUL byte); expected a CSV or TSV table")
 	}
@@ -318,7 +407,7 @@ func (t *Table) put(d int, v float64) {
 
 // raggedErr reports a row with the wrong number of fields, pointing at the
 // first extra field or at the end of a short row.
-func raggedErr(name string, lineNo int, line []byte, delim byte, want int) error {
+func raggedErr(name string, lineNo int, line []byte, delim byte, want int) *Error {
 	fields, starts := split(line, delim, nil, nil)
 	col := len(line) + 1
 	if len(fields) > want {
@@ -340,127 +429,4 @@ func split(line []byte, delim byte, fields [][]byte, starts []int) ([][]byte, []
 		}
 		pos = end + 1
 	}
-}
-
-// pow10 holds the exactly representable powers of ten.
-var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
-	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
-
-// fastDecimal parses plain decimals such as "-1234.5678" exactly: when the
-// digits form an integer m < 2⁵³ and there are at most 22 fraction digits,
-// m / 10^k is correctly rounded because both operands are exact (Clinger's
-// fast path, W. D. Clinger, "How to read floating point numbers
-// accurately", PLDI 1990). Anything else goes to strconv.ParseFloat.
-func fastDecimal(f []byte) (float64, bool) {
-	i, neg := 0, false
-	switch f[0] {
-	case '-':
-		neg, i = true, 1
-	case '+':
-		i = 1
-	}
-	var m uint64
-	digits, frac, dot := 0, 0, false
-	for ; i < len(f); i++ {
-		c := f[i]
-		switch {
-		case c >= '0' && c <= '9':
-			if digits >= 16 {
-				return 0, false
-			}
-			m = m*10 + uint64(c-'0')
-			if m != 0 {
-				digits++
-			}
-			if dot {
-				frac++
-			}
-		case c == '.' && !dot:
-			dot = true
-		default:
-			return 0, false
-		}
-	}
-	if (digits == 0 && m == 0 && !hasDigit(f)) || m >= 1<<53 || frac > 22 {
-		return 0, false
-	}
-	v := float64(m) / pow10[frac]
-	if neg {
-		v = -v
-	}
-	return v, true
-}
-
-// plainField parses the field at line[pos:] when it is a plain decimal
-// ("-12.375") ending at the delimiter or the end of the line, under the same
-// exactness conditions as fastDecimal. It returns the value and the
-// position of the delimiter (or len(line)).
-func plainField(line []byte, pos int, delim byte) (float64, int, bool) {
-	i, neg := pos, false
-	if i < len(line) && line[i] == '-' {
-		neg, i = true, i+1
-	}
-	// Integer digits, then fraction digits, in two tight loops; m may
-	// overflow on more than 19 digits, which the count check then rejects.
-	var m uint64
-	start := i
-	for i < len(line) && line[i]-'0' <= 9 {
-		m = m*10 + uint64(line[i]-'0')
-		i++
-	}
-	digits, frac := i-start, 0
-	if i < len(line) && line[i] == '.' {
-		i++
-		fstart := i
-		for i < len(line) && line[i]-'0' <= 9 {
-			m = m*10 + uint64(line[i]-'0')
-			i++
-		}
-		frac = i - fstart
-		digits += frac
-	}
-	if i < len(line) && line[i] != delim {
-		return 0, 0, false
-	}
-	if digits == 0 || digits > 19 || m >= 1<<53 || frac > 22 {
-		return 0, 0, false
-	}
-	v := float64(m) / pow10[frac]
-	if neg {
-		v = -v
-	}
-	return v, i, true
-}
-
-func hasDigit(f []byte) bool {
-	for _, c := range f {
-		if c >= '0' && c <= '9' {
-			return true
-		}
-	}
-	return false
-}
-
-// parseNumber parses a finite float64, returning a reason on failure.
-func parseNumber(f []byte) (float64, string) {
-	if len(f) == 0 {
-		return 0, "empty field, expected a number"
-	}
-	if v, ok := fastDecimal(f); ok {
-		return v, ""
-	}
-	// The string shares f's memory only for the duration of ParseFloat,
-	// which does not retain it; this avoids one allocation per field.
-	s := unsafe.String(&f[0], len(f))
-	v, err := strconv.ParseFloat(s, 64)
-	if err != nil {
-		if ne, ok := err.(*strconv.NumError); ok && ne.Err == strconv.ErrRange {
-			return 0, "number " + strconv.Quote(string(f)) + " is out of range"
-		}
-		return 0, "cannot parse " + strconv.Quote(string(f)) + " as a number"
-	}
-	if !finite(v) {
-		return 0, "NaN and infinities are not allowed (" + string(f) + ")"
-	}
-	return v, ""
 }

@@ -3,7 +3,6 @@ package table
 import (
 	"bytes"
 	"math"
-	"os"
 	"unicode/utf8"
 )
 
@@ -12,17 +11,30 @@ import (
 // lines are ignored. It must be n×n, and with symmetric (a covariance of
 // one chain) also symmetric within a relative 1e-9; see [ParseMatrix].
 func ReadMatrixFile(path string, n int, symmetric bool) ([][]float64, error) {
-	data, err := os.ReadFile(path)
+	return ReadMatrixFileLimits(path, n, symmetric, Limits{})
+}
+
+// ReadMatrixFileLimits is [ReadMatrixFile] within the given limits on the
+// file size and line length (zero fields are the defaults).
+func ReadMatrixFileLimits(path string, n int, symmetric bool, lim Limits) ([][]float64, error) {
+	data, err := ReadFileBounded(path, lim)
 	if err != nil {
-		return nil, Errorf(path, 0, 0, "%v", unwrapPath(err))
+		return nil, err
 	}
-	return ParseMatrix(path, data, n, symmetric)
+	return parseMatrix(path, data, n, symmetric, lim.resolved())
 }
 
 // ParseMatrix parses an n×n matrix; symmetric requires M = Mᵀ (covariance
 // matrices of one chain), otherwise any square matrix is accepted
 // (cross-covariances). n <= 0 accepts any size.
 func ParseMatrix(name string, data []byte, n int, symmetric bool) ([][]float64, error) {
+	return parseMatrix(name, data, n, symmetric, DefaultLimits)
+}
+
+func parseMatrix(name string, data []byte, n int, symmetric bool, lim Limits) ([][]float64, error) {
+	if int64(len(data)) > lim.MaxBytes {
+		return nil, tooLarge(name, lim)
+	}
 	if i := bytes.IndexByte(data, 0); i >= 0 {
 		return nil, Errorf(name, 1+bytes.Count(data[:i], []byte{'\n'}), 0, "binary data (NUL byte); expected a CSV matrix")
 	}
@@ -43,6 +55,9 @@ func ParseMatrix(name string, data []byte, n int, symmetric bool) ([][]float64, 
 			line, rest = rest, nil
 		}
 		line = bytes.TrimSuffix(line, []byte{'\r'})
+		if len(line) > lim.MaxLineBytes {
+			return nil, lineTooLong(name, lineNo, nil, lim)
+		}
 		if !utf8.Valid(line) {
 			return nil, Errorf(name, lineNo, 0, "invalid UTF-8; expected a text matrix")
 		}

@@ -47,16 +47,28 @@ var (
 	bareErrNames = []string{"err", "stat", "syst", "sys"}
 )
 
-func isErrorName(t *Table, name string) bool {
+func isErrorName(has func(string) bool, name string) bool {
 	if slices.Contains(bareErrNames, name) || name == "err_minus" || name == "err_plus" {
 		return true
 	}
-	for _, suf := range append(slices.Clone(symSuffixes), minusSuffix, plusSuffix) {
-		if base, ok := strings.CutSuffix(name, suf); ok && base != "" && t.Column(base) != nil {
+	for _, suf := range allSuffixes {
+		if base, ok := strings.CutSuffix(name, suf); ok && base != "" && has(base) {
 			return true
 		}
 	}
 	return false
+}
+
+var allSuffixes = append(slices.Clone(symSuffixes), minusSuffix, plusSuffix)
+
+// columnSet returns a constant-time test for the columns of t, so that
+// choosing the selections costs time linear in the number of columns.
+func columnSet(t *Table) func(string) bool {
+	set := make(map[string]bool, len(t.Names))
+	for _, n := range t.Names {
+		set[n] = true
+	}
+	return func(n string) bool { return set[n] }
 }
 
 // DefaultSelections chooses the comparisons when the user names no columns:
@@ -65,15 +77,16 @@ func isErrorName(t *Table, name string) bool {
 // single value column, bare "err", "stat", "syst" and "sys" columns (and
 // "err_minus"/"err_plus") belong to it.
 func DefaultSelections(t *Table) []Selection {
+	has := columnSet(t)
 	var values []string
 	for _, n := range t.Names {
-		if !isErrorName(t, n) {
+		if !isErrorName(has, n) {
 			values = append(values, n)
 		}
 	}
 	sels := make([]Selection, 0, len(values))
 	for _, v := range values {
-		sels = append(sels, ConventionalSelection(t, v, len(values) == 1))
+		sels = append(sels, conventional(has, v, len(values) == 1))
 	}
 	return sels
 }
@@ -82,22 +95,26 @@ func DefaultSelections(t *Table) []Selection {
 // naming convention for its uncertainties; bare names are included when
 // bare is true.
 func ConventionalSelection(t *Table, v string, bare bool) Selection {
+	return conventional(columnSet(t), v, bare)
+}
+
+func conventional(has func(string) bool, v string, bare bool) Selection {
 	s := Selection{Value: v}
 	for _, suf := range symSuffixes {
-		if t.Column(v+suf) != nil {
+		if has(v + suf) {
 			s.Errors = append(s.Errors, v+suf)
 		}
 	}
-	if t.Column(v+minusSuffix) != nil && t.Column(v+plusSuffix) != nil {
+	if has(v+minusSuffix) && has(v+plusSuffix) {
 		s.Minus, s.Plus = []string{v + minusSuffix}, []string{v + plusSuffix}
 	}
 	if bare {
 		for _, n := range bareErrNames {
-			if t.Column(n) != nil {
+			if has(n) {
 				s.Errors = append(s.Errors, n)
 			}
 		}
-		if t.Column("err_minus") != nil && t.Column("err_plus") != nil {
+		if has("err_minus") && has("err_plus") {
 			s.Minus, s.Plus = append(s.Minus, "err_minus"), append(s.Plus, "err_plus")
 		}
 	}

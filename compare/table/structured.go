@@ -4,7 +4,10 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"io"
+	"regexp"
+	"slices"
 	"strings"
 
 	"github.com/BurntSushi/toml"
@@ -28,13 +31,74 @@ import (
 const StructuredFormat = "tandem/v1 table"
 
 type structured struct {
-	Format  string      `json:"format" toml:"format"`
-	Columns []string    `json:"columns" toml:"columns"`
-	Rows    [][]float64 `json:"rows" toml:"rows"`
+	Format  string        `json:"format" toml:"format"`
+	Columns []string      `json:"columns" toml:"columns"`
+	Rows    [][]strictNum `json:"rows" toml:"rows"`
+}
+
+// strictNum is a JSON number read under the strict grammar of
+// [parseNumber], which also refuses JSON strings and null in its place.
+type strictNum float64
+
+// numError is a refused number with its text, for locating it.
+type numError struct {
+	raw []byte
+	msg string
+}
+
+func (e *numError) Error() string { return e.msg }
+
+func (n *strictNum) UnmarshalJSON(b []byte) error {
+	if len(b) > 0 && (b[0] == '"' || b[0] == 'n' || b[0] == 't' || b[0] == 'f') {
+		return &numError{raw: slices.Clone(b), msg: "not a number: " + string(b)}
+	}
+	v, msg := parseNumber(b)
+	if msg != "" {
+		return &numError{raw: slices.Clone(b), msg: msg}
+	}
+	*n = strictNum(v)
+	return nil
+}
+
+// UnmarshalTOML takes the value the TOML decoder parsed; the text of TOML
+// numbers is checked separately by [checkTOMLNumbers].
+func (n *strictNum) UnmarshalTOML(v any) error {
+	switch x := v.(type) {
+	case float64:
+		*n = strictNum(x)
+	case int64:
+		*n = strictNum(x)
+	default:
+		return fmt.Errorf("not a number: %v", v)
+	}
+	return nil
+}
+
+// ReadJSONFile reads a table in tandem's JSON layout from a file of at most
+// opt.Limits.MaxBytes.
+func ReadJSONFile(path string, opt CSVOptions) (*Table, error) {
+	data, err := ReadFileBounded(path, opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	return ParseJSON(path, data, opt)
+}
+
+// ReadTOMLFile reads a table in tandem's TOML layout from a file of at most
+// opt.Limits.MaxBytes.
+func ReadTOMLFile(path string, opt CSVOptions) (*Table, error) {
+	data, err := ReadFileBounded(path, opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	return ParseTOML(path, data, opt)
 }
 
 // ParseJSON reads a table in tandem's JSON layout.
 func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
+	if lim := opt.Limits.resolved(); int64(len(data)) > lim.MaxBytes {
+		return nil, tooLarge(name, lim)
+	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	var s structured
@@ -42,7 +106,15 @@ func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
 		line, col := 0, 0
 		var se *json.SyntaxError
 		var te *json.UnmarshalTypeError
+		var ne *numError
 		switch {
+		case errors.As(err, &ne):
+			if i := bytes.Index(data, []byte("rows")); i >= 0 {
+				if j := bytes.Index(data[i:], ne.raw); j >= 0 {
+					line, col = position(data, int64(i+j))
+				}
+			}
+			return nil, Errorf(name, line, col, "%s", ne.msg)
 		case errors.As(err, &se):
 			line, col = position(data, se.Offset)
 		case errors.As(err, &te):
@@ -50,6 +122,9 @@ func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
 		case errors.Is(err, io.ErrUnexpectedEOF):
 			line, col = position(data, int64(len(data)))
 		case errors.Is(err, io.EOF):
+			if len(data) == 0 && isStdin(name) {
+				return nil, emptyInput(name)
+			}
 			return nil, Errorf(name, 0, 0, "empty table")
 		}
 		return nil, Errorf(name, line, col, "%s", strings.TrimPrefix(err.Error(), "json: "))
@@ -62,6 +137,9 @@ func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
 
 // ParseTOML reads a table in tandem's TOML layout.
 func ParseTOML(name string, data []byte, opt CSVOptions) (*Table, error) {
+	if lim := opt.Limits.resolved(); int64(len(data)) > lim.MaxBytes {
+		return nil, tooLarge(name, lim)
+	}
 	var s structured
 	md, err := toml.NewDecoder(bytes.NewReader(data)).Decode(&s)
 	if err != nil {
@@ -74,7 +152,54 @@ func ParseTOML(name string, data []byte, opt CSVOptions) (*Table, error) {
 	if und := md.Undecoded(); len(und) > 0 {
 		return nil, Errorf(name, 0, 0, "unknown key %q", und[0].String())
 	}
+	if err := checkTOMLNumbers(name, data); err != nil {
+		return nil, err
+	}
 	return s.table(name, opt, func(row int) int { return rowLine(data, row) })
+}
+
+// tomlRowsKey finds the line that assigns the rows array.
+var tomlRowsKey = regexp.MustCompile(`(?m)^[ \t]*("rows"|'rows'|rows)[ \t]*=`)
+
+// checkTOMLNumbers applies the strict number grammar to the text of the
+// rows array of a TOML table that has decoded: TOML itself allows
+// hexadecimal, "1_000", inf and nan, and its decoder rounds 1e-999 to 0.
+func checkTOMLNumbers(name string, data []byte) error {
+	loc := tomlRowsKey.FindIndex(data)
+	if loc == nil {
+		return nil
+	}
+	depth := 0
+	for i := loc[1]; i < len(data); {
+		switch c := data[i]; c {
+		case ' ', '\t', '\r', '\n', ',':
+			i++
+		case '[':
+			depth++
+			i++
+		case ']':
+			depth--
+			i++
+			if depth <= 0 {
+				return nil
+			}
+		case '#':
+			for i < len(data) && data[i] != '\n' {
+				i++
+			}
+		default:
+			j := i
+			for j < len(data) && !bytes.ContainsRune([]byte(" \t\r\n,[]#"), rune(data[j])) {
+				j++
+			}
+			if _, msg := parseNumber(data[i:j]); msg != "" {
+				line, col := position(data, int64(i))
+				return Errorf(name, line, col, "%s", msg)
+			}
+			i = j
+		}
+	}
+	return nil
 }
 
 func (s *structured) table(name string, opt CSVOptions, line func(int) int) (*Table, error) {
@@ -104,11 +229,17 @@ func (s *structured) table(name string, opt CSVOptions, line func(int) int) (*Ta
 		err.(*Error).Col = 0
 		return nil, err
 	}
+	if lim := opt.Limits.resolved(); len(s.Columns) > lim.MaxColumns {
+		e := Errorf(name, 0, 0, "the table has %d columns, more than the limit of %d", len(s.Columns), lim.MaxColumns)
+		e.Hint = "raise the limit with " + flagMaxColumns
+		return nil, e
+	}
 	for r, row := range s.Rows {
 		if len(row) != len(s.Columns) {
 			return nil, Errorf(name, line(r), 0, "row %d has %d numbers, columns has %d", r+1, len(row), len(s.Columns))
 		}
-		for k, v := range row {
+		for k, n := range row {
+			v := float64(n)
 			if !finite(v) {
 				return nil, Errorf(name, line(r), 0, "row %d, column %q: NaN and infinities are not allowed", r+1, s.Columns[k])
 			}

@@ -70,11 +70,13 @@ func (t *Table) line(i int) int {
 }
 
 // Error is a problem with an input, located as precisely as is known.
-// Line and Col are 1-based; zero means unknown.
+// Line and Col are 1-based; zero means unknown. Hint, when set, suggests a
+// fix (such as the flag that raises a limit); it is not part of Error().
 type Error struct {
 	File      string
 	Line, Col int
 	Msg       string
+	Hint      string
 }
 
 func (e *Error) Error() string {

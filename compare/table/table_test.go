@@ -1,11 +1,10 @@
 package table
 
 import (
+	"bytes"
 	"fmt"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
-	"strconv"
 	"strings"
 	"testing"
 
@@ -129,6 +128,17 @@ func FuzzParseCSV(f *testing.F) {
 	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		tb, err := ParseCSV("fuzz.csv", data, CSVOptions{})
+		// Blocks of single lines, parsed in parallel, give the same
+		// table or the same error as one block.
+		small, serr := parse("fuzz.csv", bytes.NewReader(data), int64(len(data)), CSVOptions{}, 1)
+		if fmt.Sprint(err) != fmt.Sprint(serr) {
+			t.Fatalf("one block: %v\nline blocks: %v", err, serr)
+		}
+		if err == nil {
+			if diff := cmp.Diff(tb, small); diff != "" {
+				t.Fatalf("line blocks differ (-one +lines)\n%s", diff)
+			}
+		}
 		if err != nil {
 			if _, ok := err.(*Error); !ok {
 				t.Fatalf("error of type %T: %v", err, err)
@@ -183,80 +193,6 @@ func ExampleParseCSV() {
 	}
 	fmt.Println(tb.Len(), tb.Names, DefaultSelections(tb))
 	// Output: 2 [rate rate_stat] [{rate [rate_stat] [] []}]
-}
-
-// FuzzFastDecimal: whenever the fast path accepts a field, it gives the
-// same float64 as strconv.ParseFloat (the correctly rounded reference).
-func FuzzFastDecimal(f *testing.F) {
-	for _, s := range []string{"0", "-0.5", "123.456", "9007199254740991", "0.1", "1234567890.123456", "+7.25", "00012.5000", "."} {
-		f.Add(s)
-	}
-	f.Fuzz(func(t *testing.T, s string) {
-		if s == "" {
-			return
-		}
-		v, ok := fastDecimal([]byte(s))
-		if !ok {
-			return
-		}
-		want, err := strconv.ParseFloat(s, 64)
-		if err != nil || v != want {
-			t.Fatalf("fastDecimal(%q) = %v, strconv %v (%v)", s, v, want, err)
-		}
-	})
-}
-
-// FuzzPlainField: the one-pass field parser agrees with strconv whenever it
-// accepts a field.
-func FuzzPlainField(f *testing.F) {
-	for _, s := range []string{"0", "-0.5", "123.456", "9007199254740991", ".5", "1.", "00012.5000", "-", "1e5"} {
-		f.Add(s)
-	}
-	f.Fuzz(func(t *testing.T, s string) {
-		if strings.ContainsRune(s, ',') {
-			return
-		}
-		v, end, ok := plainField([]byte(s+",x"), 0, ',')
-		if !ok {
-			return
-		}
-		want, err := strconv.ParseFloat(s, 64)
-		if err != nil || v != want || end != len(s) {
-			t.Fatalf("plainField(%q) = %v at %d, strconv %v (%v)", s, v, end, want, err)
-		}
-	})
-}
-
-// TestPlainFieldRandom exercises the eight-digit path on many fixed-seed
-// decimals of every length, each followed by more fields so that eight
-// bytes are always available, against strconv.ParseFloat.
-func TestPlainFieldRandom(t *testing.T) {
-	rng := rand.New(rand.NewPCG(11, 11))
-	for n := 0; n < 200000; n++ {
-		var b strings.Builder
-		if rng.IntN(4) == 0 {
-			b.WriteByte('-')
-		}
-		for k := rng.IntN(12); k >= 0; k-- {
-			b.WriteByte(byte('0' + rng.IntN(10)))
-		}
-		if rng.IntN(3) > 0 {
-			b.WriteByte('.')
-			for k := rng.IntN(14); k > 0; k-- {
-				b.WriteByte(byte('0' + rng.IntN(10)))
-			}
-		}
-		s := b.String()
-		line := []byte(s + ",12345678,9")
-		v, end, ok := plainField(line, 0, ',')
-		want, err := strconv.ParseFloat(s, 64)
-		if !ok {
-			continue
-		}
-		if err != nil || v != want || end != len(s) {
-			t.Fatalf("plainField(%q) = %v at %d, strconv %v (%v)", s, v, end, want, err)
-		}
-	}
 }
 
 // TestLineNumbers: bins keep their source lines whether or not comments

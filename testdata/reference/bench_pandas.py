@@ -1,8 +1,10 @@
 #!/usr/bin/python3
-"""The pandas + scipy equivalent of `tandem compare A B --value y --error
+"""The pandas + scipy equivalent of `tandem compare A B --value rate --error
 stat --error syst`, for the side-by-side timing in the README.
 
     /usr/bin/python3 testdata/reference/bench_pandas.py A.csv B.csv
+
+The value column is "rate" (or "y" in tables that have no "rate" column).
 
 It reads both tables, checks the bin edges, and computes the same
 statistics: pulls, chi-square and its p-value, pull mean and width, the KS
@@ -27,7 +29,8 @@ for t in (a, b):
         sys.exit("bad table")
 sa = np.sqrt(a["stat"] ** 2 + a["syst"] ** 2)
 sb = np.sqrt(b["stat"] ** 2 + b["syst"] ** 2)
-d = (a["y"] - b["y"]).to_numpy()
+value = "rate" if "rate" in a.columns else "y"
+d = (a[value] - b[value]).to_numpy()
 pulls = d / np.sqrt(sa**2 + sb**2).to_numpy()
 n = len(pulls)
 chi2 = float(np.sum(pulls**2))

@@ -7,7 +7,11 @@ output). Regenerate with:
     /usr/bin/python3 testdata/reference/make_scipy_reference.py > testdata/reference/scipy_values.json
 
 Nothing here imports or mirrors tandem's code: chi-square and normal tails,
-the exact Kolmogorov-Smirnov distribution (scipy.stats.kstwo) and the
+the exact Kolmogorov-Smirnov distribution (scipy.stats.kstwo, which follows
+Simard and L'Ecuyer 2011; "kstwo_sf_large" samples it around and beyond
+n = 10^4, and "kstwo_sf_dmtw" evaluates scipy's own exact Durbin-matrix
+routine there, scipy.stats._ksstats._kolmogn_DMTW, as a second reference
+for the region where kstwo itself switches to an expansion) and the
 one-sample KS test come from scipy; the exact runs-test probabilities are
 summed from binomial coefficients with Python's exact integer arithmetic
 (math.comb), following Swed and Eisenhart (1943).
@@ -21,6 +25,7 @@ import numpy as np
 import pandas as pd
 import scipy
 from scipy import stats
+from scipy.stats import _ksstats
 
 
 def runs_cdf(n1, n2, r):
@@ -38,12 +43,12 @@ def runs_cdf(n1, n2, r):
 
 
 def comparison(path_a, path_b, value, errors, rho):
+    """Each error column is a source k with its own correlation rho[k]:
+    sigma_d^2 = sum_k (sa_k^2 + sb_k^2 - 2 rho_k sa_k sb_k)."""
     a = pd.read_csv(path_a, comment="#")
     b = pd.read_csv(path_b, comment="#")
-    sa = np.sqrt(sum(a[e] ** 2 for e in errors))
-    sb = np.sqrt(sum(b[e] ** 2 for e in errors))
     d = a[value] - b[value]
-    sd = np.sqrt(sa**2 + sb**2 - 2 * rho * sa * sb)
+    sd = np.sqrt(sum(a[e] ** 2 + b[e] ** 2 - 2 * rho[e] * a[e] * b[e] for e in errors))
     pulls = (d / sd).to_numpy()
     n = len(pulls)
     chi2 = float(np.sum(pulls**2))
@@ -55,7 +60,7 @@ def comparison(path_a, path_b, value, errors, rho):
     pmax = float(np.max(np.abs(pulls)))
     q = 2 * stats.norm.sf(pmax)
     return {
-        "a": path_a, "b": path_b, "value": value, "errors": errors, "correlation": rho,
+        "a": path_a, "b": path_b, "value": value, "errors": errors, "correlations": rho,
         "pulls": pulls.tolist(),
         "chi2": chi2, "ndf": n, "p_value": float(stats.chi2.sf(chi2, n)),
         "pull_mean": float(np.mean(pulls)), "pull_width": float(np.std(pulls, ddof=1)),
@@ -77,11 +82,19 @@ out = {
     "kstwo_sf": [[n, d, float(stats.kstwo.sf(d, n))] for n, d in
                  [(1, 0.7), (2, 0.5), (5, 0.3), (10, 0.2), (10, 0.40925), (20, 0.15), (50, 0.12), (100, 0.05),
                   (100, 0.136), (500, 0.04), (1000, 0.03), (2000, 0.02), (5000, 0.015), (10000, 0.01), (10000, 0.005)]],
+    "kstwo_sf_large": [[n, c / math.sqrt(n), float(stats.kstwo.sf(c / math.sqrt(n), n))]
+                       for n in [2000, 5000, 9999, 10000, 10001, 10002, 15000, 20000, 50000, 99999, 100000, 100001, 200000, 1000000]
+                       # scipy's one-sided Smirnov tail (n d^2 >= 2.2) takes seconds at n > 10^5
+                       for c in [0.3, 0.45, 0.6, 0.7, 0.8, 0.9, 1.0, 1.1, 1.2, 1.36, 1.45]
+                       + ([1.5, 1.63, 1.8, 2.0, 2.5] if n <= 100001 else [])],
+    "kstwo_sf_dmtw": [[n, c / math.sqrt(n), float(1 - _ksstats._kolmogn_DMTW(n, c / math.sqrt(n), cdf=True))]
+                      for n in [10001, 100000] for c in [0.6, 1.3]],
     "runs_cdf": [[n1, n2, r, runs_cdf(n1, n2, r)] for n1, n2, r in
                  [(5, 5, 3), (10, 10, 6), (10, 10, 7), (12, 8, 5), (20, 20, 14), (3, 7, 2), (1, 1, 2), (30, 40, 25), (200, 180, 150)]],
     "comparisons": [
-        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], 0.0),
-        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], 0.4),
+        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], {"stat": 0.0, "syst": 0.0}),
+        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], {"stat": 0.4, "syst": 0.4}),
+        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], {"stat": 0.6, "syst": 1.0}),
     ],
 }
 json.dump(out, sys.stdout, indent=1)

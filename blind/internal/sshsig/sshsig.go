@@ -173,3 +173,22 @@ func Verify(armored, msg []byte, namespace string, want ssh.PublicKey) error {
 	}
 	return nil
 }
+
+// Flatten returns the base64 body of an armored signature on one line (the
+// form the ledger stores).
+func Flatten(armored []byte) string {
+	s := strings.TrimSpace(string(armored))
+	s = strings.TrimPrefix(s, beginArmor)
+	s = strings.TrimSuffix(s, endArmor)
+	return strings.Join(strings.Fields(s), "")
+}
+
+// Armor wraps a one-line base64 signature (as [Flatten] returns it) in the
+// armor ssh-keygen reads.
+func Armor(b64 string) []byte {
+	raw, err := base64.StdEncoding.DecodeString(b64)
+	if err != nil {
+		return []byte(beginArmor + "\n" + b64 + "\n" + endArmor + "\n")
+	}
+	return armor(raw)
+}

@@ -1,0 +1,694 @@
+package campaign_test
+
+import (
+	"bytes"
+	"errors"
+	"math"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"slices"
+	"strings"
+	"sync"
+	"testing"
+
+	"tandem/blind/campaign"
+	"tandem/blind/internal/format"
+	"tandem/blind/internal/sshsig"
+	"tandem/blind/protocol"
+	"tandem/compare/table"
+)
+
+func TestDemoVerifies(t *testing.T) {
+	dir := buildDemo(t, "")
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Fatalf("verify: %s", reportText(r))
+	}
+	c := open(t, dir)
+	cmp, err := c.Compare()
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth, err := c.CompareUnblinded()
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Pulls, χ² and p-values are the same on blinded and true tables: the
+	// per-bin factors and offsets cancel in d_i/σ_d,i. Offsets as wide as
+	// the values cost digits in d'_i = v'_a − v'_b (the demo's energy
+	// spectrum shifts values of ~40 by up to 1e5, about 3.5 digits), so the
+	// check holds to 1e-10 relative rather than to the last bits.
+	for i := range cmp.Summary.Entries {
+		b, u := cmp.Summary.Entries[i], truth.Entries[i]
+		for _, k := range [][2]float64{{b.Chi2, u.Chi2}, {b.PValue, u.PValue}, {b.KSP, u.KSP}, {b.RunsP, u.RunsP}, {b.MaxPullP, u.MaxPullP}} {
+			if math.Abs(k[0]-k[1]) > 1e-10*math.Max(math.Abs(k[1]), 1e-300) {
+				t.Errorf("%s: blinded %v vs true %v", b.Observable, k[0], k[1])
+			}
+		}
+		for j := range b.Pulls {
+			if math.Abs(b.Pulls[j]-u.Pulls[j]) > 1e-9*math.Max(1, math.Abs(u.Pulls[j])) {
+				t.Errorf("%s bin %d: pull %v vs %v", b.Observable, j, b.Pulls[j], u.Pulls[j])
+			}
+		}
+		if slices.Equal(b.A, u.A) {
+			t.Errorf("%s: blinded values equal the true values", b.Observable)
+		}
+	}
+}
+
+// TestAgeToolOpensSealedFile: Debian's age opens a sealed table with the
+// custodian identity, and the plaintext is the documented text header plus
+// CSV.
+func TestAgeToolOpensSealedFile(t *testing.T) {
+	agePath := needTool(t, "age")
+	dir := buildDemo(t, "blind")
+	out, err := exec.Command(agePath, "--decrypt", "-i", filepath.Join(dir, "keys", "custodian.key"),
+		filepath.Join(dir, "sealed", "heron", "muon_rate.v1.age")).Output()
+	if err != nil {
+		t.Fatalf("age --decrypt: %v", err)
+	}
+	if !strings.HasPrefix(string(out), "# tandem/v2 sealed table\n# campaign: kettlewell-muon-2026\n# team: heron\n# observable: muon_rate\n# version: 1\n# nonce: ") ||
+		!strings.Contains(string(out), "\nlo,hi,rate,stat,syst\n") {
+		t.Errorf("unexpected plaintext:\n%s", out)
+	}
+	if _, err := table.ParseCSV("age-out", out, table.CSVOptions{}); err != nil {
+		t.Errorf("plaintext is not a readable CSV: %v", err)
+	}
+}
+
+// TestSSHKeygenInterop: OpenSSH's ssh-keygen -Y verify accepts tandem's
+// sign-offs and every ledger entry's signature, and tandem accepts a
+// sign-off signed by ssh-keygen -Y sign.
+func TestSSHKeygenInterop(t *testing.T) {
+	kg := needTool(t, "ssh-keygen")
+	dir := buildDemo(t, "unblind")
+	allowed := filepath.Join(t.TempDir(), "allowed_signers")
+	var lines []string
+	for _, p := range []string{"heron", "otter", "ibis", "custodian"} {
+		pub, _ := os.ReadFile(filepath.Join(dir, "keys", p+".pub"))
+		lines = append(lines, p+" "+strings.TrimSpace(string(pub)))
+	}
+	os.WriteFile(allowed, []byte(strings.Join(lines, "\n")+"\n"), 0o644)
+	verify := func(ns, id, sig string, msg []byte) error {
+		cmd := exec.Command(kg, "-Y", "verify", "-n", ns, "-f", allowed, "-I", id, "-s", sig)
+		cmd.Stdin = bytes.NewReader(msg)
+		if out, err := cmd.CombinedOutput(); err != nil {
+			return errors.New(string(out))
+		}
+		return nil
+	}
+	stmt := filepath.Join(dir, "signoffs", "heron.1.statement")
+	body, _ := os.ReadFile(stmt)
+	if err := verify(campaign.SignoffNamespace, "heron", stmt+".sig", body); err != nil {
+		t.Fatalf("ssh-keygen -Y verify rejected tandem's sign-off: %v", err)
+	}
+	// Every ledger entry: the signed bytes are the line without "sig".
+	c := open(t, dir)
+	for _, e := range c.Ledger {
+		sig := filepath.Join(t.TempDir(), "entry.sig")
+		os.WriteFile(sig, sshsig.Armor(e.Sig), 0o644)
+		if err := verify(format.LedgerNamespace, e.Actor, sig, e.SignedBytes()); err != nil {
+			t.Errorf("ssh-keygen rejected ledger entry %d (%s by %s): %v", e.Seq, e.Step, e.Actor, err)
+		}
+		if err := verify(format.LedgerNamespace, e.Actor, sig, append(e.SignedBytes(), ' ')); err == nil {
+			t.Errorf("ssh-keygen accepted a changed entry %d", e.Seq)
+		}
+	}
+	// Now replace otter's signature with one made by ssh-keygen.
+	otterStmt := filepath.Join(dir, "signoffs", "otter.1.statement")
+	ours, _ := os.ReadFile(otterStmt + ".sig")
+	os.Remove(otterStmt + ".sig")
+	key := filepath.Join(dir, "keys", "otter")
+	os.Chmod(key, 0o600)
+	if out, err := exec.Command(kg, "-Y", "sign", "-n", campaign.SignoffNamespace, "-f", key, otterStmt).CombinedOutput(); err != nil {
+		t.Fatalf("ssh-keygen -Y sign: %v\n%s", err, out)
+	}
+	// Ed25519 signatures are deterministic, so ssh-keygen's SSHSIG file is
+	// byte for byte the one tandem wrote, and the campaign still verifies.
+	theirs, _ := os.ReadFile(otterStmt + ".sig")
+	if !bytes.Equal(ours, theirs) {
+		t.Errorf("ssh-keygen's signature differs from tandem's:\n%s\n%s", theirs, ours)
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Errorf("verify: %s", reportText(r))
+	}
+}
+
+// TestUnblindRefusals: each missing party, a foreign key, a replayed or
+// stale statement and a corrupted signature make unblind refuse, name the
+// problem and write no unblinded/ folder.
+func TestUnblindRefusals(t *testing.T) {
+	cases := []struct {
+		name  string
+		spoil func(t *testing.T, dir string)
+		want  string
+	}{
+		{"missing heron", func(t *testing.T, dir string) { removeSignoffEntry(t, dir, "heron") }, "missing sign-off: heron"},
+		{"missing ibis", func(t *testing.T, dir string) { removeSignoffEntry(t, dir, "ibis") }, "missing sign-off: ibis"},
+		{"corrupted signature", func(t *testing.T, dir string) {
+			p := filepath.Join(dir, "signoffs", "ibis.1.statement.sig")
+			b, _ := os.ReadFile(p)
+			b[len(b)/2] ^= 1
+			os.WriteFile(p, b, 0o644)
+		}, "ibis.1.statement.sig"},
+		{"foreign key", func(t *testing.T, dir string) {
+			// otter's statement signed with heron's key
+			p := filepath.Join(dir, "signoffs", "otter.1.statement")
+			body, _ := os.ReadFile(p)
+			sig, _ := sshsig.Sign(signer(t, dir, "heron"), campaign.SignoffNamespace, body)
+			os.WriteFile(p+".sig", sig, 0o644)
+		}, "not by the expected key"},
+		{"stale after re-seal", func(t *testing.T, dir string) {
+			c := open(t, dir)
+			tb := demoTable(t, dir, "heron", "muon_rate")
+			if _, err := c.Seal("heron", "muon_rate", tb, signer(t, dir, "heron"), "recalibrated"); err != nil {
+				t.Fatal(err)
+			}
+		}, "stale"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			dir := buildDemo(t, "unblind")
+			tc.spoil(t, dir)
+			err := unblind(t, dir)
+			if err == nil || !errors.Is(err, campaign.ErrRefused) || !strings.Contains(problems(err), tc.want) {
+				t.Errorf("got %v (%s), want refusal naming %q", err, problems(err), tc.want)
+			}
+			if _, err := os.Stat(filepath.Join(dir, "unblinded")); !os.IsNotExist(err) {
+				t.Errorf("unblinded/ exists after a refusal")
+			}
+			if _, err := os.Stat(filepath.Join(dir, campaign.RevealedFile)); !os.IsNotExist(err) {
+				t.Errorf("key revealed after a refusal")
+			}
+		})
+	}
+}
+
+// demoTable is a true table of the demo, read back from its sealed copy.
+func demoTable(t *testing.T, dir, team, obs string) *table.Table {
+	t.Helper()
+	out, err := exec.Command("age", "--decrypt", "-i", filepath.Join(dir, "keys", "custodian.key"),
+		filepath.Join(dir, "sealed", team, obs+".v1.age")).Output()
+	if err != nil {
+		// without the age tool: a table of the right shape
+		tb, _ := table.ParseCSV("x.csv", []byte("lo,hi,rate,stat,syst\n1,2,2400,49,9.6\n"), table.CSVOptions{})
+		return tb
+	}
+	tb, err := table.ParseCSV("sealed.csv", out, table.CSVOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return tb
+}
+
+// removeSignoffEntry rewrites the ledger without a party's sign-off, as if
+// it had never signed (re-signing the chain is not possible, so this
+// truncates the ledger before the first sign entry and re-signs the
+// others with the demo's keys).
+func removeSignoffEntry(t *testing.T, dir, party string) {
+	t.Helper()
+	c := open(t, dir)
+	var keep []format.Entry
+	for _, e := range c.Ledger {
+		if e.Step == "sign" && e.Actor == party {
+			os.Remove(filepath.Join(dir, filepath.FromSlash("signoffs/"+party+".1.statement")))
+			os.Remove(filepath.Join(dir, filepath.FromSlash("signoffs/"+party+".1.statement.sig")))
+			continue
+		}
+		keep = append(keep, e)
+	}
+	rewriteLedger(t, dir, keep)
+}
+
+// rewriteLedger writes entries as a fresh chain, each signed by its
+// actor's demo key (or by the key named in keyOf).
+func rewriteLedger(t *testing.T, dir string, entries []format.Entry, keyOf ...map[int]string) {
+	t.Helper()
+	out := []byte(format.LedgerHeader + "\n")
+	prev := format.Genesis
+	for i, e := range entries {
+		e.Seq, e.Prev, e.Sig = i+1, prev, ""
+		who := e.Actor
+		if len(keyOf) > 0 && keyOf[0][i+1] != "" {
+			who = keyOf[0][i+1]
+		}
+		sig, err := sshsig.Sign(signer(t, dir, who), format.LedgerNamespace, e.SignedBytes())
+		if err != nil {
+			t.Fatal(err)
+		}
+		e.Sig = sshsig.Flatten(sig)
+		line := e.Line()
+		prev = format.HashLine(line)
+		out = append(append(out, line...), '\n')
+	}
+	if err := os.WriteFile(filepath.Join(dir, campaign.LedgerFile), out, 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestForgedEntries: entries made in another party's name, by an unknown
+// party, a second init and entries out of order are refused by verify and
+// unblind even when the chain is recomputed.
+func TestForgedEntries(t *testing.T) {
+	cases := []struct {
+		name string
+		edit func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string)
+		want string
+	}{
+		{"seal signed by another team", func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string) {
+			for _, e := range es {
+				if e.Step == "seal" && e.Actor == "otter" {
+					return es, map[int]string{e.Seq: "heron"}
+				}
+			}
+			return es, nil
+		}, "not by the expected key"},
+		{"seal in another team's name", func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string) {
+			for i, e := range es {
+				if e.Step == "seal" && e.Actor == "otter" {
+					es[i].Actor = "heron"
+					break
+				}
+			}
+			return es, nil
+		}, "made by heron, not by the team"},
+		{"unknown party", func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string) {
+			e := es[len(es)-1]
+			e.Actor = "mallory"
+			e.Data = map[string]string{"party": "mallory", "verdict": "pass"}
+			e.Files = nil
+			return append(es, e), map[int]string{len(es) + 1: "heron"}
+		}, `"mallory" is not a party`},
+		{"second init", func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string) {
+			return append(es, es[0]), nil
+		}, "a second init entry"},
+		{"out of order", func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string) {
+			// move the first open entry before otter's seals
+			var open, firstOtter int
+			for i, e := range es {
+				if e.Step == "open" && open == 0 {
+					open = i
+				}
+				if e.Step == "seal" && e.Actor == "otter" && firstOtter == 0 {
+					firstOtter = i
+				}
+			}
+			o := es[open]
+			es = append(es[:open], es[open+1:]...)
+			es = slices.Insert(es, firstOtter, o)
+			return es, nil
+		}, "not its latest seal"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			dir := buildDemo(t, "unblind")
+			c := open(t, dir)
+			es, keys := tc.edit(t, dir, slices.Clone(c.Ledger))
+			if keys != nil {
+				rewriteLedger(t, dir, es, keys)
+			} else {
+				rewriteLedger(t, dir, es)
+			}
+			r := campaign.Verify(dir)
+			if r.OK() || !strings.Contains(reportText(r), tc.want) {
+				t.Errorf("verify: %s; want a problem naming %q", reportText(r), tc.want)
+			}
+			err := unblind(t, dir)
+			if err == nil {
+				t.Fatalf("unblind accepted a forged ledger")
+			}
+			if _, err := os.Stat(filepath.Join(dir, campaign.RevealedFile)); !os.IsNotExist(err) {
+				t.Errorf("key revealed after a refusal")
+			}
+		})
+	}
+}
+
+// TestSealNeedsTeamKey: a table sealed under another team's name without
+// that team's key is refused and leaves nothing behind.
+func TestSealNeedsTeamKey(t *testing.T) {
+	dir := buildDemo(t, "seal")
+	tb, _ := table.ParseCSV("x.csv", []byte("lo,hi,rate,stat,syst\n1,2,2400,49,9.6\n"), table.CSVOptions{})
+	_, err := open(t, dir).Seal("otter", "muon_rate", tb, signer(t, dir, "heron"), "")
+	if !errors.Is(err, campaign.ErrRefused) || !strings.Contains(err.Error(), "not the one the protocol gives otter") {
+		t.Errorf("got %v", err)
+	}
+	if c := open(t, dir); len(c.Ledger) != 1 {
+		t.Errorf("ledger grew to %d entries", len(c.Ledger))
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Errorf("verify after a refused seal: %s", reportText(r))
+	}
+}
+
+// TestNoPeeking: before every team has sealed an observable, its tables
+// are published only in team maps, nothing can be compared, and the
+// common-map files do not exist; once all have sealed, blind opens it.
+func TestNoPeeking(t *testing.T) {
+	dir := buildDemo(t, "blind") // heron sealed and blinded (team map), otter sealed
+	// Undo otter's seals to look at the state before otter sealed.
+	c := open(t, dir)
+	var keep []format.Entry
+	for _, e := range c.Ledger {
+		if e.Step == "seal" && e.Actor == "otter" {
+			os.Remove(filepath.Join(dir, filepath.FromSlash(slices.Collect(mapKeys(e.Files))[0])))
+			continue
+		}
+		keep = append(keep, e)
+	}
+	rewriteLedger(t, dir, keep)
+	c = open(t, dir)
+	cmp, err := c.Compare()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cmp.Verdict != campaign.Incomplete || len(cmp.Summary.Entries) != 0 || len(cmp.Incomplete) != 3 {
+		t.Fatalf("comparison before otter sealed: %v, %d entries", cmp.Verdict, len(cmp.Summary.Entries))
+	}
+	if !strings.Contains(cmp.Incomplete[0].Reason, "not sealed yet by otter") {
+		t.Errorf("reason %q", cmp.Incomplete[0].Reason)
+	}
+	own := filepath.Join(dir, "blinded", "heron", "muon_rate.v1.own.csv")
+	if _, err := os.Stat(own); err != nil {
+		t.Fatalf("heron's own-map table: %v", err)
+	}
+	if m, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*.v1.csv")); len(m) != 0 {
+		t.Fatalf("common-map tables exist before every team sealed: %v", m)
+	}
+	if _, _, err := c.Draft("heron", ""); !errors.Is(err, campaign.ErrRefused) || !strings.Contains(problems(err), "incomplete") {
+		t.Errorf("sign before every team sealed: %v", err)
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Fatalf("verify: %s", reportText(r))
+	}
+	// otter seals; blind opens every observable in the common map, and the
+	// common map differs from heron's own map.
+	for _, o := range []string{"muon_rate", "zenith", "energy_spectrum"} {
+		tb := demoTable(t, buildDemoOnce(t), "otter", o)
+		if _, err := open(t, dir).Seal("otter", o, tb, signer(t, dir, "otter"), ""); err != nil {
+			t.Fatal(err)
+		}
+	}
+	res := blindStep(t, dir)
+	if len(res.Opened) != 3 || len(res.Files) != 6 {
+		t.Fatalf("blind opened %v, wrote %v", res.Opened, res.Files)
+	}
+	ownData, _ := os.ReadFile(own)
+	common, _ := os.ReadFile(filepath.Join(dir, "blinded", "heron", "muon_rate.v1.csv"))
+	ob, _ := table.ParseCSV("own", ownData, table.CSVOptions{})
+	cb, _ := table.ParseCSV("common", common, table.CSVOptions{})
+	if slices.Equal(ob.Column("rate"), cb.Column("rate")) {
+		t.Errorf("team map equals the common map")
+	}
+	c = open(t, dir)
+	if cmp, _ := c.Compare(); cmp.Verdict == campaign.Incomplete {
+		t.Errorf("still incomplete after opening: %v", cmp.Incomplete)
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Fatalf("verify: %s", reportText(r))
+	}
+}
+
+var (
+	demoOnce sync.Once
+	demoDir  string
+)
+
+// buildDemoOnce is a complete demo shared by tests that only read it.
+func buildDemoOnce(t *testing.T) string {
+	demoOnce.Do(func() {
+		d, err := os.MkdirTemp("", "tandem-demo-")
+		if err != nil {
+			t.Fatal(err)
+		}
+		demoDir = filepath.Join(d, "c")
+		if err := buildDemoErr(demoDir); err != nil {
+			t.Fatal(err)
+		}
+	})
+	return demoDir
+}
+
+func mapKeys(m map[string]string) func(func(string) bool) {
+	return func(yield func(string) bool) {
+		for k := range m {
+			if !yield(k) {
+				return
+			}
+		}
+	}
+}
+
+// TestProtocolLocked: an edit of campaign.toml after init is refused by
+// every command, and an amendment is a signed step that makes sign-offs
+// stale.
+func TestProtocolLocked(t *testing.T) {
+	dir := buildDemo(t, "unblind")
+	p := filepath.Join(dir, campaign.ProtocolFile)
+	good, _ := os.ReadFile(p)
+	edited := strings.Replace(string(good), "shift = [-3000.0, 3000.0]", "shift = [-3000.0, 3000.0]\n  max_pull = 5.0", 1)
+	os.WriteFile(p, []byte(edited), 0o644)
+	if _, err := campaign.Open(dir); !errors.Is(err, campaign.ErrRefused) || !strings.Contains(err.Error(), "differs from the one the ledger locked") {
+		t.Errorf("open after an edit: %v", err)
+	}
+	if r := campaign.Verify(dir); r.OK() || !strings.Contains(reportText(r), "campaign.toml") {
+		t.Errorf("verify after an edit: %s", reportText(r))
+	}
+	os.WriteFile(p, good, 0o644)
+	c := open(t, dir)
+	stale, err := c.Amend("ibis", []byte(edited), "the review board widened the pull limit", signer(t, dir, "ibis"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(stale) != 3 {
+		t.Errorf("stale sign-offs %v, want all three", stale)
+	}
+	c = open(t, dir)
+	for _, s := range c.Signoffs() {
+		if !s.Stale {
+			t.Errorf("%s's sign-off is not stale after the amendment", s.Party)
+		}
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Errorf("verify after an amendment: %s", reportText(r))
+	}
+	if err := unblind(t, dir); err == nil || !strings.Contains(problems(err), "amended the protocol") {
+		t.Errorf("unblind with stale sign-offs: %v", err)
+	}
+	// Parties and keys cannot be amended.
+	worse := strings.Replace(edited, `name = "ibis"`, `name = "ibis2"`, 1)
+	worse = strings.Replace(worse, `"ibis"]`, `"ibis2"]`, 1)
+	if _, err := open(t, dir).Amend("ibis", []byte(worse), "rename", signer(t, dir, "ibis")); err == nil {
+		t.Errorf("an amendment renamed a party")
+	}
+}
+
+// TestRevisionRound: a re-seal after an opening needs a reason, names the
+// stale sign-offs, starts a new round and shows in the notes and status.
+func TestRevisionRound(t *testing.T) {
+	dir := buildDemo(t, "unblind")
+	tb := demoTable(t, dir, "otter", "zenith")
+	c := open(t, dir)
+	if _, err := c.Seal("otter", "zenith", tb, signer(t, dir, "otter"), ""); err == nil || !strings.Contains(err.Error(), "needs --reason") {
+		t.Errorf("re-seal without a reason: %v", err)
+	}
+	res, err := open(t, dir).Seal("otter", "zenith", tb, signer(t, dir, "otter"), "new tower survey")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !res.Revision || res.Seal.Version != 2 || strings.Join(res.Stale, ",") != "heron,ibis,otter" {
+		t.Errorf("revision %v version %d stale %v", res.Revision, res.Seal.Version, res.Stale)
+	}
+	st, err := open(t, dir).Status()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var next []string
+	for _, a := range st.Next {
+		next = append(next, a.String())
+	}
+	if all := strings.Join(next, "\n"); !strings.Contains(all, "heron: sign again") || !strings.Contains(all, "stale after otter re-sealed zenith (v2") {
+		t.Errorf("next actions %q", next)
+	}
+	if !strings.Contains(strings.Join(next, "\n"), "custodian: blind") {
+		t.Errorf("next actions lack the blind step: %q", next)
+	}
+	blindStep(t, dir)
+	c = open(t, dir)
+	if n := c.State().Observables["zenith"].Round(); n != 2 {
+		t.Errorf("round %d, want 2", n)
+	}
+	notes := strings.Join(c.Notes(nil), "\n")
+	if !strings.Contains(notes, "otter revised zenith after round 1 had opened") || !strings.Contains(notes, "new tower survey") {
+		t.Errorf("notes lack the revision: %s", notes)
+	}
+	for _, p := range []string{"heron", "otter", "ibis"} {
+		if err := sign(t, dir, p, "understood"); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := unblind(t, dir); err != nil {
+		t.Fatalf("unblind after round 2: %s", problems(err))
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Errorf("verify: %s", reportText(r))
+	}
+}
+
+// TestStatusStates: real states from init on, and actions as next steps.
+func TestStatusStates(t *testing.T) {
+	dir := buildDemo(t, "seal")
+	st, err := open(t, dir).Status()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st.State != campaign.CampaignSealing || st.Observables[0].State != campaign.StateWaiting {
+		t.Errorf("after init: %s / %s", st.State, st.Observables[0].State)
+	}
+	var next []string
+	for _, a := range st.Next {
+		next = append(next, a.String())
+	}
+	if !slices.Contains(next, "otter: seal energy_spectrum") || !slices.Contains(next, "heron: seal muon_rate") {
+		t.Errorf("next %q", next)
+	}
+	dir = buildDemo(t, "unblind")
+	st, _ = open(t, dir).Status()
+	if st.State != campaign.CampaignReady {
+		t.Errorf("before unblind: %s (%v)", st.State, st.Problems)
+	}
+}
+
+// TestConcurrentSeals: seals from many goroutines (each with its own
+// Campaign, as separate processes would) leave a valid chain.
+func TestConcurrentSeals(t *testing.T) {
+	dir := buildDemo(t, "seal")
+	rng := rand.New(rand.NewPCG(5, 5))
+	tables := map[string]*table.Table{}
+	for _, o := range []string{"muon_rate", "zenith", "energy_spectrum"} {
+		n := 4
+		tb := &table.Table{LoName: "lo", HiName: "hi"}
+		for i := 0; i < n; i++ {
+			tb.Lo, tb.Hi = append(tb.Lo, float64(i)), append(tb.Hi, float64(i+1))
+		}
+		cols := []string{"rate", "stat", "syst"}
+		switch o {
+		case "zenith":
+			cols = []string{"events", "stat", "syst"}
+		case "energy_spectrum":
+			cols = []string{"counts", "stat"}
+		}
+		for _, c := range cols {
+			v := make([]float64, n)
+			for i := range v {
+				v[i] = 1 + rng.Float64()
+			}
+			tb.Names, tb.Cols = append(tb.Names, c), append(tb.Cols, v)
+		}
+		tables[o] = tb
+	}
+	signers := map[string]any{}
+	for _, team := range []string{"heron", "otter"} {
+		signers[team] = signer(t, dir, team)
+	}
+	var wg sync.WaitGroup
+	errs := make(chan error, 24)
+	for i := 0; i < 4; i++ {
+		for _, team := range []string{"heron", "otter"} {
+			for o, tb := range tables {
+				wg.Add(1)
+				go func() {
+					defer wg.Done()
+					c, err := campaign.Open(dir)
+					if err != nil {
+						errs <- err
+						return
+					}
+					_, err = c.Seal(team, o, tb, signer(t, dir, team), "")
+					errs <- err
+				}()
+			}
+		}
+	}
+	wg.Wait()
+	close(errs)
+	for err := range errs {
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+	c := open(t, dir)
+	if len(c.Ledger) != 1+24 {
+		t.Errorf("ledger has %d entries, want 25", len(c.Ledger))
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Errorf("verify after concurrent seals: %s", reportText(r))
+	}
+	if st := c.State().Observables["zenith"].Latest["heron"]; st.Version != 4 {
+		t.Errorf("version %d, want 4", st.Version)
+	}
+}
+
+func TestProtocolRefusals(t *testing.T) {
+	dir := buildDemo(t, "init")
+	good, _ := os.ReadFile(filepath.Join(dir, campaign.ProtocolFile))
+	cases := []struct {
+		edit func(string) string
+		want string
+	}{
+		{func(s string) string { return s + "\nsurprise = 1\n" }, `surprise"`},
+		{func(s string) string { return strings.Replace(s, "scale = [0.5, 2.0]", "scale = [-0.5, 1.6]", 1) }, "must be positive"},
+		{func(s string) string { return strings.Replace(s, "scale = [0.5, 2.0]", "scale = [1.0, 1.0]", 1) }, "too narrow"},
+		{func(s string) string { return strings.Replace(s, "shift = [-3000.0, 3000.0]", "shift = [0.0, 0.0]", 1) }, "no width"},
+		{func(s string) string { return strings.Replace(s, "  shift = [-3000.0, 3000.0]\n", "", 1) }, "shift must be a range"},
+		{func(s string) string { return strings.Replace(s, "scale = [0.5, 2.0]", "scale = [1e-9, 2.0]", 1) }, "overflow or collapse"},
+		{func(s string) string {
+			return strings.Replace(s, `quorum = ["heron", "otter", "ibis"]`, "quorum = []", 1)
+		}, "quorum is empty"},
+		{func(s string) string { return strings.Replace(s, `name = "otter"`, `name = "heron"`, 1) }, `party "heron" is declared twice`},
+		{func(s string) string { return strings.Replace(s, `format = "tandem/v2"`, `format = "tandem/v9"`, 1) }, "format must be"},
+		{func(s string) string { return strings.Replace(s, `format = "tandem/v2"`, `format = "tandem/v1"`, 1) }, "a tandem/v1 protocol"},
+		{func(s string) string {
+			return strings.Replace(s, `title = "Monthly muon rate"`, "title = \"Monthly \u202emuon rate\"", 1)
+		}, "bidirectional"},
+	}
+	for _, c := range cases {
+		_, err := protocol.Parse("campaign.toml", []byte(c.edit(string(good))))
+		if err == nil || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(err.Error(), "campaign.toml:") {
+			t.Errorf("got %v, want %q with a line number", err, c.want)
+		}
+	}
+}
+
+func TestSealRefusesUndeclaredColumn(t *testing.T) {
+	dir := buildDemo(t, "seal")
+	tb, _ := table.ParseCSV("x.csv", []byte("lo,hi,rate,stat,syst,secret\n0,1,1,1,1,42\n"), table.CSVOptions{})
+	_, err := open(t, dir).Seal("heron", "muon_rate", tb, signer(t, dir, "heron"), "")
+	if err == nil || !strings.Contains(err.Error(), `column "secret" is not declared`) {
+		t.Errorf("got %v", err)
+	}
+	if _, err := open(t, dir).Seal("ibis", "muon_rate", tb, signer(t, dir, "ibis"), ""); err == nil {
+		t.Errorf("a reviewer sealed a table")
+	}
+}
+
+func TestWrongIdentity(t *testing.T) {
+	dir := buildDemo(t, "blind")
+	other := filepath.Join(t.TempDir(), "other.key")
+	if _, err := campaign.GenerateCustodian(other, nowForTest()); err != nil {
+		t.Fatal(err)
+	}
+	id, _, _ := campaign.ReadIdentityFile(other)
+	before, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*"))
+	_, err := open(t, dir).Blind(id, signer(t, dir, "custodian"))
+	if !errors.Is(err, campaign.ErrRefused) || !strings.Contains(problems(err), "not the custodian's") {
+		t.Errorf("got %v", err)
+	}
+	after, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*"))
+	if len(after) != len(before) {
+		t.Errorf("blinded/ written with a wrong identity: %v", after)
+	}
+}

@@ -1,0 +1,140 @@
+package campaign
+
+import (
+	"bytes"
+	"fmt"
+	"strings"
+
+	"tandem/compare"
+	"tandem/report"
+)
+
+// Notes are the lines a report of the campaign shows on top: its state,
+// each revision after an opening with its reason, accepted risks and
+// disagreements, who signed and what is still incomplete.
+func (c *Campaign) Notes(cmp *Comparison) []string {
+	state := "blinded"
+	if c.Unblinded() {
+		state = "unblinded"
+	}
+	notes := []string{fmt.Sprintf("campaign %s is %s; %d ledger entries", c.Protocol.Campaign, state, len(c.Ledger))}
+	if cmp != nil {
+		for _, p := range cmp.Incomplete {
+			notes = append(notes, fmt.Sprintf("%s: incomplete, %s", p.Observable, p.Reason))
+		}
+	}
+	st := c.State()
+	for _, o := range c.Protocol.Observables {
+		os := st.Observables[o.Name]
+		if n := os.Round(); n > 1 || len(os.Revisions) > 0 {
+			notes = append(notes, fmt.Sprintf("%s: round %d", o.Name, n))
+		}
+		for _, s := range os.Revisions {
+			notes = append(notes, revisionNote(s))
+		}
+		for _, col := range o.Columns {
+			if col.AcceptRisk != "" {
+				notes = append(notes, fmt.Sprintf("%s/%s: the protocol accepts the risk of a breakable blinding map: %s", o.Name, col.Name, col.AcceptRisk))
+			}
+		}
+	}
+	for _, a := range st.Amends {
+		notes = append(notes, fmt.Sprintf("protocol amended by %s at entry %d: %s", a.Actor, a.Seq, a.Data["reason"]))
+	}
+	var signed []string
+	reasons := map[string][]string{}
+	var order []string
+	for _, s := range c.Signoffs() {
+		if !s.Valid {
+			continue
+		}
+		signed = append(signed, s.Party)
+		if r := s.Statement.Accepted; r != "" {
+			if reasons[r] == nil {
+				order = append(order, r)
+			}
+			reasons[r] = append(reasons[r], s.Party)
+		}
+	}
+	for _, r := range order {
+		notes = append(notes, fmt.Sprintf("disagreement accepted by %s: %s", strings.Join(reasons[r], ", "), r))
+	}
+	if len(signed) > 0 {
+		notes = append(notes, "signed off by "+strings.Join(signed, ", "))
+		if cmp != nil {
+			notes = append(notes, "signed comparison digest "+cmp.Digest)
+		}
+	} else {
+		notes = append(notes, "no valid sign-offs yet")
+	}
+	return notes
+}
+
+// BlindedSummary is the comparison of the blinded tables with the notes on
+// top, for reports.
+func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
+	cmp, err := c.Compare()
+	if err != nil {
+		return nil, nil, err
+	}
+	s := *cmp.Summary
+	s.Notes = append(append([]string(nil), s.Notes...), c.Notes(cmp)...)
+	return &s, cmp, nil
+}
+
+// FinalSummary is the comparison of the true tables, with the notes.
+func (c *Campaign) FinalSummary() (*compare.Summary, error) {
+	s, err := c.CompareUnblinded()
+	if err != nil {
+		return nil, err
+	}
+	cmp, err := c.Compare()
+	if err != nil {
+		return nil, err
+	}
+	s.Notes = append(c.Notes(cmp), "the pulls, χ² and p-values equal those of the blinded comparison that was signed")
+	return s, nil
+}
+
+// ReportPath is the campaign-relative path of a report.
+func ReportPath(stem, format string) string {
+	return ReportsDir + "/" + stem + report.Extension(format)
+}
+
+// WriteReports renders s in each format to reports/STEM.EXT, each file
+// atomically, and returns the paths written.
+func (c *Campaign) WriteReports(s *compare.Summary, formats []string, stem string) ([]string, error) {
+	var out []string
+	for _, f := range formats {
+		var b bytes.Buffer
+		if err := report.Render(&b, f, s, report.Style{}); err != nil {
+			return out, err
+		}
+		rel := ReportPath(stem, f)
+		if err := c.root.WriteAtomic(rel, b.Bytes()); err != nil {
+			return out, fmt.Errorf("writing %s: %w", c.Path(rel), err)
+		}
+		out = append(out, rel)
+	}
+	return out, nil
+}
+
+// WriteFinalReports writes the true-value reports in every format.
+func (c *Campaign) WriteFinalReports() ([]string, error) {
+	s, err := c.FinalSummary()
+	if err != nil {
+		return nil, err
+	}
+	return c.WriteReports(s, report.Formats, "final")
+}
+
+// WriteBlindedReports writes the blinded comparison in every format.
+func (c *Campaign) WriteBlindedReports() ([]string, error) {
+	s, _, err := c.BlindedSummary()
+	if err != nil {
+		return nil, err
+	}
+	return c.WriteReports(s, report.Formats, "campaign")
+}
+
+func reportFormats() []string { return report.Formats }

@@ -1,0 +1,266 @@
+package campaign
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"regexp"
+	"slices"
+	"strings"
+
+	"tandem/blind"
+	"tandem/blind/internal/format"
+)
+
+// Report is the outcome of verify.
+type Report struct {
+	Problems []Problem `json:"problems"`
+	Notes    []string  `json:"notes"`
+}
+
+// OK reports whether everything held.
+func (r *Report) OK() bool { return len(r.Problems) == 0 }
+
+// leftoverRE matches the names of files tandem steps write, so a file of
+// that shape that the ledger does not cover is recognised as left by an
+// interrupted step rather than added by hand.
+var leftoverRE = regexp.MustCompile(`^(sealed/[^/]+/[^/]+\.v[0-9]+\.age|blinded/[^/]+/[^/]+\.v[0-9]+(\.own)?\.csv|signoffs/[^/]+\.[0-9]+\.statement(\.sig)?|unblinded/[^/]+/[^/]+\.csv|key\.age|key\.revealed)$`)
+
+// audit is the one pass verify and unblind share: the ledger's order and
+// actors, every entry's signature, the protocol lock, every file against
+// its digest, files the ledger does not cover, links, and every sign-off.
+// Problems fail verify and refuse unblind; notes explain states that are
+// part of the procedure (a stale sign-off before unblinding, a file left
+// by an interrupted step).
+func (c *Campaign) audit() *Report {
+	r := &Report{}
+	if !c.Started() {
+		r.Problems = append(r.Problems, Problem{Kind: ProblemState, Message: "the campaign has not been started (run tandem init)"})
+		return r
+	}
+	if p := c.protocolProblem(); p != nil {
+		r.Problems = append(r.Problems, *p)
+	}
+	if c.torn > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%s: an interrupted step left a partial last line (%d bytes, never committed); the next step removes it", LedgerFile, c.torn))
+	}
+	st := c.State()
+	r.Problems = append(r.Problems, st.Problems...)
+	r.Problems = append(r.Problems, c.verifyEntrySignatures()...)
+	init := c.Ledger[0]
+	if init.Data["campaign"] != c.Protocol.Campaign {
+		r.Problems = append(r.Problems, Problem{Kind: ProblemProtocol, Path: ProtocolFile, Message: fmt.Sprintf("campaign id %q differs from %q logged at init", c.Protocol.Campaign, init.Data["campaign"])})
+	}
+	if _, _, err := c.KeyCommitment(); err != nil {
+		r.Problems = append(r.Problems, Problem{Kind: ProblemCommitment, Path: LedgerFile, Message: err.Error()})
+	}
+	files := st.Files
+	names := make([]string, 0, len(files))
+	for p := range files {
+		names = append(names, p)
+	}
+	slices.Sort(names)
+	for _, p := range names {
+		if p == ProtocolFile {
+			continue // the protocol lock above
+		}
+		data, err := c.root.ReadFile(p, maxTable)
+		if err != nil {
+			r.Problems = append(r.Problems, Problem{Kind: ProblemDigest, Path: p, Message: unwrapPath(err).Error()})
+			continue
+		}
+		if !blind.EqualHex(format.Digest(data), files[p]) {
+			r.Problems = append(r.Problems, Problem{Kind: ProblemDigest, Path: p, Message: "content differs from the digest in the ledger"})
+		}
+	}
+	all, err := c.root.Walk(func(rel string, dir bool) bool {
+		base := rel[strings.LastIndexByte(rel, '/')+1:]
+		return strings.HasPrefix(base, ".") || rel == ReportsDir || rel == "keys"
+	})
+	var se *SymlinkError
+	if errors.As(err, &se) {
+		for _, l := range se.Paths {
+			r.Problems = append(r.Problems, Problem{Kind: ProblemSymlink, Path: l, Message: "a symbolic link inside the campaign; tandem follows no links"})
+		}
+	} else if err != nil {
+		r.Problems = append(r.Problems, Problem{Kind: ProblemState, Message: err.Error()})
+	}
+	for _, rel := range all {
+		if _, ok := files[rel]; ok || rel == LedgerFile || rel == ProtocolFile {
+			continue
+		}
+		if leftoverRE.MatchString(rel) {
+			r.Notes = append(r.Notes, rel+": left by an interrupted step (not in the ledger); the next step of that kind removes it")
+			continue
+		}
+		r.Problems = append(r.Problems, Problem{Kind: ProblemUncovered, Path: rel, Message: "not covered by the ledger (added by hand?)"})
+	}
+	unblinded := c.Unblinded()
+	for _, s := range c.Signoffs() {
+		if !s.Present || s.Valid {
+			continue
+		}
+		for _, p := range s.Problems {
+			if !unblinded && p.Kind == ProblemStale {
+				// A re-seal before unblinding makes old sign-offs stale;
+				// that is the procedure working, not tampering.
+				r.Notes = append(r.Notes, p.String()+" (must sign again)")
+				continue
+			}
+			r.Problems = append(r.Problems, p)
+		}
+	}
+	return r
+}
+
+// Verify checks everything that can be checked without secrets: the ledger
+// chain, order, actors and signatures, the protocol lock, every file
+// digest, every sign-off, and after unblinding the quorum and the whole
+// chain end to end: K against its commitment, each true table against its
+// seal-time commitment, and each published blinded table recomputed from
+// the true table and K.
+func Verify(dir string) *Report {
+	c, err := open(dir)
+	if err != nil {
+		r := &Report{}
+		var re *RefusedError
+		if errors.As(err, &re) {
+			r.Problems = append(r.Problems, re.Problems...)
+		} else {
+			r.Problems = append(r.Problems, Problem{Kind: ProblemState, Message: err.Error()})
+		}
+		return r
+	}
+	return c.Verify()
+}
+
+// Verify is [Verify] on an open campaign.
+func (c *Campaign) Verify() *Report {
+	r := c.audit()
+	if !c.Started() {
+		return r
+	}
+	st := c.State()
+	teams := c.Protocol.Teams()
+	for _, o := range c.Protocol.Observables {
+		os := st.Observables[o.Name]
+		switch {
+		case !os.Sealed(teams):
+			r.Notes = append(r.Notes, o.Name+": not sealed yet by every team")
+		case !os.Open(teams):
+			r.Notes = append(r.Notes, o.Name+": sealed by every team, not opened yet")
+		}
+		for _, s := range os.Revisions {
+			r.Notes = append(r.Notes, revisionNote(s))
+		}
+	}
+	for _, s := range c.Signoffs() {
+		if !s.Present {
+			r.Notes = append(r.Notes, s.Party+": has not signed off")
+		}
+	}
+	if c.Unblinded() {
+		r.Problems = append(r.Problems, c.QuorumProblems(c.Signoffs())...)
+		r.Problems = append(r.Problems, c.verifyUnblinded()...)
+	}
+	r.Problems = dedupe(r.Problems)
+	return r
+}
+
+func revisionNote(s *Seal) string {
+	why := ""
+	if s.Reason != "" {
+		why = ": " + s.Reason
+	}
+	return fmt.Sprintf("%s revised %s after round %d had opened (v%d, entry %d)%s", s.Team, s.Observable, s.AfterRound, s.Version, s.Seq, why)
+}
+
+func dedupe(in []Problem) []Problem {
+	seen := map[Problem]bool{}
+	out := in[:0]
+	for _, p := range in {
+		if !seen[p] {
+			seen[p] = true
+			out = append(out, p)
+		}
+	}
+	return out
+}
+
+// verifyUnblinded checks the chain end to end from the published key.
+func (c *Campaign) verifyUnblinded() []Problem {
+	var probs []Problem
+	bad := func(kind ProblemKind, path, f string, a ...any) {
+		probs = append(probs, Problem{Kind: kind, Path: path, Message: fmt.Sprintf(f, a...)})
+	}
+	data, err := c.root.ReadFile(RevealedFile, maxSmall)
+	if err != nil {
+		bad(ProblemMissing, RevealedFile, "%v", unwrapPath(err))
+		return probs
+	}
+	k, err := format.DecodeKey(data)
+	if err != nil {
+		bad(ProblemCommitment, RevealedFile, "%v", err)
+		return probs
+	}
+	salt, com, _ := c.KeyCommitment()
+	if !k.Matches(salt, com) {
+		bad(ProblemCommitment, RevealedFile, "key does not match the commitment logged at init")
+		return probs
+	}
+	st := c.State()
+	for _, s := range c.Slots() {
+		os := st.Observables[s.Observable]
+		l := os.Latest[s.Team]
+		if l == nil {
+			bad(ProblemMissing, s.UnblindedPath(), "unblinded without a sealed table")
+			continue
+		}
+		o := c.Protocol.Observable(s.Observable)
+		raw, err := c.root.ReadFile(s.UnblindedPath(), maxTable)
+		if err != nil {
+			bad(ProblemMissing, s.UnblindedPath(), "%v", unwrapPath(err))
+			continue
+		}
+		f, err := format.DecodeTableFile(c.Path(s.UnblindedPath()), raw, format.Unblinded, o.Edges[0], o.Edges[1])
+		if err != nil {
+			bad(ProblemCommitment, s.UnblindedPath(), "%v", trimPath(err.Error(), c.Path(s.UnblindedPath())))
+			continue
+		}
+		if f.Campaign != c.Protocol.Campaign || f.Team != s.Team || f.Observable != s.Observable || f.Version != l.Version {
+			bad(ProblemCommitment, s.UnblindedPath(), "header names another campaign, team, observable or version")
+			continue
+		}
+		if !blind.EqualHex(f.Commitment(), l.Commitment) {
+			bad(ProblemCommitment, s.UnblindedPath(), "true table does not match its seal-time commitment")
+			continue
+		}
+		for _, pub := range []*Published{os.Common[s.Team], os.Own[s.Team]} {
+			if pub == nil || pub.Version != l.Version {
+				continue
+			}
+			if err := c.checkPublished(k, f, l, pub); err != nil {
+				probs = append(probs, *err)
+			}
+		}
+	}
+	return probs
+}
+
+// checkPublished recomputes a published blinded table from the true table
+// and K and compares the bytes.
+func (c *Campaign) checkPublished(k *blind.Key, f *format.TableFile, l *Seal, pub *Published) *Problem {
+	blinded, err := c.root.ReadFile(pub.Path, maxTable)
+	if err != nil {
+		return &Problem{Kind: ProblemMissing, Path: pub.Path, Message: unwrapPath(err).Error()}
+	}
+	scope := blind.CommonScope
+	if strings.HasSuffix(pub.Path, ".own.csv") {
+		scope = blind.TeamScope(l.Team)
+	}
+	bf, err := c.blindTable(k, f, scope, l.Commitment)
+	if err != nil || !bytes.Equal(bf.Encode(), blinded) {
+		return &Problem{Kind: ProblemCommitment, Path: pub.Path, Message: "does not equal the true table blinded with the published key"}
+	}
+	return nil
+}

@@ -1,0 +1,515 @@
+// Package protocol reads and checks a campaign's protocol, campaign.toml:
+// who takes part and with which keys, what is compared, how each column is
+// blinded and what counts as agreement. Each column's comparison settings
+// decode into [compare.Options], the one definition of a comparison's
+// options.
+package protocol
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"math"
+	"regexp"
+	"slices"
+	"strings"
+
+	"filippo.io/age"
+	"filippo.io/age/agessh"
+	"github.com/BurntSushi/toml"
+	"golang.org/x/crypto/ssh"
+
+	"tandem/blind"
+	"tandem/compare"
+	"tandem/compare/table"
+)
+
+// File is the protocol's name inside a campaign folder.
+const File = "campaign.toml"
+
+// EdgeTolerance is the relative tolerance on bin edges between two teams'
+// tables (see [table.SameEdges]).
+const EdgeTolerance = 1e-9
+
+// Roles of parties.
+const (
+	RoleTeam      = "team"
+	RoleReviewer  = "reviewer"
+	RoleCustodian = "custodian"
+)
+
+// Protocol is a parsed campaign.toml.
+type Protocol struct {
+	Format      string `toml:"format"`
+	Campaign    string `toml:"campaign"`
+	Description string `toml:"description"`
+	// Custodian is the age recipient (age1…) or SSH public key the sealed
+	// tables and the key are encrypted to.
+	Custodian string `toml:"custodian"`
+	// CustodianKey is the SSH public key that signs the custodian's ledger
+	// entries (init, blind, open, unblind).
+	CustodianKey string       `toml:"custodian_key"`
+	Alpha        *float64     `toml:"alpha"`
+	Quorum       []string     `toml:"quorum"`
+	Parties      []Party      `toml:"party"`
+	Observables  []Observable `toml:"observable"`
+
+	custodianPub ssh.PublicKey
+}
+
+// Party is a team or a reviewer with the SSH public key it signs with.
+type Party struct {
+	Name string `toml:"name"`
+	Role string `toml:"role"` // "team" or "reviewer"
+	Key  string `toml:"key"`
+	pub  ssh.PublicKey
+}
+
+// PublicKey returns the parsed SSH key of the party.
+func (p *Party) PublicKey() ssh.PublicKey { return p.pub }
+
+// Observable is one binned result every team produces.
+type Observable struct {
+	Name   string   `toml:"name"`
+	Title  string   `toml:"title"`
+	XLabel string   `toml:"x_label"`
+	YLabel string   `toml:"y_label"`
+	Edges  []string `toml:"edges"`
+	// Object names a histogram or graph inside a ROOT file, for teams that
+	// seal ROOT output.
+	Object  string   `toml:"object"`
+	Columns []Column `toml:"column"`
+}
+
+// Column is a blinded, compared value column of an observable.
+type Column struct {
+	Name   string   `toml:"name"`
+	Errors []string `toml:"errors"`
+	// Scale and Shift are the ranges [lo, hi] every bin's blinding factor
+	// s_i and offset o_i are drawn from. Both are required.
+	Scale []float64 `toml:"scale"`
+	Shift []float64 `toml:"shift"`
+	// AcceptRisk, when set, lets blind publish a map that one of the
+	// standard attacks breaks; the reason is shown in every report.
+	AcceptRisk string `toml:"accept_risk"`
+	// Comparison settings, as `tandem compare` takes them.
+	Correlation float64  `toml:"correlation"`
+	Subset      bool     `toml:"subset"`
+	MaxPull     *float64 `toml:"max_pull"`
+	MinP        *float64 `toml:"min_p"`
+	AbsTol      float64  `toml:"abs_tol"`
+	RelTol      float64  `toml:"rel_tol"`
+}
+
+// Options returns the comparison options the column declares.
+func (c *Column) Options() compare.Options {
+	l := compare.DefaultLimits
+	if c.MaxPull != nil {
+		l.MaxPull = *c.MaxPull
+	}
+	if c.MinP != nil {
+		l.MinP = *c.MinP
+	}
+	l.AbsTol, l.RelTol = c.AbsTol, c.RelTol
+	return compare.Options{Correlation: c.Correlation, Subset: c.Subset, Limits: l}
+}
+
+// Selection returns the table columns this column compares.
+func (c *Column) Selection() table.Selection {
+	return table.Selection{Value: c.Name, Errors: c.Errors}
+}
+
+// ScaleRange and ShiftRange return the declared ranges.
+func (c *Column) ScaleRange() blind.Range { return blind.Range{Lo: c.Scale[0], Hi: c.Scale[1]} }
+func (c *Column) ShiftRange() blind.Range { return blind.Range{Lo: c.Shift[0], Hi: c.Shift[1]} }
+
+// MapSpec returns the column's map in a scope (see [blind.CommonScope]).
+func (c *Column) MapSpec(observable, scope string) blind.MapSpec {
+	return blind.MapSpec{Observable: observable, Column: c.Name, Scope: scope, Scale: c.ScaleRange(), Shift: c.ShiftRange()}
+}
+
+// Teams lists the parties with role "team", in declared order.
+func (p *Protocol) Teams() []string {
+	var out []string
+	for _, q := range p.Parties {
+		if q.Role == RoleTeam {
+			out = append(out, q.Name)
+		}
+	}
+	return out
+}
+
+// Party returns the named party, or nil.
+func (p *Protocol) Party(name string) *Party {
+	for i := range p.Parties {
+		if p.Parties[i].Name == name {
+			return &p.Parties[i]
+		}
+	}
+	return nil
+}
+
+// Observable returns the named observable, or nil.
+func (p *Protocol) Observable(name string) *Observable {
+	for i := range p.Observables {
+		if p.Observables[i].Name == name {
+			return &p.Observables[i]
+		}
+	}
+	return nil
+}
+
+// ObservableNames lists the observables in declared order.
+func (p *Protocol) ObservableNames() []string {
+	out := make([]string, len(p.Observables))
+	for i, o := range p.Observables {
+		out[i] = o.Name
+	}
+	return out
+}
+
+// FamilyAlpha is the campaign's family-wise false-alarm rate (default 0.01).
+func (p *Protocol) FamilyAlpha() float64 {
+	if p.Alpha != nil {
+		return *p.Alpha
+	}
+	return 0.01
+}
+
+// Recipient parses the custodian's age recipient.
+func (p *Protocol) Recipient() (age.Recipient, error) { return ParseRecipient(p.Custodian) }
+
+// CustodianPublicKey is the SSH key that signs the custodian's steps.
+func (p *Protocol) CustodianPublicKey() ssh.PublicKey { return p.custodianPub }
+
+// SignerKey returns the key that must sign a ledger entry by actor: a
+// party's key, or the custodian's for "custodian". Nil for anyone else.
+func (p *Protocol) SignerKey(actor string) ssh.PublicKey {
+	if actor == RoleCustodian {
+		return p.custodianPub
+	}
+	if q := p.Party(actor); q != nil {
+		return q.pub
+	}
+	return nil
+}
+
+// ParseRecipient parses an age X25519 recipient or an SSH public key.
+func ParseRecipient(s string) (age.Recipient, error) {
+	s = strings.TrimSpace(s)
+	if strings.HasPrefix(s, "age1") {
+		return age.ParseX25519Recipient(s)
+	}
+	if strings.HasPrefix(s, "ssh-") {
+		return agessh.ParseRecipient(s)
+	}
+	return nil, fmt.Errorf("custodian %q is neither an age recipient (age1...) nor an SSH public key", s)
+}
+
+// Digest is the hex SHA-256 of the protocol's bytes, as init logs it.
+func Digest(data []byte) string {
+	h := sha256.Sum256(data)
+	return hex.EncodeToString(h[:])
+}
+
+var nameRE = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$`)
+
+// ValidName reports whether s is a valid campaign, party, observable or
+// column name: 1–64 ASCII letters, digits, '.', '_' or '-', starting with a
+// letter or digit.
+func ValidName(s string) bool { return nameRE.MatchString(s) }
+
+// Parse reads campaign.toml strictly: unknown keys, wrong types and
+// impossible settings are errors that name the file and line. A tandem/v1
+// protocol is refused with a message saying so.
+func Parse(path string, data []byte) (*Protocol, error) {
+	var p Protocol
+	md, err := toml.NewDecoder(bytes.NewReader(data)).Decode(&p)
+	if err != nil {
+		var pe toml.ParseError
+		if errors.As(err, &pe) {
+			return nil, table.Errorf(path, pe.Position.Line, pe.Position.Col, "%s", pe.Message)
+		}
+		return nil, table.Errorf(path, 0, 0, "%v", err)
+	}
+	if p.Format == "tandem/v1" {
+		return nil, table.Errorf(path, keyLine(data, "format"), 0, "a tandem/v1 protocol: this version of tandem reads %s campaigns only; start a new campaign with \"tandem init\"", blind.Version)
+	}
+	if und := md.Undecoded(); len(und) > 0 {
+		k := und[0]
+		return nil, table.Errorf(path, keyLine(data, k[len(k)-1]), 0, "unknown key %q", k.String())
+	}
+	if err := p.validate(); err != nil {
+		return nil, table.Errorf(path, errLine(data, err), 0, "%v", err)
+	}
+	return &p, nil
+}
+
+// keyLine finds the first line that assigns key.
+func keyLine(data []byte, key string) int {
+	re := regexp.MustCompile(`^\s*"?` + regexp.QuoteMeta(key) + `"?\s*=`)
+	for i, line := range strings.Split(string(data), "\n") {
+		if re.MatchString(line) {
+			return i + 1
+		}
+	}
+	return 0
+}
+
+// fieldError is a validation error about a named thing, so the message can
+// point at the line that names it.
+type fieldError struct {
+	anchor string
+	msg    string
+}
+
+func (e *fieldError) Error() string { return e.msg }
+
+func errLine(data []byte, err error) int {
+	var fe *fieldError
+	if errors.As(err, &fe) && fe.anchor != "" {
+		for i, line := range strings.Split(string(data), "\n") {
+			if strings.Contains(strings.ReplaceAll(line, " ", ""), strings.ReplaceAll(fe.anchor, " ", "")) {
+				return i + 1
+			}
+		}
+	}
+	return 0
+}
+
+func ferr(anchor, format string, args ...any) error {
+	return &fieldError{anchor: anchor, msg: fmt.Sprintf(format, args...)}
+}
+
+func parseSSHKey(s string) (ssh.PublicKey, error) {
+	pub, _, _, _, err := ssh.ParseAuthorizedKey([]byte(s))
+	return pub, err
+}
+
+func (p *Protocol) validate() error {
+	if p.Format != blind.Version {
+		return ferr("format", "format must be %q, got %q", blind.Version, p.Format)
+	}
+	if !ValidName(p.Campaign) {
+		return ferr("campaign", "campaign id %q must be 1-64 letters, digits, '.', '_' or '-'", p.Campaign)
+	}
+	if err := CleanText(p.Description); err != nil {
+		return ferr("description", "description: %v", err)
+	}
+	if _, err := p.Recipient(); err != nil {
+		return ferr("custodian", "%v", err)
+	}
+	if p.Alpha != nil && !(*p.Alpha > 0 && *p.Alpha < 1) {
+		return ferr("alpha", "alpha must be in (0, 1), got %v", *p.Alpha)
+	}
+	seenName := map[string]bool{RoleCustodian: true}
+	seenKey := map[string]string{}
+	teams := 0
+	for i := range p.Parties {
+		q := &p.Parties[i]
+		anchor := fmt.Sprintf("name = %q", q.Name)
+		if !ValidName(q.Name) {
+			return ferr(anchor, "party name %q must be 1-64 letters, digits, '.', '_' or '-'", q.Name)
+		}
+		if seenName[q.Name] {
+			if q.Name == RoleCustodian {
+				return ferr(anchor, "party name %q is reserved for the custodian", q.Name)
+			}
+			return ferr(anchor, "party %q is declared twice", q.Name)
+		}
+		seenName[q.Name] = true
+		switch q.Role {
+		case RoleTeam:
+			teams++
+		case RoleReviewer:
+		default:
+			return ferr(anchor, "party %q: role must be \"team\" or \"reviewer\", got %q", q.Name, q.Role)
+		}
+		pub, err := parseSSHKey(q.Key)
+		if err != nil {
+			return ferr(anchor, "party %q: key is not an SSH public key: %v", q.Name, err)
+		}
+		q.pub = pub
+		fp := ssh.FingerprintSHA256(pub)
+		if other, dup := seenKey[fp]; dup {
+			return ferr(anchor, "parties %q and %q have the same key", other, q.Name)
+		}
+		seenKey[fp] = q.Name
+	}
+	pub, err := parseSSHKey(p.CustodianKey)
+	if err != nil {
+		return ferr("custodian_key", "custodian_key is not an SSH public key (it signs the custodian's steps): %v", err)
+	}
+	p.custodianPub = pub
+	if other, dup := seenKey[ssh.FingerprintSHA256(pub)]; dup {
+		return ferr("custodian_key", "the custodian and %q have the same key", other)
+	}
+	if teams < 2 {
+		return ferr("[[party]]", "a campaign needs at least two parties with role \"team\", found %d", teams)
+	}
+	if len(p.Quorum) == 0 {
+		return ferr("quorum", "quorum is empty: name the parties whose sign-off unblinding needs")
+	}
+	seenQ := map[string]bool{}
+	for _, n := range p.Quorum {
+		if !seenName[n] || n == RoleCustodian {
+			return ferr("quorum", "quorum names %q, which is not a declared party", n)
+		}
+		if seenQ[n] {
+			return ferr("quorum", "quorum names %q twice", n)
+		}
+		seenQ[n] = true
+	}
+	for _, t := range p.Teams() {
+		if !seenQ[t] {
+			return ferr("quorum", "quorum must include every team; %q is missing", t)
+		}
+	}
+	if len(p.Observables) == 0 {
+		return ferr("[[observable]]", "no observables declared")
+	}
+	seenObs := map[string]bool{}
+	for i := range p.Observables {
+		if err := p.Observables[i].validate(seenObs); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func (o *Observable) validate(seen map[string]bool) error {
+	anchor := fmt.Sprintf("name = %q", o.Name)
+	if !ValidName(o.Name) {
+		return ferr(anchor, "observable name %q must be 1-64 letters, digits, '.', '_' or '-'", o.Name)
+	}
+	if seen[o.Name] {
+		return ferr(anchor, "observable %q is declared twice", o.Name)
+	}
+	seen[o.Name] = true
+	for _, s := range []string{o.Title, o.XLabel, o.YLabel} {
+		if err := CleanText(s); err != nil {
+			return ferr(anchor, "observable %q: %v", o.Name, err)
+		}
+	}
+	if len(o.Edges) == 0 {
+		o.Edges = []string{table.DefaultLo, table.DefaultHi}
+	}
+	if len(o.Edges) != 2 || o.Edges[0] == o.Edges[1] || !ValidName(o.Edges[0]) || !ValidName(o.Edges[1]) {
+		return ferr(anchor, "observable %q: edges must name two different columns", o.Name)
+	}
+	if len(o.Columns) == 0 {
+		return ferr(anchor, "observable %q declares no columns", o.Name)
+	}
+	seenCol := map[string]bool{o.Edges[0]: true, o.Edges[1]: true}
+	for j := range o.Columns {
+		c := &o.Columns[j]
+		canchor := fmt.Sprintf("name = %q", c.Name)
+		where := fmt.Sprintf("observable %q column %q", o.Name, c.Name)
+		if !ValidName(c.Name) || seenCol[c.Name] {
+			return ferr(canchor, "%s: column names must be unique, valid names and not bin edges", where)
+		}
+		seenCol[c.Name] = true
+		for _, e := range c.Errors {
+			if !ValidName(e) || e == c.Name || e == o.Edges[0] || e == o.Edges[1] {
+				return ferr(canchor, "%s: error column %q cannot be the value or an edge", where, e)
+			}
+		}
+		if len(c.Scale) != 2 {
+			return ferr(canchor, "%s: scale must be a range [lo, hi] (an undeclared or single-number range makes no map)", where)
+		}
+		if len(c.Shift) != 2 {
+			return ferr(canchor, "%s: shift must be a range [lo, hi] comparable to the values (an undeclared range makes no map)", where)
+		}
+		if err := blind.CheckScale(c.ScaleRange()); err != nil {
+			return ferr(canchor, "%s: scale %v", where, err)
+		}
+		if err := blind.CheckShift(c.ShiftRange()); err != nil {
+			return ferr(canchor, "%s: shift %v", where, err)
+		}
+		if err := CleanText(c.AcceptRisk); err != nil {
+			return ferr(canchor, "%s: accept_risk: %v", where, err)
+		}
+		if c.Correlation < -1 || c.Correlation > 1 || math.IsNaN(c.Correlation) {
+			return ferr(canchor, "%s: correlation %v is outside [-1, 1]", where, c.Correlation)
+		}
+		if c.Subset && c.Correlation != 0 {
+			return ferr(canchor, "%s: subset and correlation cannot be used together", where)
+		}
+		if c.MaxPull != nil && (*c.MaxPull < 0 || math.IsInf(*c.MaxPull, 0) || math.IsNaN(*c.MaxPull)) {
+			return ferr(canchor, "%s: max_pull must be >= 0", where)
+		}
+		if c.MinP != nil && !(*c.MinP >= 0 && *c.MinP < 1) {
+			return ferr(canchor, "%s: min_p must be in [0, 1)", where)
+		}
+		if !(c.AbsTol >= 0) || !(c.RelTol >= 0) {
+			return ferr(canchor, "%s: abs_tol and rel_tol must be >= 0", where)
+		}
+	}
+	return nil
+}
+
+// Column returns the named column of an observable, or nil.
+func (o *Observable) Column(name string) *Column {
+	i := slices.IndexFunc(o.Columns, func(c Column) bool { return c.Name == name })
+	if i < 0 {
+		return nil
+	}
+	return &o.Columns[i]
+}
+
+// DisplayTitle is the title, or the name when no title is declared.
+func (o *Observable) DisplayTitle() string {
+	if o.Title != "" {
+		return o.Title
+	}
+	return o.Name
+}
+
+// FromObject names the columns of a table read from a ROOT histogram or
+// graph (columns value and errName) after the observable's declaration,
+// which must then have one column with one uncertainty.
+func (o *Observable) FromObject(t *table.Table, value, errName string) (*table.Table, error) {
+	if len(o.Columns) != 1 || len(o.Columns[0].Errors) != 1 {
+		return nil, table.Errorf(t.Source, 0, 0, "observable %q declares %d columns; a ROOT object fills one value column with one uncertainty", o.Name, len(o.Columns))
+	}
+	c := o.Columns[0]
+	out := *t
+	out.LoName, out.HiName = o.Edges[0], o.Edges[1]
+	out.Names = nil
+	for _, n := range t.Names {
+		switch n {
+		case value:
+			out.Names = append(out.Names, c.Name)
+		case errName:
+			out.Names = append(out.Names, c.Errors[0])
+		default:
+			return nil, table.Errorf(t.Source, 0, 0, "the object has asymmetric errors (%s); sealing supports symmetric errors only", n)
+		}
+	}
+	return &out, nil
+}
+
+// Compatible reports why an amended protocol cannot replace p: an amendment
+// may change observables, tolerances, the quorum and the description, but
+// not the campaign id, the custodian or any party's name, role or key,
+// because earlier ledger entries are checked against those keys.
+func (p *Protocol) Compatible(next *Protocol) error {
+	if next.Campaign != p.Campaign {
+		return fmt.Errorf("the campaign id cannot change (%q → %q)", p.Campaign, next.Campaign)
+	}
+	if next.Custodian != p.Custodian || next.CustodianKey != p.CustodianKey {
+		return errors.New("the custodian's recipient and signing key cannot change")
+	}
+	if len(next.Parties) != len(p.Parties) {
+		return errors.New("parties cannot be added or removed")
+	}
+	for i := range p.Parties {
+		a, b := p.Parties[i], next.Parties[i]
+		if a.Name != b.Name || a.Role != b.Role || a.Key != b.Key {
+			return fmt.Errorf("party %q cannot change its name, role or key", a.Name)
+		}
+	}
+	return nil
+}

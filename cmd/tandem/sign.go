@@ -1,0 +1,110 @@
+package main
+
+import (
+	"bufio"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"tandem/blind/campaign"
+)
+
+const signHelp = `Usage:
+    tandem sign DIR --as PARTY [--key FILE] [--yes] [--accept-disagreement REASON]
+
+Signs off the campaign as it stands. Prints what is signed, in words (each
+comparison with its verdict, χ²/ndf and p-value, and what is accepted) and
+as the statement (campaign, key commitment, every sealed commitment with
+the team that signed it, every blinded digest, ledger head, comparison
+digest and verdict), and asks for confirmation on the terminal. Signs with
+the SSH key in FILE, or with ssh-agent when --key is absent. The signature
+is an OpenSSH signature in namespace tandem-signoff:
+    ssh-keygen -Y verify -n tandem-signoff -f allowed_signers -I PARTY \
+        -s signoffs/PARTY.N.statement.sig < signoffs/PARTY.N.statement
+`
+
+func runSign(e *env, args []string) error {
+	fs := newFlags(e, "sign", signHelp)
+	var party, keyFile, reason string
+	var yes bool
+	fs.StringVar(&party, "as", "", "sign as `PARTY` (required)")
+	fs.StringVar(&keyFile, "key", "", "SSH private key `FILE` (default: ssh-agent)")
+	boolVar(fs, &yes, []string{"yes", "y"}, false, "sign without asking for confirmation")
+	fs.StringVar(&reason, "accept-disagreement", "", "sign a failing comparison, giving the `REASON`")
+	c, err := campaignArgs(fs, args, "sign")
+	if err != nil {
+		return err
+	}
+	if party == "" {
+		return usageErr("sign needs --as PARTY")
+	}
+	q := c.Protocol.Party(party)
+	if q == nil {
+		return usageErr("%q is not a party of campaign %s", party, c.Protocol.Campaign)
+	}
+	signer, err := findSigner(keyFile, q.PublicKey())
+	if err != nil {
+		return err
+	}
+	st, cmp, err := c.Draft(party, reason)
+	if err != nil {
+		return campaignErr(err)
+	}
+	describeSignoff(e.stderr, party, st, cmp)
+	fmt.Fprint(e.stdout, string(st.Encode()))
+	if !yes {
+		ok, err := confirm("sign this statement as " + party + "?")
+		if err != nil {
+			return withHint(usageErr("cannot ask for confirmation: %v", err), "read the statement and pass --yes")
+		}
+		if !ok {
+			return refused(errors.New("not signed"))
+		}
+	}
+	path, err := c.Sign(st, signer)
+	if err != nil {
+		return campaignErr(err)
+	}
+	e.infof("signed off as %s: %s", party, c.Path(path))
+	return nil
+}
+
+// describeSignoff says in words what a party signs.
+func describeSignoff(w io.Writer, party string, st *campaign.Statement, cmp *campaign.Comparison) {
+	fmt.Fprintf(w, "tandem: %s signs that these comparisons of blinded tables are the ones to unblind:\n", party)
+	for _, e := range cmp.Summary.Entries {
+		v := "agree"
+		if !e.Pass {
+			v = "DISAGREE"
+		}
+		fmt.Fprintf(w, "  %-8s %s/%s, %s vs %s: χ²/ndf = %s/%d, p-value %s\n", v, e.Observable, e.Column, e.Teams[0], e.Teams[1],
+			fmtNum(e.Chi2), e.NDF, fmtNum(e.PValue))
+	}
+	fmt.Fprintf(w, "  verdict: %s\n", st.Verdict)
+	if st.Accepted != "" {
+		fmt.Fprintf(w, "  accepting the disagreement because: %s\n", st.Accepted)
+	}
+	for _, r := range st.AcceptedRisks {
+		fmt.Fprintf(w, "  accepting the protocol's blinding risk for %s\n", r)
+	}
+}
+
+func fmtNum(v float64) string { return strings.TrimSpace(fmt.Sprintf("%.4g", v)) }
+
+// confirm asks on the terminal, never on stdin.
+func confirm(question string) (bool, error) {
+	tty, err := os.OpenFile("/dev/tty", os.O_RDWR, 0)
+	if err != nil {
+		return false, errors.New("no terminal")
+	}
+	defer tty.Close()
+	fmt.Fprintf(tty, "tandem: %s [y/N] ", question)
+	line, err := bufio.NewReader(tty).ReadString('\n')
+	if err != nil && line == "" {
+		return false, err
+	}
+	a := strings.ToLower(strings.TrimSpace(line))
+	return a == "y" || a == "yes", nil
+}

@@ -1,0 +1,245 @@
+package main
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+
+	"tandem/blind/campaign"
+	"tandem/report"
+)
+
+func compareCampaign(e *env, dir string, cf *compareFlags) error {
+	for _, f := range []string{"value", "error", "correlation", "subset", "cov-a", "cov-b", "cov-ab", "max-pull", "min-p", "abs-tol", "rel-tol", "edges", "name"} {
+		if cf.set[f] {
+			return withHint(usageErr("--%s does not apply to a campaign", f), "the protocol in campaign.toml declares columns and tolerances")
+		}
+	}
+	c, err := openCampaign(dir)
+	if err != nil {
+		return err
+	}
+	if cf.tables == "unblinded" {
+		s, err := c.FinalSummary()
+		if err != nil {
+			return campaignErr(err)
+		}
+		if err := emit(e, s, cf.format, cf.output); err != nil {
+			return err
+		}
+		if !s.Pass() {
+			return silentFail
+		}
+		return nil
+	}
+	s, cmp, err := c.BlindedSummary()
+	if err != nil {
+		return campaignErr(err)
+	}
+	for _, p := range cmp.Incomplete {
+		e.warnf("%s: incomplete: %s", p.Observable, p.Reason)
+	}
+	if len(s.Entries) > 0 {
+		if err := emit(e, s, cf.format, cf.output); err != nil {
+			return err
+		}
+	}
+	if len(cmp.Incomplete) > 0 {
+		if len(s.Entries) == 0 {
+			return refused(errors.New("incomplete: no observable has every team's table in the common map yet"))
+		}
+		return refused(fmt.Errorf("incomplete: %d of %d observables cannot be compared yet", len(cmp.Incomplete), len(c.Protocol.Observables)))
+	}
+	if !s.Pass() {
+		return silentFail
+	}
+	return nil
+}
+
+const statusHelp = `Usage:
+    tandem status DIR [--format text|json]
+
+Shows where the campaign stands: each observable's state (waiting for
+seals, sealed, open for comparison, unblinded) with each team's sealed
+version, every sign-off, and the next action of each party.
+`
+
+func runStatus(e *env, args []string) error {
+	fs := newFlags(e, "status", statusHelp)
+	var format string
+	fs.StringVar(&format, "format", "text", "output `FORMAT`: text or json")
+	c, err := campaignArgs(fs, args, "status")
+	if err != nil {
+		return err
+	}
+	if format != "text" && format != "json" {
+		return usageErr("--format %q is not text or json", format)
+	}
+	s, err := c.Status()
+	if err != nil {
+		return campaignErr(err)
+	}
+	if format == "json" {
+		b, err := json.MarshalIndent(s, "", "  ")
+		if err != nil {
+			return err
+		}
+		_, err = e.stdout.Write(append(b, '\n'))
+		return err
+	}
+	w := e.stdout
+	fmt.Fprintf(w, "campaign %s: %s\n", s.Campaign, s.State)
+	for _, o := range s.Observables {
+		var teams []string
+		for _, t := range o.Teams {
+			switch {
+			case t.Version == 0:
+				teams = append(teams, t.Team+" missing")
+			default:
+				teams = append(teams, fmt.Sprintf("%s v%d (%s)", t.Team, t.Version, publishedWord(t.Published)))
+			}
+		}
+		state := o.State
+		if o.State == campaign.StateOpen || o.State == campaign.StateUnblinded {
+			state += fmt.Sprintf(" round %d, %s", o.Round, o.Verdict)
+		}
+		fmt.Fprintf(w, "  %-24s %-28s %s\n", o.Name, state, strings.Join(teams, ", "))
+	}
+	for _, so := range s.Signoffs {
+		switch {
+		case !so.Present:
+			fmt.Fprintf(w, "  sign-off %-15s missing\n", so.Party)
+		case so.Valid:
+			fmt.Fprintf(w, "  sign-off %-15s valid (%s)\n", so.Party, so.Statement.Verdict)
+		case so.Stale:
+			fmt.Fprintf(w, "  sign-off %-15s stale\n", so.Party)
+		default:
+			fmt.Fprintf(w, "  sign-off %-15s INVALID: %s\n", so.Party, so.Problems[0])
+		}
+	}
+	for _, n := range s.Notes {
+		fmt.Fprintf(w, "  note: %s\n", n)
+	}
+	for _, p := range s.Problems {
+		fmt.Fprintf(w, "  problem: %s\n", p)
+	}
+	for _, a := range s.Next {
+		fmt.Fprintf(w, "  next: %s\n", a)
+	}
+	return nil
+}
+
+func publishedWord(p string) string {
+	switch p {
+	case "common":
+		return "blinded, common map"
+	case "team":
+		return "blinded, own map"
+	}
+	return "sealed, not blinded"
+}
+
+const verifyHelp = `Usage:
+    tandem verify DIR
+
+Checks everything anyone can check without secrets: the ledger chain, the
+order of its entries and every entry's signature by the key the protocol
+gives its actor, the protocol lock, every file digest, every sign-off
+signature, and after unblinding the quorum, the key against its
+commitment, each true table against its seal-time commitment and each
+blinded table recomputed from the true table and key. Exit 0 only if
+everything holds; otherwise every problem is named (exit 1).
+`
+
+func runVerify(e *env, args []string) error {
+	fs := newFlags(e, "verify", verifyHelp)
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	dir, err := oneDir(pos, "verify")
+	if err != nil {
+		return err
+	}
+	if _, err := os.Stat(filepath.Join(dir, campaign.ProtocolFile)); err != nil {
+		return inputErr(fmt.Errorf("%s: not a campaign folder (no %s)", dir, campaign.ProtocolFile))
+	}
+	r := campaign.Verify(dir)
+	for _, n := range r.Notes {
+		fmt.Fprintf(e.stdout, "note: %s\n", n)
+	}
+	for _, p := range r.Problems {
+		fmt.Fprintf(e.stdout, "problem: %s\n", p)
+	}
+	if !r.OK() {
+		return refused(fmt.Errorf("verification failed: %d problem(s)", len(r.Problems)))
+	}
+	fmt.Fprintln(e.stdout, "verified: every check holds")
+	return nil
+}
+
+const reportHelp = `Usage:
+    tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
+
+Renders the campaign's comparison (blinded tables before unblinding, true
+tables after). Without --format, writes every format under DIR/reports/
+(campaign.* before unblinding, final.* after, the same files unblind
+writes). "tandem compare DIR" only prints.
+`
+
+func runReport(e *env, args []string) error {
+	fs := newFlags(e, "report", reportHelp)
+	var format, output string
+	fs.StringVar(&format, "format", "", "one `FORMAT`: html, markdown, junit, json or text")
+	stringVar(fs, &output, []string{"o", "output"}, "", "write to `FILE` instead of stdout")
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	dir, err := oneDir(pos, "report")
+	if err != nil {
+		return err
+	}
+	if format != "" && !slices.Contains(report.Formats, format) {
+		return usageErr("--format %q is not one of %s", format, strings.Join(report.Formats, ", "))
+	}
+	if format == "" && output != "" {
+		return usageErr("-o needs --format")
+	}
+	c, err := openCampaign(dir)
+	if err != nil {
+		return err
+	}
+	if format == "" {
+		var files []string
+		if c.Unblinded() {
+			files, err = c.WriteFinalReports()
+		} else {
+			files, err = c.WriteBlindedReports()
+		}
+		if err != nil {
+			return campaignErr(err)
+		}
+		e.infof("wrote %s", strings.Join(files, ", "))
+		return nil
+	}
+	if c.Unblinded() {
+		s, err := c.FinalSummary()
+		if err != nil {
+			return campaignErr(err)
+		}
+		return emit(e, s, format, output)
+	}
+	s, cmp, err := c.BlindedSummary()
+	if err != nil {
+		return campaignErr(err)
+	}
+	for _, p := range cmp.Incomplete {
+		e.warnf("%s: incomplete: %s", p.Observable, p.Reason)
+	}
+	return emit(e, s, format, output)
+}

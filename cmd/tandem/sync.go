@@ -1,0 +1,319 @@
+package main
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"slices"
+	"strconv"
+	"strings"
+
+	"tandem/blind/safefile"
+	"tandem/compare/events"
+	"tandem/compare/table"
+	"tandem/report"
+)
+
+const syncHelp = `Usage:
+    tandem sync A B --key COL[,COL…] [flags]
+    tandem sync merge SUMMARY… [--format F] [-o FILE] [--overlap-out FILE]
+
+Matches the events of two event tables by their key columns, compares the
+variables of the common events within tolerance, and compares the two cut
+flows with McNemar's exact test on the events one chain keeps and the other
+drops. A and B are CSV or TSV files (header row), Parquet files (.parquet)
+or ROOT trees (file.root:tree, file.root:dir/tree).
+
+Variables: --var names them (repeatable); otherwise every numeric column
+both tables have that is not a key or a cut. Tolerance per variable:
+--tol NAME=ABS[,REL] means |a-b| <= max(ABS, REL*max(|a|,|b|)); the default
+is ABS 0, REL 1e-9.
+
+For batch systems: run sync on each partition of the data (for example a
+run range) with --summary-out, then "tandem sync merge" the summaries: every
+count, discordant count and histogram adds exactly.
+
+Example:
+    tandem sync heron.csv otter.parquet --key run,event --cuts trigger,quality,fiducial \
+        --tol energy=0,1e-6 --bin-var energy --bin-edges 0,10,20,50 --overlap-out rho.csv
+`
+
+type syncFlags struct {
+	keys, cuts, edges, binVar string
+	vars, tols                listFlag
+	format, output            string
+	overlapOut, unmatchedOut  string
+	summaryOut, tempDir       string
+	labelA, labelB            string
+	alpha, cl                 float64
+	memMB                     int
+}
+
+func runSync(e *env, args []string) error {
+	if len(args) > 0 && args[0] == "merge" {
+		return runSyncMerge(e, args[1:])
+	}
+	fs := newFlags(e, "sync", syncHelp)
+	var sf syncFlags
+	fs.StringVar(&sf.keys, "key", "", "key `COLUMNS`, comma-separated (for example run,event)")
+	fs.Var(&sf.vars, "var", "variable `NAME` to compare (repeatable; default all common numeric columns)")
+	fs.StringVar(&sf.cuts, "cuts", "", "cut `COLUMNS` in selection order, comma-separated (booleans or 0/1)")
+	fs.Var(&sf.tols, "tol", "tolerance `NAME=ABS[,REL]` of one variable (repeatable)")
+	fs.Float64Var(&sf.alpha, "alpha", events.DefaultAlpha, "family-wise false-alarm rate `A` of the cut-flow tests")
+	fs.Float64Var(&sf.cl, "cl", events.DefaultCL, "confidence level of the Clopper-Pearson efficiency intervals")
+	fs.StringVar(&sf.binVar, "bin-var", "", "binning variable `NAME` for the per-bin overlap")
+	fs.StringVar(&sf.edges, "bin-edges", "", "bin `EDGES`, comma-separated and increasing")
+	fs.StringVar(&sf.overlapOut, "overlap-out", "", "write the per-bin overlap (lo,hi,n_a,n_b,n_common,rho) to `FILE`")
+	fs.StringVar(&sf.unmatchedOut, "unmatched-out", "", "write every unmatched key (side,keys…,position) to `FILE`")
+	fs.StringVar(&sf.summaryOut, "summary-out", "", "write the summary for \"tandem sync merge\" to `FILE`")
+	fs.StringVar(&sf.format, "format", "text", "output `FORMAT`: text, json or html")
+	stringVar(fs, &sf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout")
+	fs.StringVar(&sf.labelA, "label-a", "", "name of chain A in the report (default: the file name)")
+	fs.StringVar(&sf.labelB, "label-b", "", "name of chain B in the report")
+	fs.StringVar(&sf.tempDir, "temp-dir", "", "`DIR` for spilling unsorted inputs (default the system's)")
+	fs.IntVar(&sf.memMB, "mem", 256, "`MB` of rows held in memory before spilling unsorted inputs")
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) != 2 {
+		return withHint(usageErr("sync wants two event tables, got %d arguments", len(pos)),
+			"tandem sync A.csv B.csv --key run,event")
+	}
+	opt, err := sf.options()
+	if err != nil {
+		return err
+	}
+	outs := []string{sf.output, sf.overlapOut, sf.unmatchedOut, sf.summaryOut}
+	if err := checkOutputs(pos, outs); err != nil {
+		return err
+	}
+	var tabs [2]events.Table
+	for i, p := range pos {
+		t, err := events.Open(p, treeFuncs)
+		if err != nil {
+			return inputErr(err)
+		}
+		tabs[i] = t
+	}
+	var unmatched bytes.Buffer
+	if sf.unmatchedOut != "" {
+		opt.Unmatched = &unmatched
+	}
+	s, err := events.Sync(tabs[0], tabs[1], opt)
+	if err != nil {
+		var te *table.Error
+		if errors.As(err, &te) {
+			return inputErr(err)
+		}
+		return withHint(inputErr(err), "tandem sync -h lists the flags")
+	}
+	r := events.Evaluate(s)
+	if sf.summaryOut != "" {
+		if err := safefile.WriteFrom(sf.summaryOut, 0o644, func(w io.Writer) error { return events.WriteSummary(w, s) }); err != nil {
+			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", sf.summaryOut, err)}
+		}
+	}
+	if sf.unmatchedOut != "" {
+		if err := safefile.Write(sf.unmatchedOut, unmatched.Bytes(), 0o644); err != nil {
+			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", sf.unmatchedOut, err)}
+		}
+	}
+	return finishSync(e, r, sf.format, sf.output, sf.overlapOut)
+}
+
+// checkOutputs refuses an output that is also an input or another output.
+func checkOutputs(inputs, outs []string) error {
+	for i, o := range outs {
+		if o == "" {
+			continue
+		}
+		for _, p := range inputs {
+			if sameFile(strings.SplitN(p, ".root:", 2)[0], o) {
+				return usageErr("output %s is also an input", o)
+			}
+		}
+		for _, o2 := range outs[:i] {
+			if o2 != "" && sameFile(o, o2) {
+				return usageErr("%s is named as two outputs", o)
+			}
+		}
+	}
+	return nil
+}
+
+func finishSync(e *env, r *events.Result, format, output, overlapOut string) error {
+	if overlapOut != "" {
+		if r.Binning == nil {
+			return usageErr("--overlap-out needs --bin-var and --bin-edges")
+		}
+		if err := safefile.WriteFrom(overlapOut, 0o644, r.WriteOverlap); err != nil {
+			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", overlapOut, err)}
+		}
+	}
+	st := report.Style{Color: output == "" && format == "text" && colorOK(e.stdout)}
+	if output == "" {
+		var buf bytes.Buffer
+		if err := report.RenderSync(&buf, format, r, st); err != nil {
+			return err
+		}
+		if _, err := e.stdout.Write(buf.Bytes()); err != nil {
+			return err
+		}
+	} else {
+		if err := safefile.WriteFrom(output, 0o644, func(w io.Writer) error { return report.RenderSync(w, format, r, st) }); err != nil {
+			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", output, err)}
+		}
+		e.infof("%s: wrote %s report (%s)", output, format, map[bool]string{true: "pass", false: "fail"}[r.Pass])
+	}
+	if !r.Pass {
+		return silentFail
+	}
+	return nil
+}
+
+func splitList(s string) []string {
+	if strings.TrimSpace(s) == "" {
+		return nil
+	}
+	var out []string
+	for _, f := range strings.Split(s, ",") {
+		out = append(out, strings.TrimSpace(f))
+	}
+	return out
+}
+
+// options checks the flags before any file is read.
+func (sf *syncFlags) options() (events.Options, error) {
+	var o events.Options
+	if !slices.Contains(report.SyncFormats, sf.format) {
+		return o, usageErr("--format %q is not one of %s", sf.format, strings.Join(report.SyncFormats, ", "))
+	}
+	keys := splitList(sf.keys)
+	if len(keys) == 0 {
+		return o, withHint(usageErr("sync needs --key"), "name the columns that identify an event, e.g. --key run,event")
+	}
+	o.Layout = events.Layout{Keys: keys, Vars: sf.vars, Cuts: splitList(sf.cuts)}
+	for _, list := range [][]string{keys, o.Layout.Cuts} {
+		for _, n := range list {
+			if n == "" {
+				return o, usageErr("empty column name in --key or --cuts")
+			}
+		}
+	}
+	o.Tols = map[string]events.Tolerance{}
+	for _, t := range sf.tols {
+		name, spec, ok := strings.Cut(t, "=")
+		if !ok || name == "" {
+			return o, usageErr("--tol wants NAME=ABS[,REL], got %q", t)
+		}
+		parts := strings.Split(spec, ",")
+		if len(parts) > 2 {
+			return o, usageErr("--tol wants NAME=ABS[,REL], got %q", t)
+		}
+		var v [2]float64
+		for i, p := range parts {
+			f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+			if err != nil || f < 0 || math.IsNaN(f) || math.IsInf(f, 0) {
+				return o, usageErr("--tol %s: %q is not a finite number >= 0", name, p)
+			}
+			v[i] = f
+		}
+		if _, dup := o.Tols[name]; dup {
+			return o, usageErr("--tol given twice for %s", name)
+		}
+		o.Tols[name] = events.Tolerance{Abs: v[0], Rel: v[1]}
+	}
+	if !(sf.alpha > 0 && sf.alpha < 1) {
+		return o, usageErr("--alpha must lie in (0, 1), got %v", sf.alpha)
+	}
+	if !(sf.cl > 0 && sf.cl < 1) {
+		return o, usageErr("--cl must lie in (0, 1), got %v", sf.cl)
+	}
+	o.Alpha, o.CL = sf.alpha, sf.cl
+	if (sf.binVar == "") != (sf.edges == "") {
+		return o, usageErr("--bin-var and --bin-edges go together")
+	}
+	if sf.overlapOut != "" && sf.binVar == "" {
+		return o, usageErr("--overlap-out needs --bin-var and --bin-edges")
+	}
+	if sf.binVar != "" {
+		var edges []float64
+		for _, p := range splitList(sf.edges) {
+			f, err := strconv.ParseFloat(p, 64)
+			if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+				return o, usageErr("--bin-edges: %q is not a finite number", p)
+			}
+			edges = append(edges, f)
+		}
+		if len(edges) < 2 {
+			return o, usageErr("--bin-edges needs at least two edges")
+		}
+		for i := 1; i < len(edges); i++ {
+			if !(edges[i] > edges[i-1]) {
+				return o, usageErr("--bin-edges must increase (%v after %v)", edges[i], edges[i-1])
+			}
+		}
+		o.Binning = &events.Binning{Var: sf.binVar, Edges: edges}
+	}
+	if sf.memMB < 1 {
+		return o, usageErr("--mem must be at least 1")
+	}
+	o.MemBudget = int64(sf.memMB) << 20
+	o.TempDir, o.LabelA, o.LabelB = sf.tempDir, sf.labelA, sf.labelB
+	return o, nil
+}
+
+func runSyncMerge(e *env, args []string) error {
+	fs := newFlags(e, "sync merge", syncHelp)
+	var format, output, overlapOut string
+	fs.StringVar(&format, "format", "text", "output `FORMAT`: text, json or html")
+	stringVar(fs, &output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout")
+	fs.StringVar(&overlapOut, "overlap-out", "", "write the merged per-bin overlap to `FILE`")
+	var summaryOut string
+	fs.StringVar(&summaryOut, "summary-out", "", "write the merged summary to `FILE`")
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	if !slices.Contains(report.SyncFormats, format) {
+		return usageErr("--format %q is not one of %s", format, strings.Join(report.SyncFormats, ", "))
+	}
+	if len(pos) == 0 {
+		return withHint(usageErr("sync merge wants one or more summary files"), "write them with tandem sync … --summary-out FILE")
+	}
+	if err := checkOutputs(pos, []string{output, overlapOut, summaryOut}); err != nil {
+		return err
+	}
+	var parts []*events.Summary
+	for _, p := range pos {
+		data, err := os.ReadFile(p)
+		if err != nil {
+			return inputErr(table.Errorf(p, 0, 0, "%v", errors.Unwrap(err)))
+		}
+		s, err := events.ReadSummary(p, data)
+		if err != nil {
+			return inputErr(err)
+		}
+		parts = append(parts, s)
+	}
+	s, warns, err := events.Merge(parts, pos)
+	if err != nil {
+		return inputErr(err)
+	}
+	for _, w := range warns {
+		e.warnf("%s", w)
+	}
+	if summaryOut != "" {
+		if err := safefile.WriteFrom(summaryOut, 0o644, func(w io.Writer) error { return events.WriteSummary(w, s) }); err != nil {
+			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", summaryOut, err)}
+		}
+	}
+	return finishSync(e, events.Evaluate(s), format, output, overlapOut)
+}
+
+// treeFuncs reads ROOT trees for sync (compare/rootfile).
+var treeFuncs events.TreeFuncs

@@ -1,0 +1,469 @@
+package events
+
+import (
+	"bufio"
+	"bytes"
+	"io"
+	"math"
+	"os"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+	"unsafe"
+
+	"tandem/compare/table"
+)
+
+// csvTable is an event table in delimited text: a header row of column
+// names, then one row per event. Lines starting with '#' and blank lines
+// are ignored; fields are trimmed of blanks; there is no quoting, since
+// every field used is a number or a boolean.
+type csvTable struct {
+	path  string
+	delim byte
+	cols  []ColumnInfo
+	open  func() (io.ReadCloser, error)
+}
+
+// OpenCSV opens a CSV or TSV event table. It reads the header and the
+// first row (to tell the columns' kinds) and nothing more; [Table.Scan]
+// reads the file again from the start. A ".tsv" suffix or a header with
+// tabs and no commas selects tab separation.
+func OpenCSV(path string) (Table, error) {
+	fi, err := os.Stat(path)
+	if err != nil {
+		return nil, table.Errorf(path, 0, 0, "%v", unwrapPath(err))
+	}
+	if fi.IsDir() {
+		return nil, table.Errorf(path, 0, 0, "is a directory, not an event table")
+	}
+	t := &csvTable{path: path, open: func() (io.ReadCloser, error) { return os.Open(path) }}
+	if strings.HasSuffix(strings.ToLower(path), ".tsv") {
+		t.delim = '\t'
+	}
+	return t, t.readHead()
+}
+
+// NewCSV reads an event table from memory; name is used in messages.
+func NewCSV(name string, data []byte) (Table, error) {
+	t := &csvTable{path: name, open: func() (io.ReadCloser, error) {
+		return io.NopCloser(bytes.NewReader(data)), nil
+	}}
+	return t, t.readHead()
+}
+
+func unwrapPath(err error) error {
+	if pe, ok := err.(*os.PathError); ok {
+		return pe.Err
+	}
+	return err
+}
+
+func (t *csvTable) Name() string                   { return t.path }
+func (t *csvTable) Unit() string                   { return "line" }
+func (t *csvTable) Columns() ([]ColumnInfo, error) { return t.cols, nil }
+
+// lines calls fn for each line that is not blank or a comment, with its
+// 1-based number, until fn returns an error or the input ends.
+func (t *csvTable) lines(fn func(no int64, line []byte) error) error {
+	rc, err := t.open()
+	if err != nil {
+		return table.Errorf(t.path, 0, 0, "%v", unwrapPath(err))
+	}
+	defer rc.Close()
+	br := bufio.NewReaderSize(rc, 1<<20)
+	var no int64
+	var long []byte
+	for {
+		line, err := br.ReadSlice('\n')
+		if err == bufio.ErrBufferFull {
+			long = append(long[:0], line...)
+			for err == bufio.ErrBufferFull {
+				line, err = br.ReadSlice('\n')
+				long = append(long, line...)
+			}
+			line = long
+		}
+		if err != nil && err != io.EOF {
+			return table.Errorf(t.path, int(no+1), 0, "%v", err)
+		}
+		if len(line) == 0 && err == io.EOF {
+			return nil
+		}
+		no++
+		if n := len(line); n > 0 && line[n-1] == '\n' {
+			line = line[:n-1]
+		}
+		if n := len(line); n > 0 && line[n-1] == '\r' {
+			line = line[:n-1]
+		}
+		lead := 0
+		for lead < len(line) && (line[lead] == ' ' || line[lead] == '\t') {
+			lead++
+		}
+		if lead < len(line) && line[lead] != '#' {
+			if ferr := fn(no, line); ferr != nil {
+				return ferr
+			}
+		}
+		if err == io.EOF {
+			return nil
+		}
+	}
+}
+
+func (t *csvTable) readHead() error {
+	var header [][]byte
+	var starts []int
+	var headerNo int64
+	err := t.lines(func(no int64, line []byte) error {
+		if err := checkText(t.path, no, line); err != nil {
+			return err
+		}
+		if header == nil {
+			if t.delim == 0 {
+				t.delim = ','
+				if bytes.IndexByte(line, '\t') >= 0 && bytes.IndexByte(line, ',') < 0 {
+					t.delim = '\t'
+				}
+			}
+			header, starts = splitFields(line, t.delim)
+			headerNo = no
+			seen := map[string]int{}
+			for k, h := range header {
+				if len(h) == 0 {
+					return table.Errorf(t.path, int(no), starts[k]+1, "empty column name")
+				}
+				if prev, dup := seen[string(h)]; dup {
+					return table.Errorf(t.path, int(no), starts[k]+1, "duplicate column %q (first at column %d)", h, starts[prev]+1)
+				}
+				seen[string(h)] = k
+				t.cols = append(t.cols, ColumnInfo{Name: string(h)})
+			}
+			return nil
+		}
+		fields, fstarts := splitFields(line, t.delim)
+		if len(fields) != len(header) {
+			return raggedErr(t.path, no, line, fields, fstarts, len(header))
+		}
+		for k, f := range fields {
+			t.cols[k].Kind = kindOf(f)
+		}
+		return errStop
+	})
+	switch {
+	case err == errStop:
+		return nil
+	case err != nil:
+		return err
+	case header == nil:
+		return table.Errorf(t.path, 0, 0, "empty table: no header row")
+	}
+	return table.Errorf(t.path, int(headerNo), 0, "table has a header but no rows")
+}
+
+// kindOf guesses a column's kind from one field.
+func kindOf(f []byte) Kind {
+	if _, ok := parseInt(f); ok {
+		return Int
+	}
+	if _, ok := parseBool(f); ok {
+		return Bool
+	}
+	if _, ok := parseFloat(f); ok {
+		return Float
+	}
+	return Other
+}
+
+// field roles in a scan
+const (
+	skip = iota
+	asKey
+	asVar
+	asCut
+)
+
+func (t *csvTable) Scan(l Layout, fn func(*Batch) error) error {
+	role := make([]uint8, len(t.cols))
+	dest := make([]int, len(t.cols))
+	for k, c := range t.cols {
+		for _, set := range []struct {
+			names []string
+			role  uint8
+		}{{l.Keys, asKey}, {l.Vars, asVar}, {l.Cuts, asCut}} {
+			for j, n := range set.names {
+				if n == c.Name {
+					role[k], dest[k] = set.role, j
+				}
+			}
+		}
+	}
+	nk, nv := len(l.Keys), len(l.Vars)
+	b := &Batch{}
+	header := true
+	keys := make([]int64, nk)
+	vals := make([]float64, nv)
+	err := t.lines(func(no int64, line []byte) error {
+		if header {
+			header = false
+			return nil
+		}
+		var cuts uint64
+		k, pos := 0, 0
+		for {
+			if k >= len(t.cols) {
+				return t.rowErr(no, line)
+			}
+			start, stop, end := nextField(line, pos, t.delim)
+			f := line[start:stop]
+			switch role[k] {
+			case asKey:
+				v, ok := parseInt(f)
+				if !ok {
+					return t.fieldErr(no, line, start, k, "key column %q: %s is not an integer", f)
+				}
+				keys[dest[k]] = v
+			case asVar:
+				v, ok := parseFloat(f)
+				if !ok {
+					return t.fieldErr(no, line, start, k, "column %q: cannot parse %s as a number", f)
+				}
+				vals[dest[k]] = v
+			case asCut:
+				v, ok := parseBool(f)
+				if !ok {
+					return t.fieldErr(no, line, start, k, "cut column %q: %s is not 0, 1, true or false", f)
+				}
+				if v {
+					cuts |= 1 << dest[k]
+				}
+			}
+			k++
+			if end >= len(line) {
+				break
+			}
+			pos = end + 1
+		}
+		if k != len(t.cols) {
+			return t.rowErr(no, line)
+		}
+		b.Keys = append(b.Keys, keys...)
+		b.Vals = append(b.Vals, vals...)
+		b.Cuts = append(b.Cuts, cuts)
+		b.Pos = append(b.Pos, no)
+		b.N++
+		if b.N == BatchRows {
+			if err := fn(b); err != nil {
+				return err
+			}
+			b.reset()
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	if b.N > 0 {
+		return fn(b)
+	}
+	return nil
+}
+
+// fieldErr reports a field that does not parse, after checking that the
+// line is text and has the right number of fields (the likelier cause).
+func (t *csvTable) fieldErr(no int64, line []byte, start, k int, format string, f []byte) error {
+	if err := checkText(t.path, no, line); err != nil {
+		return err
+	}
+	if fields, _ := splitFields(line, t.delim); len(fields) != len(t.cols) {
+		return t.rowErr(no, line)
+	}
+	return table.Errorf(t.path, int(no), start+1, format, t.cols[k].Name, strconv.Quote(string(f)))
+}
+
+func (t *csvTable) rowErr(no int64, line []byte) error {
+	if err := checkText(t.path, no, line); err != nil {
+		return err
+	}
+	fields, starts := splitFields(line, t.delim)
+	return raggedErr(t.path, no, line, fields, starts, len(t.cols))
+}
+
+func raggedErr(name string, no int64, line []byte, fields [][]byte, starts []int, want int) error {
+	col := len(line) + 1
+	if len(fields) > want {
+		col = starts[want] + 1
+	}
+	return table.Errorf(name, int(no), col, "row has %d fields, header has %d", len(fields), want)
+}
+
+// checkText refuses a line with a NUL byte or invalid UTF-8.
+func checkText(name string, no int64, line []byte) error {
+	if i := bytes.IndexByte(line, 0); i >= 0 {
+		return table.Errorf(name, int(no), i+1, "binary data (NUL byte); expected a CSV or TSV table")
+	}
+	if !utf8.Valid(line) {
+		col := 1
+		for col <= len(line) {
+			r, size := utf8.DecodeRune(line[col-1:])
+			if r == utf8.RuneError && size <= 1 {
+				break
+			}
+			col += size
+		}
+		return table.Errorf(name, int(no), col, "invalid UTF-8; expected a text table")
+	}
+	return nil
+}
+
+// nextField finds the field that begins at pos: its extent [start, stop)
+// without surrounding blanks and the position end of the delimiter after
+// it (len(line) for the last field).
+func nextField(line []byte, pos int, delim byte) (start, stop, end int) {
+	if i := bytes.IndexByte(line[pos:], delim); i >= 0 {
+		end = pos + i
+	} else {
+		end = len(line)
+	}
+	start, stop = pos, end
+	for start < stop && (line[start] == ' ' || line[start] == '\t') {
+		start++
+	}
+	for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
+		stop--
+	}
+	return start, stop, end
+}
+
+func splitFields(line []byte, delim byte) (fields [][]byte, starts []int) {
+	pos := 0
+	for {
+		start, stop, end := nextField(line, pos, delim)
+		fields = append(fields, line[start:stop])
+		starts = append(starts, start)
+		if end >= len(line) {
+			return fields, starts
+		}
+		pos = end + 1
+	}
+}
+
+// parseInt parses a decimal integer that fits in int64.
+func parseInt(f []byte) (int64, bool) {
+	i, neg := 0, false
+	if len(f) > 0 && (f[0] == '-' || f[0] == '+') {
+		neg, i = f[0] == '-', 1
+	}
+	if i == len(f) || len(f)-i > 19 {
+		if len(f)-i > 19 {
+			v, err := strconv.ParseInt(string(f), 10, 64)
+			return v, err == nil
+		}
+		return 0, false
+	}
+	var m uint64
+	for ; i < len(f); i++ {
+		c := f[i] - '0'
+		if c > 9 {
+			return 0, false
+		}
+		m = m*10 + uint64(c)
+	}
+	if neg {
+		if m > 1<<63 {
+			return 0, false
+		}
+		return -int64(m), true
+	}
+	if m >= 1<<63 {
+		return 0, false
+	}
+	return int64(m), true
+}
+
+func parseBool(f []byte) (bool, bool) {
+	switch string(f) {
+	case "1", "true", "True", "TRUE":
+		return true, true
+	case "0", "false", "False", "FALSE":
+		return false, true
+	}
+	return false, false
+}
+
+// exact10 holds the powers of ten that float64 represents exactly.
+var exact10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// parseFloat parses a number. Plain decimals with an optional exponent,
+// m·10^e with an integer m < 2⁵³ and |e| <= 22, are computed as one
+// correctly rounded multiplication or division of two exact float64s
+// (Clinger's fast path: W. D. Clinger, "How to read floating point numbers
+// accurately", PLDI 1990); everything else, including "nan" and "inf",
+// goes to strconv.ParseFloat.
+func parseFloat(f []byte) (float64, bool) {
+	i, neg := 0, false
+	if len(f) > 0 && (f[0] == '-' || f[0] == '+') {
+		neg, i = f[0] == '-', 1
+	}
+	var m uint64
+	digits, exp := 0, 0
+	start := i
+	for i < len(f) && f[i]-'0' <= 9 {
+		m = m*10 + uint64(f[i]-'0')
+		i++
+	}
+	digits = i - start
+	if i < len(f) && f[i] == '.' {
+		i++
+		fs := i
+		for i < len(f) && f[i]-'0' <= 9 {
+			m = m*10 + uint64(f[i]-'0')
+			i++
+		}
+		digits += i - fs
+		exp = -(i - fs)
+	}
+	if digits > 0 && i < len(f) && (f[i] == 'e' || f[i] == 'E') {
+		j, eneg := i+1, false
+		if j < len(f) && (f[j] == '-' || f[j] == '+') {
+			eneg, j = f[j] == '-', j+1
+		}
+		e, es := 0, j
+		for j < len(f) && f[j]-'0' <= 9 && j-es < 4 {
+			e = e*10 + int(f[j]-'0')
+			j++
+		}
+		if j > es {
+			if eneg {
+				e = -e
+			}
+			exp += e
+			i = j
+		}
+	}
+	if i == len(f) && digits > 0 && digits <= 19 && m < 1<<53 && exp >= -22 && exp <= 22 {
+		v := float64(m)
+		if exp < 0 {
+			v /= exact10[-exp]
+		} else {
+			v *= exact10[exp]
+		}
+		if neg {
+			v = -v
+		}
+		return v, true
+	}
+	if len(f) == 0 {
+		return 0, false
+	}
+	v, err := strconv.ParseFloat(unsafe.String(&f[0], len(f)), 64)
+	if err != nil {
+		if ne, ok := err.(*strconv.NumError); ok && ne.Err == strconv.ErrRange {
+			return v, !math.IsNaN(v) // ±Inf or a denormal rounded to 0
+		}
+		return 0, false
+	}
+	return v, true
+}

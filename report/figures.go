@@ -1,0 +1,628 @@
+package report
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"slices"
+	"strings"
+	"unicode/utf8"
+
+	"tandem/compare"
+)
+
+// The figures are SVG drawn in a 1000-unit-wide coordinate system that the
+// page scales to its full width; text sizes are chosen so that tick labels
+// stay at least 12 px tall down to a 900 px wide page.
+const (
+	figW        = 1000.0
+	figLeft     = 96.0
+	figRight    = 24.0
+	tickFont    = 15.0
+	labelFont   = 16.0
+	maxDrawBins = 2000 // beyond this the overlay is decimated
+	drawGroups  = 1000 // the number of groups a decimated overlay draws
+)
+
+// Our palette: a dark indigo for side A (points) and a dark ochre for side
+// B (steps). They differ in hue for every common form of colour blindness
+// (blue against yellow) and by a factor of about seven in luminance, so
+// they stay apart in greyscale print; the two sides also differ in shape.
+const (
+	colorA    = "#2e2470"
+	colorB    = "#b07d0e"
+	colorBand = "#d3d6de" // combined uncertainty band of the ratio panel
+	colorBar  = "#66728a" // pulls within the limit
+	colorOut  = "#8a1c12" // pulls beyond the limit, limit lines, the normal curve
+	colorAxis = "#4a5263"
+)
+
+// frame is a plot area in an SVG of fixed size.
+type frame struct {
+	w, h, left, right, top, bottom float64
+	x0, x1, y0, y1                 float64
+	logX, logY                     bool
+	// xTicks, when set, limits the x ticks to this range (a histogram's
+	// overflow bars lie outside the axis proper).
+	xTicks *[2]float64
+}
+
+func (f *frame) px(x float64) float64 {
+	x0, x1 := f.x0, f.x1
+	if f.logX {
+		x, x0, x1 = math.Log10(math.Max(x, f.x0)), math.Log10(x0), math.Log10(x1)
+	}
+	return f.left + (x-x0)/(x1-x0)*(f.w-f.left-f.right)
+}
+
+func (f *frame) py(y float64) float64 {
+	y0, y1 := f.y0, f.y1
+	if f.logY {
+		y, y0, y1 = math.Log10(math.Max(y, f.y0)), math.Log10(y0), math.Log10(y1)
+	}
+	return f.h - f.bottom - (y-y0)/(y1-y0)*(f.h-f.top-f.bottom)
+}
+
+// clampY limits y to the plot range and says whether it was outside.
+func (f *frame) clampY(y float64) (float64, int) {
+	switch {
+	case y > f.y1:
+		return f.y1, 1
+	case y < f.y0:
+		return f.y0, -1
+	}
+	return y, 0
+}
+
+// open starts the SVG: frame, axes with ticks in one format each, the axis
+// labels (xlabel may be empty for panels that share the x axis of the one
+// below) and the panel title on the top left.
+func (f *frame) open(w io.Writer, class, label, title, xlabel, ylabel string) {
+	fmt.Fprintf(w, `<svg xmlns="http://www.w3.org/2000/svg" class="%s" width="%g" height="%g" viewBox="0 0 %g %g" role="img" aria-label="%s" font-size="%g" font-family="DejaVu Sans, Verdana, sans-serif" fill="#1c2430">`+"\n",
+		class, f.w, f.h, f.w, f.h, esc(label), labelFont)
+	fmt.Fprintf(w, `<rect x="%g" y="%g" width="%g" height="%g" fill="none" stroke="%s"/>`+"\n", f.left, f.top, f.w-f.left-f.right, f.h-f.top-f.bottom, colorAxis)
+	if title != "" {
+		fmt.Fprintf(w, `<text x="%g" y="%g" font-weight="bold">%s</text>`+"\n", f.left, f.top-10, esc(title))
+	}
+	xt := ticks(f.x0, f.x1, f.logX)
+	if f.xTicks != nil {
+		xt = ticks(f.xTicks[0], f.xTicks[1], f.logX)
+	}
+	xl, xm := tickLabels(xt, f.logX)
+	for i, t := range xt {
+		x := f.px(t)
+		fmt.Fprintf(w, `<line x1="%.1f" x2="%.1f" y1="%g" y2="%g" stroke="%s"/><text class="tick" x="%.1f" y="%g" text-anchor="middle" font-size="%g">%s</text>`+"\n",
+			x, x, f.h-f.bottom, f.h-f.bottom+6, colorAxis, x, f.h-f.bottom+23, tickFont, xl[i])
+	}
+	if xlabel != "" || xm != "" {
+		if xm != "" {
+			xlabel = strings.TrimSpace(xlabel + " " + xm)
+		}
+		fmt.Fprintf(w, `<text class="axis" x="%g" y="%g" text-anchor="middle">%s</text>`+"\n", (f.left+f.w-f.right)/2, f.h-12, esc(xlabel))
+	}
+	if f.logX {
+		for _, t := range minorTicks(f.x0, f.x1) {
+			x := f.px(t)
+			fmt.Fprintf(w, `<line x1="%.1f" x2="%.1f" y1="%g" y2="%g" stroke="%s"/>`, x, x, f.h-f.bottom, f.h-f.bottom+3, colorAxis)
+		}
+	}
+	if f.logY {
+		for _, t := range minorTicks(f.y0, f.y1) {
+			y := f.py(t)
+			fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`, f.left-3, f.left, y, y, colorAxis)
+		}
+	}
+	yt := ticks(f.y0, f.y1, f.logY)
+	yl, ym := tickLabels(yt, f.logY)
+	for i, t := range yt {
+		y := f.py(t)
+		fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/><text class="tick" x="%g" y="%.1f" text-anchor="end" font-size="%g">%s</text>`+"\n",
+			f.left-6, f.left, y, y, colorAxis, f.left-9, y+5, tickFont, yl[i])
+	}
+	if ym != "" {
+		ylabel = strings.TrimSpace(ylabel + " " + ym)
+	}
+	fmt.Fprintf(w, `<text class="axis" transform="translate(20,%g) rotate(-90)" text-anchor="middle">%s</text>`+"\n", (f.top+f.h-f.bottom)/2, esc(ylabel))
+}
+
+// group is a run of consecutive bins drawn as one: a single bin, or in a
+// decimated figure a block of k bins.
+type group struct{ first, last int }
+
+// groups splits n bins into drawn groups: one per bin up to maxDrawBins,
+// else about drawGroups blocks of equal size. k is the block size.
+func groups(n int) (gs []group, k int) {
+	k = 1
+	if n > maxDrawBins {
+		k = (n + drawGroups - 1) / drawGroups
+	}
+	for i := 0; i < n; i += k {
+		gs = append(gs, group{i, min(i+k, n) - 1})
+	}
+	return gs, k
+}
+
+func xFrame(e compare.Entry) (x0, x1 float64, logX bool) {
+	x0, x1 = e.Lo[0], e.Hi[e.Bins-1]
+	if x1 <= x0 {
+		x1 = x0 + 1
+	}
+	return x0, x1, x0 > 0 && x1/x0 > 100
+}
+
+// figure draws the three panels of one comparison that share the x axis:
+// the two chains' values, their ratio with the combined uncertainty band,
+// and the pulls.
+func figure(w io.Writer, id string, e compare.Entry, limit float64) {
+	a, b := e.Sides()
+	gs, k := groups(e.Bins)
+	overlaySVG(w, e, a, b, gs, k)
+	ratioSVG(w, e, a, b, gs, k)
+	pullsSVG(w, e, limit, gs, k)
+}
+
+func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
+	f := &frame{w: figW, h: 360, left: figLeft, right: figRight, top: 44, bottom: 44}
+	f.x0, f.x1, f.logX = xFrame(e)
+	lo, hi := math.Inf(1), math.Inf(-1)
+	posMin := math.Inf(1)
+	finite, positive := 0, 0
+	for i := 0; i < e.Bins; i++ {
+		for _, v := range [][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}} {
+			if math.IsNaN(v[0]) || math.IsInf(v[0], 0) {
+				continue
+			}
+			finite++
+			lo, hi = math.Min(lo, v[0]-v[1]), math.Max(hi, v[0]+v[1])
+			if v[0] > 0 {
+				positive++
+				posMin = math.Min(posMin, v[0])
+			}
+		}
+	}
+	if math.IsInf(lo, 0) || math.IsInf(hi, 0) {
+		lo, hi = 0, 1
+	}
+	// A log axis when the values span more than two decades and nearly
+	// all are positive; the others cannot be drawn on it and are counted.
+	if positive > 0 && float64(positive) >= 0.9*float64(finite) && hi/posMin > 100 {
+		f.logY, f.y0, f.y1 = true, math.Pow(10, math.Floor(math.Log10(posMin/2))), math.Pow(10, math.Ceil(math.Log10(hi)))
+	} else {
+		pad := 0.06 * (hi - lo)
+		if pad == 0 {
+			pad = math.Max(1, math.Abs(hi)*0.1)
+		}
+		f.y0, f.y1 = lo-pad, hi+pad
+	}
+	ylabel := e.YLabel
+	if ylabel == "" {
+		ylabel = e.Column
+	}
+	if e.Blinded {
+		ylabel += " (blinded)"
+	}
+	f.open(w, "overlay", "values of "+a+" and "+b, "", "", ylabel)
+	if f.logY && positive < finite {
+		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g">%d values ≤ 0 not drawn on the log axis</text>`+"\n", f.left+8, f.h-f.bottom-8, finite-positive)
+	}
+	// the legend, on the title row
+	la, lb := "value ± σ, bar = bin width", "step ± σ band"
+	if k > 1 {
+		la, lb = "band = lowest to highest value per group", "lines = lowest and highest"
+	}
+	fmt.Fprintf(w, `<text x="%g" y="%g"><tspan fill="%s">◇ %s: %s</tspan><tspan dx="18" fill="%s">▭ %s: %s</tspan></text>`+"\n",
+		f.left, f.top-10, colorA, esc(shorten(a, 28)), la, colorB, esc(shorten(b, 28)), lb)
+	if k > 1 {
+		overlayDecimated(w, f, e, gs)
+	} else {
+		overlayBins(w, f, e)
+	}
+	fmt.Fprintln(w, "</svg>")
+}
+
+// overlayBins draws B as a step with its ±σ band and A as open diamonds
+// with error bars and caps drawn on top, so a bar shorter than the marker
+// still shows through it.
+func overlayBins(w io.Writer, f *frame, e compare.Entry) {
+	ok := func(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) && (!f.logY || v > 0) }
+	var step strings.Builder
+	pen := false
+	for i := 0; i < e.Bins; i++ {
+		x0, x1 := f.px(e.Lo[i]), f.px(e.Hi[i])
+		v, s := e.B[i], e.ErrB[i]
+		if !ok(v) {
+			pen = false
+			continue
+		}
+		lo, _ := f.clampY(v - s)
+		hi, _ := f.clampY(v + s)
+		fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s" fill-opacity="0.28"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 0), colorB)
+		y := f.py(v)
+		if pen && i > 0 && e.Lo[i] == e.Hi[i-1] {
+			fmt.Fprintf(&step, " V%.1f H%.1f", y, x1)
+		} else {
+			fmt.Fprintf(&step, " M%.1f,%.1f H%.1f", x0, y, x1)
+		}
+		pen = true
+	}
+	if step.Len() > 0 {
+		fmt.Fprintf(w, `<path d="%s" fill="none" stroke="%s" stroke-width="2"/>`+"\n", strings.TrimSpace(step.String()), colorB)
+	}
+	binPx := (f.w - f.left - f.right) / float64(e.Bins)
+	r := math.Max(1.6, math.Min(6, binPx*0.3))
+	capW := math.Max(r+1.5, math.Min(7, binPx*0.4))
+	for i := 0; i < e.Bins; i++ {
+		v, s := e.A[i], e.ErrA[i]
+		if !ok(v) {
+			continue
+		}
+		x0, x1 := f.px(e.Lo[i]), f.px(e.Hi[i])
+		x, y := (x0+x1)/2, f.py(v)
+		lo, _ := f.clampY(v - s)
+		hi, _ := f.clampY(v + s)
+		fmt.Fprintf(w, `<path d="M%.1f,%.1f H%.1f" stroke="%s" stroke-width="1.5"/>`, x0, y, x1, colorA)
+		fmt.Fprintf(w, `<path d="M%.1f,%.1f l%.1f,%.1f l%.1f,%.1f l%.1f,%.1f z" fill="#fff" stroke="%s" stroke-width="1.6"/>`,
+			x, y-r, r, r, -r, r, -r, -r, colorA)
+		fmt.Fprintf(w, `<path d="M%.1f,%.1f V%.1f M%.1f,%.1f h%.1f M%.1f,%.1f h%.1f" stroke="%s" stroke-width="1.6"/>`+"\n",
+			x, f.py(lo), f.py(hi), x-capW/2, f.py(lo), capW, x-capW/2, f.py(hi), capW, colorA)
+	}
+}
+
+// overlayDecimated draws, per group of bins, the range from the lowest to
+// the highest value of each side: A as a filled band, B as two step lines.
+func overlayDecimated(w io.Writer, f *frame, e compare.Entry, gs []group) {
+	var lines [2]strings.Builder
+	for _, g := range gs {
+		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
+		aLo, aHi := extent(e.A[g.first : g.last+1])
+		bLo, bHi := extent(e.B[g.first : g.last+1])
+		if !math.IsInf(aLo, 0) && (!f.logY || aHi > 0) {
+			lo, _ := f.clampY(aLo)
+			hi, _ := f.clampY(aHi)
+			fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s" fill-opacity="0.7"/>`+"\n",
+				x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 1), colorA)
+		}
+		if !math.IsInf(bLo, 0) && (!f.logY || bHi > 0) {
+			for j, v := range []float64{bLo, bHi} {
+				y, _ := f.clampY(v)
+				if lines[j].Len() == 0 {
+					fmt.Fprintf(&lines[j], "M%.1f,%.1f H%.1f", x0, f.py(y), x1)
+				} else {
+					fmt.Fprintf(&lines[j], " V%.1f H%.1f", f.py(y), x1)
+				}
+			}
+		}
+	}
+	for _, l := range lines {
+		if l.Len() > 0 {
+			fmt.Fprintf(w, `<path d="%s" fill="none" stroke="%s" stroke-width="1.6"/>`+"\n", l.String(), colorB)
+		}
+	}
+}
+
+// extent returns the smallest and largest finite value of xs (±Inf when
+// there is none).
+func extent(xs []float64) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, x := range xs {
+		if !math.IsNaN(x) && !math.IsInf(x, 0) {
+			lo, hi = math.Min(lo, x), math.Max(hi, x)
+		}
+	}
+	return lo, hi
+}
+
+// ratioSVG draws b/a per bin over the band 1 ± σ_d/|a|, the combined
+// uncertainty of the difference relative to a: a point outside the band is
+// a pull beyond ±1. Bins with a = 0 have no ratio and are left out. Points
+// beyond the axis range are drawn as triangles on its edge.
+func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
+	f := &frame{w: figW, h: 200, left: figLeft, right: figRight, top: 30, bottom: 40}
+	f.x0, f.x1, f.logX = xFrame(e)
+	ratio := make([]float64, e.Bins)
+	band := make([]float64, e.Bins)
+	var devs, bands []float64
+	for i := range ratio {
+		ratio[i], band[i] = math.NaN(), math.NaN()
+		if e.A[i] == 0 || math.IsNaN(e.A[i]) || math.IsInf(e.A[i], 0) {
+			continue
+		}
+		ratio[i] = e.B[i] / e.A[i]
+		band[i] = e.SigmaDiff[i] / math.Abs(e.A[i])
+		if !math.IsInf(band[i], 0) && !math.IsNaN(band[i]) {
+			bands = append(bands, band[i])
+		}
+	}
+	for _, g := range gs {
+		lo, hi := extent(ratio[g.first : g.last+1])
+		if !math.IsInf(lo, 0) {
+			devs = append(devs, math.Max(math.Abs(lo-1), math.Abs(hi-1)))
+		}
+	}
+	// The axis covers every point, unless some lie more than three times
+	// as far from 1 as nine in ten of the points (49 in 50 when there are
+	// many) and of the band: such outliers would squash the others, and
+	// are marked on the edge instead. The band is cut at the edge.
+	q := 0.9
+	if len(gs) >= 100 {
+		q = 0.98
+	}
+	typical := math.Max(quantile(bands, q), quantile(devs, q))
+	half := math.Min(quantile(devs, 1), 3*typical)
+	half = math.Max(half, typical)
+	if half == 0 || math.IsInf(half, 0) || math.IsNaN(half) {
+		half = 0.01
+	}
+	f.y0, f.y1 = 1-1.1*half, 1+1.1*half
+	ylabel := "ratio"
+	if utf8.RuneCountInString(a+b) <= 14 {
+		ylabel = b + " / " + a
+	}
+	f.open(w, "ratio", "ratio "+b+" / "+a, "ratio "+shorten(b, 14)+" / "+shorten(a, 14)+", band = combined uncertainty", "", ylabel)
+	fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`+"\n", f.left, f.w-f.right, f.py(1), f.py(1), colorAxis)
+	over := 0
+	for _, g := range gs {
+		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
+		u := math.Inf(-1)
+		for _, v := range band[g.first : g.last+1] {
+			if !math.IsNaN(v) {
+				u = math.Max(u, v)
+			}
+		}
+		if !math.IsInf(u, 0) {
+			hi, _ := f.clampY(1 + u)
+			lo, _ := f.clampY(1 - u)
+			fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), f.py(lo)-f.py(hi), colorBand)
+		}
+	}
+	for _, g := range gs {
+		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
+		rLo, rHi := extent(ratio[g.first : g.last+1])
+		if math.IsInf(rLo, 0) {
+			continue
+		}
+		lo, s0 := f.clampY(rLo)
+		hi, s1 := f.clampY(rHi)
+		if k > 1 {
+			fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 1), colorB)
+		} else if s0 == 0 {
+			y := f.py(lo)
+			fmt.Fprintf(w, `<path d="M%.1f,%.1f H%.1f" stroke="%s" stroke-width="1.5"/><circle cx="%.1f" cy="%.1f" r="%.1f" fill="%s"/>`+"\n",
+				x0, y, x1, colorA, (x0+x1)/2, y, math.Max(1.5, math.Min(4, (x1-x0)*0.25)), colorA)
+		}
+		for _, s := range []int{s0, s1} {
+			if s != 0 {
+				over++
+				overflowMark(w, f, (x0+x1)/2, s)
+				break
+			}
+		}
+	}
+	if over > 0 {
+		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g" text-anchor="end">%d beyond the axis (▲▼)</text>`+"\n", f.w-f.right, f.top-10, over)
+	}
+	fmt.Fprintln(w, "</svg>")
+}
+
+// shorten keeps the last n-1 characters of a long name (the informative
+// end of a file path) after an ellipsis.
+func shorten(s string, n int) string {
+	r := []rune(s)
+	if len(r) <= n {
+		return s
+	}
+	return "…" + string(r[len(r)-n+1:])
+}
+
+// quantile returns the q-quantile of xs (the nearest rank), 0 for none.
+func quantile(xs []float64, q float64) float64 {
+	if len(xs) == 0 {
+		return 0
+	}
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	return s[min(len(s)-1, int(math.Ceil(q*float64(len(s))))-1+boolInt(q == 0))]
+}
+
+func boolInt(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// overflowMark draws a triangle on the top (side > 0) or bottom edge of the
+// plot, pointing out of it.
+func overflowMark(w io.Writer, f *frame, x float64, side int) {
+	if side > 0 {
+		y := f.top
+		fmt.Fprintf(w, `<path class="overflow" d="M%.1f,%.1f l6,11 h-12 z" fill="%s"/>`+"\n", x, y+1, colorOut)
+	} else {
+		y := f.h - f.bottom
+		fmt.Fprintf(w, `<path class="overflow" d="M%.1f,%.1f l6,-11 h-12 z" fill="%s"/>`+"\n", x, y-1, colorOut)
+	}
+}
+
+// pullRange is the half-range of the pull axis: wide enough for the limit
+// and the largest pull, but at most max(8, limit + 3); larger pulls are
+// marked as overflow.
+func pullRange(pulls []float64, limit float64) float64 {
+	m := math.Max(limit, 2)
+	for _, p := range pulls {
+		if !math.IsNaN(p) {
+			m = math.Max(m, math.Abs(p))
+		}
+	}
+	return math.Min(math.Ceil(m+0.5), math.Max(8, math.Ceil(limit)+3))
+}
+
+// pullsSVG draws the pull of each bin as a bar from zero, with the limit as
+// dashed lines. In a decimated figure each group shows its largest |pull|,
+// so no outlier disappears. Bars beyond the axis end in a triangle.
+func pullsSVG(w io.Writer, e compare.Entry, limit float64, gs []group, k int) {
+	m := pullRange(e.Pulls, limit)
+	f := &frame{w: figW, h: 230, left: figLeft, right: figRight, top: 30, bottom: 62, y0: -m, y1: m}
+	f.x0, f.x1, f.logX = xFrame(e)
+	f.open(w, "pulls", "pulls per bin", "pull per bin", e.XLabel, "(a − b) / σ_d")
+	fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`+"\n", f.left, f.w-f.right, f.py(0), f.py(0), colorAxis)
+	if limit > 0 && limit < m {
+		for _, s := range []float64{-limit, limit} {
+			fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s" stroke-dasharray="7 4"/>`+"\n", f.left, f.w-f.right, f.py(s), f.py(s), colorOut)
+		}
+	}
+	zero := map[int]bool{}
+	for _, z := range e.ZeroSigma {
+		zero[z] = true
+	}
+	var over []float64
+	for _, g := range gs {
+		p, ok := 0.0, false
+		for i := g.first; i <= g.last; i++ {
+			if !zero[i] && (!ok || math.Abs(e.Pulls[i]) > math.Abs(p)) {
+				p, ok = e.Pulls[i], true
+			}
+		}
+		if !ok || math.IsNaN(p) {
+			continue
+		}
+		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
+		c, side := f.clampY(p)
+		y := f.py(c)
+		top, h := math.Min(y, f.py(0)), math.Abs(y-f.py(0))
+		col := colorBar
+		if limit > 0 && math.Abs(p) > limit {
+			col = colorOut
+		}
+		gap := 0.5
+		if k > 1 || x1-x0 < 3 {
+			gap = 0
+		}
+		fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s"/>`+"\n", x0+gap, top, math.Max(x1-x0-2*gap, 0.4), h, col)
+		if side != 0 {
+			over = append(over, p)
+			overflowMark(w, f, (x0+x1)/2, side)
+		}
+	}
+	if len(over) > 0 {
+		worst := slices.MaxFunc(over, func(x, y float64) int {
+			return cmpFloat(math.Abs(x), math.Abs(y))
+		})
+		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g" text-anchor="end">%d beyond ±%s (largest %s) ▲▼</text>`+"\n",
+			f.w-f.right, f.top-10, len(over), num(m), num(worst))
+	}
+	fmt.Fprintln(w, "</svg>")
+}
+
+func cmpFloat(x, y float64) int {
+	switch {
+	case x < y:
+		return -1
+	case x > y:
+		return 1
+	}
+	return 0
+}
+
+// histSVG draws the distribution of the pulls (bins with zero combined
+// uncertainty left out) in steps of 0.5 over ±R, R = 5 widened up to 8 for
+// the largest pull, with the expected counts n·0.5·φ(x) of the unit
+// normal. Pulls beyond ±R are counted in hatched overflow bars outside the
+// axis. With logY the counts are on a log axis.
+func histSVG(w io.Writer, id string, e compare.Entry, logY bool) {
+	used := pullsUsed(e)
+	R := 5.0
+	for _, p := range used {
+		if a := math.Abs(p); a > R && !math.IsInf(a, 0) {
+			R = math.Min(8, math.Ceil(a))
+		}
+	}
+	const width = 0.5
+	nb := int(2 * R / width)
+	counts := make([]float64, nb)
+	var under, over float64
+	for _, p := range used {
+		switch {
+		case math.IsNaN(p):
+		case p < -R:
+			under++
+		case p >= R:
+			over++
+		default:
+			counts[min(nb-1, int((p+R)/width))]++
+		}
+	}
+	n := float64(len(used))
+	top := n * width / math.Sqrt(2*math.Pi)
+	for _, c := range append(slices.Clone(counts), under, over) {
+		top = math.Max(top, c)
+	}
+	x0, x1 := -R, R
+	if under > 0 {
+		x0 = -R - 2
+	}
+	if over > 0 {
+		x1 = R + 2
+	}
+	f := &frame{w: figW, h: 320, left: figLeft, right: figRight, top: 44, bottom: 62, x0: x0, x1: x1, y0: 0, y1: math.Max(top*1.15, 1), xTicks: &[2]float64{-R, R}}
+	class, label := "hist", "pull distribution"
+	if logY {
+		f.logY, f.y0, f.y1 = true, 0.5, math.Pow(10, math.Ceil(math.Log10(math.Max(top, 1)*3)))
+		class, label = "hist hist-log", "pull distribution (log scale)"
+	}
+	f.open(w, class, label, "pull distribution against N(0, 1)", "pull", "bins")
+	fmt.Fprintf(w, `<text x="%g" y="%g" text-anchor="end"><tspan fill="%s">▮ pulls (%d bins)</tspan><tspan dx="18" fill="%s">— expected for N(0, 1)</tspan></text>`+"\n",
+		f.w-f.right, f.top-10, colorBar, len(used), colorOut)
+	bar := func(lo, hi, c float64, fill, class string) {
+		if c <= 0 {
+			return
+		}
+		fmt.Fprintf(w, `<rect class="%s" x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s" stroke="%s"/>`+"\n",
+			class, f.px(lo), f.py(c), f.px(hi)-f.px(lo), f.py(f.y0)-f.py(c), fill, colorAxis)
+	}
+	for k, c := range counts {
+		bar(-R+float64(k)*width, -R+float64(k+1)*width, c, "#b9c0d0", "bin")
+	}
+	if under > 0 || over > 0 {
+		fmt.Fprintf(w, `<defs><pattern id="hatch-%s" width="8" height="8" patternUnits="userSpaceOnUse" patternTransform="rotate(45)"><rect width="8" height="8" fill="#fff"/><line x1="0" y1="0" x2="0" y2="8" stroke="%s" stroke-width="3"/></pattern></defs>`+"\n", id, colorOut)
+	}
+	for _, o := range []struct {
+		c, lo, hi  float64
+		text       string
+		at, anchor float64
+	}{{under, -R - 1.75, -R - 0.25, "< −" + num(R), -R - 1, 0}, {over, R + 0.25, R + 1.75, "> " + num(R), R + 1, 0}} {
+		if o.c == 0 {
+			continue
+		}
+		bar(o.lo, o.hi, o.c, "url(#hatch-"+id+")", "overflow")
+		fmt.Fprintf(w, `<text class="overflow-note" x="%.1f" y="%.1f" text-anchor="middle" font-size="%g">%s: %s</text>`+"\n",
+			f.px(o.at), f.py(o.c)-8, tickFont, esc(o.text), num(o.c))
+	}
+	var pts []string
+	for x := -R; x <= R+1e-9; x += 0.05 {
+		y := n * width * math.Exp(-x*x/2) / math.Sqrt(2*math.Pi)
+		if logY && y < f.y0 {
+			continue
+		}
+		pts = append(pts, fmt.Sprintf("%.1f,%.1f", f.px(x), f.py(y)))
+	}
+	fmt.Fprintf(w, `<polyline points="%s" fill="none" stroke="%s" stroke-width="2"/>`+"\n", strings.Join(pts, " "), colorOut)
+	fmt.Fprintln(w, "</svg>")
+}
+
+// pullsUsed returns the pulls of the bins that carry one.
+func pullsUsed(e compare.Entry) []float64 {
+	if len(e.ZeroSigma) == 0 {
+		return e.Pulls
+	}
+	zero := map[int]bool{}
+	for _, z := range e.ZeroSigma {
+		zero[z] = true
+	}
+	var out []float64
+	for i, p := range e.Pulls {
+		if !zero[i] {
+			out = append(out, p)
+		}
+	}
+	return out
+}
