@@ -168,9 +168,15 @@ func Child(stdin io.Reader, stdout io.Writer) (code int, served bool) {
 	switch req.Op {
 	case "hist":
 		t, err := readHist(req.Spec)
+		if err == nil && t.Len() > MaxBins {
+			err = table.Errorf(req.Spec, 0, 0, "%d bins, more than the %d tandem reads", t.Len(), MaxBins)
+		}
 		if err != nil {
 			fw.fail(req.Spec, err)
 		} else {
+			for i, n := range t.Notes {
+				t.Notes[i] = clean(n, 1000) // names from the file: keep the frame small
+			}
 			fw.table(t)
 		}
 	case "columns":
@@ -233,6 +239,10 @@ func startChild(req request) (*child, error) {
 	c := &child{spec: req.Spec, file: file, limits: lim}
 	c.cmd = exec.Command(exe)
 	c.cmd.Env = append(os.Environ(), childEnv+"="+strconv.Itoa(protoVersion), "GOTRACEBACK=single")
+	if os.Getenv("GORACE") == "" {
+		// a binary built with -race otherwise waits 1 s at every exit
+		c.cmd.Env = append(c.cmd.Env, "GORACE=atexit_sleep_ms=0")
+	}
 	c.cmd.Stdin = bytes.NewReader(body)
 	c.cmd.Stderr = &c.stderr
 	if c.stdout, err = c.cmd.StdoutPipe(); err != nil {
