@@ -181,9 +181,15 @@ func Child(stdin io.Reader, stdout io.Writer) (code int, served bool) {
 		}
 	case "columns":
 		cols, err := treeColumns(req.Spec)
+		var b []byte
+		if err == nil {
+			if b, err = json.Marshal(cols); err == nil && len(b) > maxMeta {
+				err = table.Errorf(req.Spec, 0, 0, "the tree's %d branches have names too long to list (more than %s)", len(cols), FormatSize(maxMeta))
+			}
+		}
 		if err != nil {
 			fw.fail(req.Spec, err)
-		} else if fw.json('c', cols) == nil {
+		} else if fw.frame('c', b) == nil {
 			fw.frame('z', nil)
 		}
 	case "tree":
@@ -206,14 +212,14 @@ func Child(stdin io.Reader, stdout io.Writer) (code int, served bool) {
 
 // child is a running decoding child as its parent sees it.
 type child struct {
-	spec, file string
-	limits     Limits
-	cmd        *exec.Cmd
-	stdout     io.ReadCloser
-	stderr     cappedBuffer
-	timer      *time.Timer
-	timedOut   atomic.Bool
-	started    time.Time
+	spec     string
+	limits   Limits
+	cmd      *exec.Cmd
+	stdout   io.ReadCloser
+	stderr   cappedBuffer
+	timer    *time.Timer
+	timedOut atomic.Bool
+	started  time.Time
 }
 
 // observe, when set (by tests), learns the peak memory and the time of
@@ -222,7 +228,6 @@ var observe func(spec string, maxRSS int64, took time.Duration)
 
 // startChild starts a child on req.
 func startChild(req request) (*child, error) {
-	file, _ := Split(req.Spec)
 	lim, err := currentLimits()
 	if err != nil {
 		return nil, err
@@ -236,7 +241,7 @@ func startChild(req request) (*child, error) {
 	if err != nil {
 		return nil, table.Errorf(req.Spec, 0, 0, "could not start the ROOT reader: %v", err)
 	}
-	c := &child{spec: req.Spec, file: file, limits: lim}
+	c := &child{spec: req.Spec, limits: lim}
 	c.cmd = exec.Command(exe)
 	c.cmd.Env = append(os.Environ(), childEnv+"="+strconv.Itoa(protoVersion), "GOTRACEBACK=single")
 	if os.Getenv("GORACE") == "" {

@@ -106,7 +106,7 @@ func TestTimeLimit(t *testing.T) {
 // TestCallerTimeIsNotTheChilds: a slow fn does not count against the
 // child's time limit, which only covers the gaps between its frames.
 func TestCallerTimeIsNotTheChilds(t *testing.T) {
-	SetLimits(Limits{Memory: DefaultLimits.Memory, Time: 2 * time.Second})
+	SetLimits(Limits{Memory: DefaultLimits.Memory, Time: 3 * time.Second})
 	defer func() { setLimits = nil }()
 	p := filepath.Join(t.TempDir(), "t.root")
 	if err := writeTree(p, "", 3*rowChunk, func(int, *event) {}); err != nil {
@@ -115,7 +115,7 @@ func TestCallerTimeIsNotTheChilds(t *testing.T) {
 	n := 0
 	err := ReadTree(p+":events", []string{"e"}, func([]float64) error {
 		if n++; n%rowChunk == 1 {
-			time.Sleep(1500 * time.Millisecond) // 4.5 s in all, more than the limit
+			time.Sleep(2 * time.Second) // 6 s in all, more than the limit
 		}
 		return nil
 	})
