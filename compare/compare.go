@@ -259,6 +259,11 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 	if cov && (opt.CovA.SymmetricDim() != n || opt.CovB.SymmetricDim() != n) {
 		return nil, fmt.Errorf("covariance matrices are %d×%d and %d×%d for %d bins", opt.CovA.SymmetricDim(), opt.CovA.SymmetricDim(), opt.CovB.SymmetricDim(), opt.CovB.SymmetricDim(), n)
 	}
+	if cov && opt.CovCross != nil {
+		if rr, cc := opt.CovCross.Dims(); rr != n || cc != n {
+			return nil, fmt.Errorf("cross-covariance is %d×%d for %d bins", rr, cc, n)
+		}
+	}
 	if c := e.Default; cov && opt.CovCross == nil && c.Set && c.Value != 0 {
 		cross, err := CrossFromCorrelation(opt.CovA, opt.CovB, c.Value)
 		if err != nil {
@@ -515,9 +520,6 @@ func covChi2(r *Result, opt *Options) (float64, float64, error) {
 	w := mat.NewSymDense(n, nil)
 	w.AddSym(opt.CovA, opt.CovB)
 	if opt.CovCross != nil {
-		if rr, cc := opt.CovCross.Dims(); rr != n || cc != n {
-			return 0, 0, fmt.Errorf("cross-covariance is %d×%d for %d bins", rr, cc, n)
-		}
 		for i := 0; i < n; i++ {
 			for j := i; j < n; j++ {
 				w.SetSym(i, j, w.At(i, j)-opt.CovCross.At(i, j)-opt.CovCross.At(j, i))
