@@ -96,6 +96,7 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 		}
 		work = append(work, p)
 	}
+	var entries []format.Entry
 	for _, p := range work {
 		digests := map[string]string{}
 		for rel, data := range p.files {
@@ -111,13 +112,17 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 			digests[rel] = format.Digest(data)
 			res.Files = append(res.Files, rel)
 		}
-		crashPoint("blind")
-		if err := c.appendEntry(format.Entry{Step: string(p.step), Actor: protocol.RoleCustodian, Files: digests, Data: p.data}, custodian); err != nil {
-			return res, err
-		}
+		entries = append(entries, format.Entry{Step: string(p.step), Actor: protocol.RoleCustodian, Files: digests, Data: p.data})
 		if p.step == StepOpen {
 			res.Opened = append(res.Opened, p.obs)
 		}
+	}
+	if err := c.root.Sync(res.Files); err != nil {
+		return res, err
+	}
+	crashPoint("blind")
+	if err := c.appendEntries(entries, custodian); err != nil {
+		return res, err
 	}
 	return res, nil
 }

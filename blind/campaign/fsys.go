@@ -140,24 +140,39 @@ func (r root) WriteAtomic(rel string, data []byte) error {
 	return syncDir(filepath.Dir(r.abs(rel)))
 }
 
-// CreateExclusive writes rel whole, only if it does not exist yet.
+// CreateExclusive writes rel, only if it does not exist yet, without
+// syncing: the caller calls [root.Sync] on what it wrote before the ledger
+// entry that commits it. A file torn by a crash is not in the ledger, and
+// the next step recognises and removes it.
 func (r root) CreateExclusive(rel string, data []byte, perm os.FileMode) error {
 	if err := r.check(rel); err != nil {
 		return err
 	}
-	tmp, err := r.writeTemp(rel, data, perm)
-	if err != nil {
+	if err := r.mkdirs(rel); err != nil {
 		return err
 	}
-	defer os.Remove(tmp)
-	if err := os.Link(tmp, r.abs(rel)); err != nil {
+	f, err := os.OpenFile(r.abs(rel), os.O_WRONLY|os.O_CREATE|os.O_EXCL|oNoFollow, perm)
+	if err != nil {
 		if errors.Is(err, fs.ErrExist) {
 			return fmt.Errorf("%s already exists; refusing to overwrite it", rel)
 		}
 		return err
 	}
-	return syncDir(filepath.Dir(r.abs(rel)))
+	if _, err := f.Write(data); err != nil {
+		f.Close()
+		os.Remove(r.abs(rel))
+		return err
+	}
+	if err := f.Close(); err != nil {
+		os.Remove(r.abs(rel))
+		return err
+	}
+	return nil
 }
+
+// Sync makes the files written with CreateExclusive durable, with their
+// folder entries.
+func (r root) Sync(rels []string) error { return r.sync(rels) }
 
 // Append adds data at the end of rel (created if missing) with O_APPEND,
 // then fsyncs it.
@@ -178,6 +193,24 @@ func (r root) Append(rel string, data []byte) error {
 		return err
 	}
 	return f.Close()
+}
+
+// Truncate cuts rel to size bytes and fsyncs it (only for the partial
+// last line an interrupted ledger append leaves, which was never
+// committed).
+func (r root) Truncate(rel string, size int64) error {
+	if err := r.check(rel); err != nil {
+		return err
+	}
+	f, err := os.OpenFile(r.abs(rel), os.O_WRONLY|oNoFollow, 0)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	if err := f.Truncate(size); err != nil {
+		return err
+	}
+	return f.Sync()
 }
 
 // Remove deletes rel.
@@ -240,6 +273,29 @@ func syncDir(dir string) error {
 	defer d.Close()
 	if err := d.Sync(); err != nil && !errors.Is(err, syscall.EINVAL) {
 		return err
+	}
+	return nil
+}
+
+// syncEach fsyncs every file and then every folder holding one.
+func syncEach(r root, rels []string) error {
+	dirs := map[string]bool{}
+	for _, rel := range rels {
+		f, err := os.OpenFile(r.abs(rel), os.O_RDWR|oNoFollow, 0)
+		if err != nil {
+			return err
+		}
+		err = f.Sync()
+		f.Close()
+		if err != nil {
+			return err
+		}
+		dirs[filepath.Dir(r.abs(rel))] = true
+	}
+	for d := range dirs {
+		if err := syncDir(d); err != nil {
+			return err
+		}
 	}
 	return nil
 }

@@ -149,6 +149,9 @@ func (c *Campaign) Sign(st *Statement, signer ssh.Signer) (statementPath string,
 	if err := c.root.CreateExclusive(gp, sig, 0o644); err != nil {
 		return "", err
 	}
+	if err := c.root.Sync([]string{sp, gp}); err != nil {
+		return "", err
+	}
 	crashPoint("sign")
 	data := map[string]string{"party": st.Party, "verdict": st.Verdict}
 	if st.Accepted != "" {
@@ -242,6 +245,13 @@ type SignoffStatus struct {
 
 // Signoffs checks the latest sign-off of every party (once per command).
 func (c *Campaign) Signoffs() []SignoffStatus {
+	if c.signoffs == nil {
+		c.signoffs = c.checkSignoffs()
+	}
+	return c.signoffs
+}
+
+func (c *Campaign) checkSignoffs() []SignoffStatus {
 	st := c.State()
 	var out []SignoffStatus
 	for _, q := range c.Protocol.Parties {

@@ -61,6 +61,9 @@ func Init(dir string, custodian ssh.Signer) (*Campaign, error) {
 	if err := c.root.CreateExclusive(KeyFile, sealedKey, 0o644); err != nil {
 		return nil, err
 	}
+	if err := c.root.Sync([]string{KeyFile}); err != nil {
+		return nil, err
+	}
 	com := k.Commitment(salt)
 	err = c.appendEntry(format.Entry{Step: string(StepInit), Actor: protocol.RoleCustodian,
 		Files: map[string]string{KeyFile: format.Digest(sealedKey), ProtocolFile: format.Digest(c.ProtocolBytes)},
@@ -191,6 +194,9 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 		res.Removed = append(res.Removed, rel)
 	}
 	if err := c.root.CreateExclusive(rel, ciphertext, 0o644); err != nil {
+		return nil, err
+	}
+	if err := c.root.Sync([]string{rel}); err != nil {
 		return nil, err
 	}
 	crashPoint("seal")

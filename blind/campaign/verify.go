@@ -41,6 +41,9 @@ func (c *Campaign) audit() *Report {
 	if p := c.protocolProblem(); p != nil {
 		r.Problems = append(r.Problems, *p)
 	}
+	if c.torn > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%s: an interrupted step left a partial last line (%d bytes, never committed); the next step removes it", LedgerFile, c.torn))
+	}
 	st := c.State()
 	r.Problems = append(r.Problems, st.Problems...)
 	r.Problems = append(r.Problems, c.verifyEntrySignatures()...)
