@@ -612,7 +612,7 @@ func numberVectors() []*vector {
 			"description", "binary64 bits (hex) and the one text a table number is written as"), payload: []byte(b.String())},
 		{name: "number-reject.txt", headers: hdr("kind", "number-reject", "expect", "non-canonical",
 			"description", "texts that read as a number but are not its canonical form: a reader refuses each"),
-			payload: []byte("1e6\n1e+6\n1E+06\n+1\n1.0\n01\n-0\n0.0\n.5\n5.\n1000000\n0.00001\n1.50\n0x10\nNaN\nInf\n-Inf\n1_000\n 1\n")},
+			payload: []byte("1e6\n1e+6\n1E+06\n+1\n1.0\n01\n-0\n0.0\n.5\n5.\n1000000\n0.00001\n1.50\n0x10\nNaN\nInf\n+Inf\n-Inf\n1_000\n 1\n")},
 	}
 }
 

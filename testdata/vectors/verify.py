@@ -257,7 +257,7 @@ STATEMENT_LINES = [
 
 def clean_text(s):
     bidi = {0x061C, 0x200E, 0x200F, 0x2028, 0x2029} | set(range(0x202A, 0x202F)) | set(range(0x2066, 0x206A))
-    return s != "" and s == s.strip() and not any(ord(c) < 0x20 or 0x7F <= ord(c) <= 0x9F or ord(c) in bidi for c in s)
+    return s != "" and not any(ord(c) < 0x20 or 0x7F <= ord(c) <= 0x9F or ord(c) in bidi for c in s)
 
 
 def parse_statement(data):
