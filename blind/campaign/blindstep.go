@@ -117,9 +117,6 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 			res.Opened = append(res.Opened, p.obs)
 		}
 	}
-	if err := c.root.Sync(res.Files); err != nil {
-		return res, err
-	}
 	crashPoint("blind")
 	if err := c.appendEntries(entries, custodian); err != nil {
 		return res, err
