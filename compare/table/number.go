@@ -98,11 +98,13 @@ func eiselLemire(m uint64, q int, neg bool) (float64, bool) {
 	// P = w·5^q/2^e lies in [w·T, w·T + w). First w·Thi: the product
 	// w·T is at least (h1, h0)·2⁶⁴ and floor(P/2⁶⁴) at most (h1, h0) + w.
 	h1, h0 := bits.Mul64(w, pow5Hi[i])
-	// The common case, decided by the first product alone: no carry from
-	// the slack into h1, and not possibly halfway (roundTop below, inline).
+	// The common case, decided by the first product alone (roundTop,
+	// written out): a carry from the slack into h1 leaves the top bits
+	// alone unless the bits below them are all ones, and the value is not
+	// possibly halfway.
 	shift := 9 + h1>>63
-	top := h1 >> shift
-	decided := h0+w >= h0 && (top&1 == 0 || h1&(1<<shift-1) != 0 || h0 != 0)
+	top, low := h1>>shift, h1&(1<<shift-1)
+	decided := (h0+w >= h0 || low != 1<<shift-1) && (top&1 == 0 || low != 0 || h0 != 0)
 	if !decided {
 		top, decided = roundTop(h1, h0, w, false)
 	}
