@@ -62,6 +62,8 @@ type compareFlags struct {
 	alpha, maxPull, minP                float64
 	absTol, relTol, edgeTol             float64
 	subset                              bool
+	delimiter                           string
+	limits                              table.Limits
 	overlapCount, overlapCommon         string
 	overlapSource                       string
 	labelA, labelB                      string
@@ -70,7 +72,7 @@ type compareFlags struct {
 }
 
 // tableOnly are the flags that campaign mode refuses (the protocol sets them).
-var tableOnly = []string{"alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol"}
+var tableOnly = []string{"alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
@@ -98,6 +100,32 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&cf.labelA, "label-a", "", "`LABEL` of the first table in the report (default: its file name)")
 	fs.StringVar(&cf.labelB, "label-b", "", "`LABEL` of the second table in the report (default: its file name)")
 	fs.StringVar(&cf.tables, "tables", "blinded", "campaign mode: compare the `blinded` or the `unblinded` tables")
+	registerLimits(fs, &cf.limits, &cf.delimiter)
+}
+
+// registerLimits adds the reader limits and the field separator.
+func registerLimits(fs *flag.FlagSet, lim *table.Limits, delim *string) {
+	d := table.DefaultLimits
+	fs.IntVar(&lim.MaxLineBytes, "max-line-bytes", d.MaxLineBytes, "refuse a table line longer than `N` bytes")
+	fs.IntVar(&lim.MaxColumns, "max-columns", d.MaxColumns, "refuse a table with more than `N` columns")
+	fs.Int64Var(&lim.MaxBytes, "max-input-bytes", d.MaxBytes, "refuse an input larger than `N` bytes")
+	fs.StringVar(delim, "delimiter", "", "field separator `C` of CSV tables: , or tab or ; (default: from the header)")
+}
+
+// csvOptions builds the reader options from the edge names, the limits
+// and the separator.
+func csvOptions(lo, hi, delim string, lim table.Limits) (table.CSVOptions, error) {
+	opt := table.CSVOptions{Lo: lo, Hi: hi, Limits: lim}
+	switch delim {
+	case "":
+	case ",", ";":
+		opt.Delim = delim[0]
+	case "tab", "\\t", "\t":
+		opt.Delim = '\t'
+	default:
+		return opt, usageErr("--delimiter must be , or ; or tab, got %q", delim)
+	}
+	return opt, nil
 }
 
 // check validates the flag values before any file is touched, and builds
@@ -216,7 +244,11 @@ func runCompare(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	ts, err := input.ReadAll(table.CSVOptions{Lo: lo, Hi: hi}, pos[0], pos[1])
+	opt, err := csvOptions(lo, hi, cf.delimiter, cf.limits)
+	if err != nil {
+		return err
+	}
+	ts, err := input.ReadAllFrom(e.stdin, opt, pos[0], pos[1])
 	if err != nil {
 		return inputErr(err)
 	}
@@ -303,17 +335,17 @@ func (cf *compareFlags) selections(a, b *table.Table) []compare.Selection {
 }
 
 func readCovariances(opt *compare.Options, cf *compareFlags, n int) error {
-	va, err := table.ReadMatrixFile(cf.covA, n, true)
+	va, err := table.ReadMatrixFileLimits(cf.covA, n, true, cf.limits)
 	if err != nil {
 		return inputErr(err)
 	}
-	vb, err := table.ReadMatrixFile(cf.covB, n, true)
+	vb, err := table.ReadMatrixFileLimits(cf.covB, n, true, cf.limits)
 	if err != nil {
 		return inputErr(err)
 	}
 	opt.CovA, opt.CovB = symDense(va), symDense(vb)
 	if cf.covAB != "" {
-		c, err := table.ReadMatrixFile(cf.covAB, n, false)
+		c, err := table.ReadMatrixFileLimits(cf.covAB, n, false, cf.limits)
 		if err != nil {
 			return inputErr(err)
 		}
