@@ -30,7 +30,7 @@ const File = "campaign.toml"
 
 // EdgeTolerance is the relative tolerance on bin edges between two teams'
 // tables (see [table.SameEdges]).
-const EdgeTolerance = 1e-9
+const EdgeTolerance = compare.DefaultEdgeTol
 
 // Roles of parties.
 const (
