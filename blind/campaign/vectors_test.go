@@ -1081,6 +1081,10 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.seal("team-a", "flux", "team-a/flux2", "a corrected efficiency")
 			g.blind()
 		}},
+		{"ok-torn", "ok", "as ok-signed, with a partial last ledger line (no LF) as an interrupted append leaves it: not part of the chain, a note only", func(g *gen) {
+			g.signed()
+			g.editFile(LedgerFile, func(s string) string { return s + `{"seq":12,"prev":"` })
+		}},
 		{"stale-signoff", "stale-signoff", "as ok-resealed, then unblinded by a custodian who skipped the checks: every sign-off predates round 2", func(g *gen) {
 			g.signed()
 			g.seal("team-a", "flux", "team-a/flux2", "a corrected efficiency")
