@@ -120,8 +120,10 @@ func checkRate(t *testing.T, what string, k, n int) {
 	}
 }
 
-// TestPower prints the power of the default verdict, and of each criterion
-// on its own at α, against standard disagreements, and checks that
+// TestPower prints the power of the default verdict, of the earlier
+// default (each raw p-value at 0.01 and max |pull| <= 3, no correction), and
+// of each criterion on its own at α, against standard disagreements, and
+// checks that
 // disagreements the statistics are built for are found.
 func TestPower(t *testing.T) {
 	type scenario struct {
@@ -147,12 +149,12 @@ func TestPower(t *testing.T) {
 	names := []string{CritChi2, CritKS, CritRuns, CritMaxPullP}
 	var out strings.Builder
 	fmt.Fprintf(&out, "\npower at α = %v, %d trials each (values ~1000 ± √1000 per bin, σ_d = √2·√truth):\n", DefaultAlpha, trials)
-	fmt.Fprintf(&out, "| disagreement | bins | verdict fails | χ² | KS | runs | max-pull |\n| --- | --- | --- | --- | --- | --- | --- |\n")
+	fmt.Fprintf(&out, "| disagreement | bins | verdict fails | earlier default | χ² | KS | runs | max-pull |\n| --- | --- | --- | --- | --- | --- | --- | --- |\n")
 	rng := rand.New(rand.NewPCG(5, 5))
 	power := map[string]float64{}
 	for _, sc := range scenarios {
 		for _, n := range []int{20, 100, 1000} {
-			fails := 0
+			fails, oldFails := 0, 0
 			each := make([]int, len(names))
 			for k := 0; k < trials; k++ {
 				var sh func(int, float64, float64) float64
@@ -167,6 +169,11 @@ func TestPower(t *testing.T) {
 				if !r.Pass {
 					fails++
 				}
+				// the earlier default: each raw p-value at 0.01, no
+				// adjustment, and a raw max |pull| <= 3
+				if r.MaxAbsPull > 3 || min(r.PValue, r.KSP, r.RunsP, r.MaxPullP) < DefaultAlpha {
+					oldFails++
+				}
 				for _, c := range r.Criteria {
 					for j, nm := range names {
 						if c.Name == nm && c.Value <= DefaultAlpha {
@@ -176,7 +183,7 @@ func TestPower(t *testing.T) {
 				}
 			}
 			f := func(k int) string { return fmt.Sprintf("%.3f", float64(k)/float64(trials)) }
-			fmt.Fprintf(&out, "| %s | %d | %s | %s | %s | %s | %s |\n", sc.name, n, f(fails), f(each[0]), f(each[1]), f(each[2]), f(each[3]))
+			fmt.Fprintf(&out, "| %s | %d | %s | %s | %s | %s | %s | %s |\n", sc.name, n, f(fails), f(oldFails), f(each[0]), f(each[1]), f(each[2]), f(each[3]))
 			power[fmt.Sprintf("%s/%d", sc.name, n)] = float64(fails) / float64(trials)
 		}
 	}

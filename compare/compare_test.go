@@ -20,27 +20,28 @@ func near(got, want, rel float64) bool {
 }
 
 type scipyComparison struct {
-	A, B        string
-	Value       string
-	Errors      []string
-	Correlation float64
-	Pulls       []float64
-	Chi2        float64
-	NDF         int
-	PValue      float64 `json:"p_value"`
-	PullMean    float64 `json:"pull_mean"`
-	PullWidth   float64 `json:"pull_width"`
-	KSStat      float64 `json:"ks_statistic"`
-	KSP         float64 `json:"ks_p_value"`
-	Runs        int
-	RunsP       float64 `json:"runs_p_value"`
-	MaxAbsPull  float64 `json:"max_abs_pull"`
-	MaxPullP    float64 `json:"max_pull_p_value"`
+	A, B         string
+	Value        string
+	Errors       []string
+	Correlations map[string]float64
+	Pulls        []float64
+	Chi2         float64
+	NDF          int
+	PValue       float64 `json:"p_value"`
+	PullMean     float64 `json:"pull_mean"`
+	PullWidth    float64 `json:"pull_width"`
+	KSStat       float64 `json:"ks_statistic"`
+	KSP          float64 `json:"ks_p_value"`
+	Runs         int
+	RunsP        float64 `json:"runs_p_value"`
+	MaxAbsPull   float64 `json:"max_abs_pull"`
+	MaxPullP     float64 `json:"max_pull_p_value"`
 }
 
-// TestAgainstScipy compares two tables end to end and checks every number
-// against testdata/reference/scipy_values.json, computed from the same CSV
-// files by pandas and scipy (scipy.stats.chi2, kstest(method="exact"),
+// TestAgainstScipy compares two tables end to end, each error column a
+// source with its own correlation, and checks every number against
+// testdata/reference/scipy_values.json, computed from the same CSV files by
+// pandas and scipy (scipy.stats.chi2, kstest(method="exact"),
 // norm) in testdata/reference/make_scipy_reference.py.
 func TestAgainstScipy(t *testing.T) {
 	data, err := os.ReadFile("../testdata/reference/scipy_values.json")
@@ -65,14 +66,19 @@ func TestAgainstScipy(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		rs, err := Tables(a, b, []Selection{{Value: c.Value, Errors: c.Errors}}, 1e-9, Options{Correlation: c.Correlation, Limits: DefaultLimits})
+		opt := Defaults()
+		opt.Correlations = map[string]Rho{}
+		for k, v := range c.Correlations {
+			opt.Correlations[k] = Number(v)
+		}
+		rs, err := Columns(a, b, []Selection{{Value: c.Value, Errors: c.Errors}}, opt)
 		if err != nil {
 			t.Fatal(err)
 		}
 		r := rs[0]
 		for i, p := range c.Pulls {
 			if !near(r.Pulls[i], p, 1e-12) {
-				t.Errorf("ρ=%v pull %d = %v, scipy %v", c.Correlation, i, r.Pulls[i], p)
+				t.Errorf("ρ=%v pull %d = %v, scipy %v", c.Correlations, i, r.Pulls[i], p)
 			}
 		}
 		checks := []struct {
@@ -94,7 +100,7 @@ func TestAgainstScipy(t *testing.T) {
 		}
 		for _, k := range checks {
 			if !near(k.got, k.want, k.rel) {
-				t.Errorf("ρ=%v %s = %.15g, scipy %.15g", c.Correlation, k.name, k.got, k.want)
+				t.Errorf("ρ=%v %s = %.15g, scipy %.15g", c.Correlations, k.name, k.got, k.want)
 			}
 		}
 	}

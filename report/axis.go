@@ -30,6 +30,24 @@ func ticks(lo, hi float64, log bool) []float64 {
 	return out
 }
 
+// minorTicks returns the unlabelled ticks 2…9 × 10ᵏ of a log axis over
+// [lo, hi], when it spans at most six decades (beyond that they crowd).
+func minorTicks(lo, hi float64) []float64 {
+	e0, e1 := math.Floor(math.Log10(lo)), math.Ceil(math.Log10(hi))
+	if !(e1-e0 <= 6) {
+		return nil
+	}
+	var out []float64
+	for e := e0; e < e1; e++ {
+		for m := 2.0; m <= 9; m++ {
+			if t := m * math.Pow(10, e); t >= lo && t <= hi {
+				out = append(out, t)
+			}
+		}
+	}
+	return out
+}
+
 // tickStep is the round step (1, 2 or 5 × 10ᵏ) giving at most six ticks
 // over span.
 func tickStep(span float64) float64 {

@@ -6,6 +6,7 @@ import (
 	"math"
 	"slices"
 	"strings"
+	"unicode/utf8"
 
 	"tandem/compare"
 )
@@ -99,6 +100,18 @@ func (f *frame) open(w io.Writer, class, label, title, xlabel, ylabel string) {
 		}
 		fmt.Fprintf(w, `<text class="axis" x="%g" y="%g" text-anchor="middle">%s</text>`+"\n", (f.left+f.w-f.right)/2, f.h-12, esc(xlabel))
 	}
+	if f.logX {
+		for _, t := range minorTicks(f.x0, f.x1) {
+			x := f.px(t)
+			fmt.Fprintf(w, `<line x1="%.1f" x2="%.1f" y1="%g" y2="%g" stroke="%s"/>`, x, x, f.h-f.bottom, f.h-f.bottom+3, colorAxis)
+		}
+	}
+	if f.logY {
+		for _, t := range minorTicks(f.y0, f.y1) {
+			y := f.py(t)
+			fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`, f.left-3, f.left, y, y, colorAxis)
+		}
+	}
 	yt := ticks(f.y0, f.y1, f.logY)
 	yl, ym := tickLabels(yt, f.logY)
 	for i, t := range yt {
@@ -188,14 +201,17 @@ func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 	if e.Blinded {
 		ylabel += " (blinded)"
 	}
-	f.open(w, "overlay", "values of "+a+" and "+b, "values", "", ylabel)
+	f.open(w, "overlay", "values of "+a+" and "+b, "", "", ylabel)
 	if f.logY && positive < finite {
 		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g">%d values ≤ 0 not drawn on the log axis</text>`+"\n", f.left+8, f.h-f.bottom-8, finite-positive)
 	}
-	// legend, right-aligned on the title row
-	lx := f.w - f.right
-	fmt.Fprintf(w, `<text x="%g" y="%g" text-anchor="end"><tspan fill="%s">◇ %s: value ± σ, bar = bin width</tspan><tspan dx="18" fill="%s">▭ %s: step ± σ band</tspan></text>`+"\n",
-		lx, f.top-10, colorA, esc(a), colorB, esc(b))
+	// the legend, on the title row
+	la, lb := "value ± σ, bar = bin width", "step ± σ band"
+	if k > 1 {
+		la, lb = "band = lowest to highest value per group", "lines = lowest and highest"
+	}
+	fmt.Fprintf(w, `<text x="%g" y="%g"><tspan fill="%s">◇ %s: %s</tspan><tspan dx="18" fill="%s">▭ %s: %s</tspan></text>`+"\n",
+		f.left, f.top-10, colorA, esc(shorten(a, 28)), la, colorB, esc(shorten(b, 28)), lb)
 	if k > 1 {
 		overlayDecimated(w, f, e, gs)
 	} else {
@@ -338,7 +354,11 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		half = 0.01
 	}
 	f.y0, f.y1 = 1-1.1*half, 1+1.1*half
-	f.open(w, "ratio", "ratio "+b+" / "+a, "ratio "+b+" / "+a+" with the combined uncertainty band", "", b+" / "+a)
+	ylabel := "ratio"
+	if utf8.RuneCountInString(a+b) <= 14 {
+		ylabel = b + " / " + a
+	}
+	f.open(w, "ratio", "ratio "+b+" / "+a, "ratio "+shorten(b, 14)+" / "+shorten(a, 14)+", band = combined uncertainty", "", ylabel)
 	fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`+"\n", f.left, f.w-f.right, f.py(1), f.py(1), colorAxis)
 	over := 0
 	for _, g := range gs {
@@ -382,6 +402,16 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g" text-anchor="end">%d beyond the axis (▲▼)</text>`+"\n", f.w-f.right, f.top-10, over)
 	}
 	fmt.Fprintln(w, "</svg>")
+}
+
+// shorten keeps the last n-1 characters of a long name (the informative
+// end of a file path) after an ellipsis.
+func shorten(s string, n int) string {
+	r := []rune(s)
+	if len(r) <= n {
+		return s
+	}
+	return "…" + string(r[len(r)-n+1:])
 }
 
 // quantile returns the q-quantile of xs (the nearest rank), 0 for none.

@@ -19,10 +19,10 @@ p,li,.note{max-width:62em}
 h1{font-size:1.7em;margin:.3em 0}
 h2{font-size:1.35em;border-top:2px solid #ccd2dc;padding-top:.8em;margin-top:2.4em}
 .subtitle{font-size:1.1em;color:#3b4454;margin:-.5em 0 .6em}
-.ok{color:#1d6b35;font-weight:600}.bad{color:#8a1c12;font-weight:700}
+.pass{color:#1d6b35;font-weight:600}.fail{color:#8a1c12;font-weight:700}
 .banner{font-size:1.35em;padding:.5em 1em;border-left:.4em solid;margin:.5em 0;max-width:none}
-.banner.ok{border-color:#1d6b35;background:#eef6f0;color:#1c2430;font-weight:400}
-.banner.bad{border-color:#8a1c12;background:#fbeeec;color:#1c2430;font-weight:400}
+.banner.agree{border-color:#1d6b35;background:#eef6f0}
+.banner.disagree{border-color:#8a1c12;background:#fbeeec}
 .banner.accepted{border-color:#b07d0e;background:#fdf5e2}
 .banner b{font-weight:700}
 table{border-collapse:collapse;margin:.6em 0;font-variant-numeric:tabular-nums}
@@ -68,9 +68,9 @@ func HTML(w io.Writer, s *compare.Summary) error {
 	fmt.Fprintf(ew, "<h1>%s</h1>\n", esc(title))
 	failed := failures(s)
 	if failed == 0 {
-		fmt.Fprintf(ew, "<p class=\"banner ok\">Verdict: <b class=\"ok\">agree</b>: all %d comparisons within tolerance</p>\n", len(s.Entries))
+		fmt.Fprintf(ew, "<p class=\"banner agree\">Verdict: <b class=\"pass\">agree</b>: all %d comparisons within tolerance</p>\n", len(s.Entries))
 	} else {
-		fmt.Fprintf(ew, "<p class=\"banner bad\">Verdict: <b class=\"bad\">disagree</b>: %d of %d comparisons outside tolerance</p>\n", failed, len(s.Entries))
+		fmt.Fprintf(ew, "<p class=\"banner disagree\">Verdict: <b class=\"fail\">disagree</b>: %d of %d comparisons outside tolerance</p>\n", failed, len(s.Entries))
 	}
 	for _, a := range s.Accepted {
 		fmt.Fprintf(ew, "<p class=\"banner accepted\"><b>Disagreement accepted</b> by %s: %s</p>\n", esc(joinList(a.By)), esc(a.Reason))
@@ -104,9 +104,9 @@ func esc(s string) string { return html.EscapeString(s) }
 
 func verdictSpan(pass bool) string {
 	if pass {
-		return `<span class="ok">pass</span>`
+		return `<span class="pass">pass</span>`
 	}
-	return `<span class="bad">fail</span>`
+	return `<span class="fail">fail</span>`
 }
 
 func entryHTML(w io.Writer, id string, e compare.Entry, accepted []compare.Acceptance) {
@@ -160,7 +160,7 @@ func entryHTML(w io.Writer, id string, e compare.Entry, accepted []compare.Accep
 			fmt.Fprintf(w, "<p class=\"note\">%s: %s</p>\n", esc(c.Name), esc(c.Detail))
 		}
 	}
-	fmt.Fprintf(w, "<p>%s</p>\n", esc(shapeLine(e)))
+	fmt.Fprintf(w, "<p>%s</p>\n", esc(capitalize(shapeLine(e))))
 	for _, wn := range e.Warnings {
 		fmt.Fprintf(w, "<p class=\"note warn\">%s</p>\n", esc(wn))
 	}

@@ -212,11 +212,20 @@ func binCells(e compare.Entry, i int) []string {
 	va, ea := withError(e.A[i], e.ErrA[i])
 	vb, eb := withError(e.B[i], e.ErrB[i])
 	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
-	p := num(e.Pulls[i])
+	p := pullText(e.Pulls[i])
 	if slices.Contains(e.ZeroSigma, i) {
 		p = "n/a"
 	}
 	return []string{strconv.Itoa(i + 1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p}
+}
+
+// pullText writes a pull with two decimals, so that a column of pulls
+// lines up on the decimal point; huge ones keep four significant digits.
+func pullText(p float64) string {
+	if math.Abs(p) < 1000 {
+		return strconv.FormatFloat(p, 'f', 2, 64)
+	}
+	return num(p)
 }
 
 // withError formats a value and its uncertainty to the same decimal place,

@@ -161,6 +161,9 @@ func TestJSONContract(t *testing.T) {
 	if doc["verdict"] != "fail" {
 		t.Errorf("verdict %v", doc["verdict"])
 	}
+	if _, ok := doc["accepted_disagreements"].([]any); !ok {
+		t.Errorf("accepted_disagreements is not a list: %v", doc["accepted_disagreements"])
+	}
 	obs := doc["observables"].([]any)
 	for _, o := range obs {
 		m := o.(map[string]any)
@@ -172,6 +175,21 @@ func TestJSONContract(t *testing.T) {
 		}
 		if len(m["pulls"].([]any)) != int(m["bins"].(float64)) {
 			t.Errorf("pulls length")
+		}
+		// the inputs and settings beside the contract
+		for _, k := range []string{"labels", "criteria", "limits", "family_size", "sources", "accepted_disagreement", "per_bin"} {
+			if _, ok := m[k]; !ok {
+				t.Errorf("observable %v lacks %q", m["name"], k)
+			}
+		}
+		per := m["per_bin"].(map[string]any)
+		for _, k := range []string{"lo", "hi", "a", "error_a", "b", "error_b", "difference", "sigma_difference"} {
+			if xs, ok := per[k].([]any); !ok || len(xs) != int(m["bins"].(float64)) {
+				t.Errorf("observable %v: per_bin.%s is not one value per bin", m["name"], k)
+			}
+		}
+		if a := m["limits"].(map[string]any)["alpha"]; a != 0.01 {
+			t.Errorf("limits.alpha = %v", a)
 		}
 	}
 }
@@ -265,6 +283,21 @@ func TestHTMLInChromium(t *testing.T) {
 	if err != nil {
 		t.Fatalf("chromium --dump-dom: %v", err)
 	}
+	// The page prints, or saves as PDF, through the print stylesheet: a
+	// PDF of at least one page for the top and one per comparison (each
+	// starts a new page). Chromium writes one uncompressed "/Type /Page"
+	// dictionary per page. This does not prove where the breaks fall.
+	pdf := filepath.Join(dir, "report.pdf")
+	if out, err := exec.Command(bin, append(args, "--no-pdf-header-footer", "--print-to-pdf="+pdf, "file://"+page)...).CombinedOutput(); err != nil {
+		t.Fatalf("chromium --print-to-pdf: %v\n%s", err, out)
+	}
+	data, err := os.ReadFile(pdf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(data, -1)); !bytes.HasPrefix(data, []byte("%PDF-")) || pages < 1+len(s.Entries) {
+		t.Errorf("printed report has %d pages, want at least %d", pages, 1+len(s.Entries))
+	}
 	for _, label := range []string{"values of heron and otter", "ratio otter / heron", "pulls per bin", "pull distribution", "pull distribution (log scale)"} {
 		if got := strings.Count(string(dom), fmt.Sprintf(`aria-label="%s"`, label)); got != len(s.Entries) {
 			t.Errorf("figure %q appears %d times in the rendered DOM, want %d", label, got, len(s.Entries))
@@ -278,8 +311,8 @@ func TestHTMLInChromium(t *testing.T) {
 // in one figure whose boxes overlap.
 const measureScript = `<script>
 (function () {
-  var out = {figures: 0, small: [], overlaps: [], texts: 0, minPx: 1e9};
-  document.querySelectorAll('svg').forEach(function (svg) {
+  var out = {figures: 0, small: [], overlaps: [], outside: [], texts: 0, minPx: 1e9};
+  function measure() { document.querySelectorAll('svg').forEach(function (svg) {
     if (getComputedStyle(svg).display === 'none') return;
     out.figures++;
     var boxes = [];
@@ -289,7 +322,9 @@ const measureScript = `<script>
       out.texts++;
       out.minPx = Math.min(out.minPx, px);
       if (px < 12) out.small.push(t.textContent + ' (' + px.toFixed(1) + ' px)');
-      boxes.push({r: t.getBoundingClientRect(), s: t.textContent});
+      var r = t.getBoundingClientRect(), f = svg.getBoundingClientRect();
+      if (r.left < f.left - 1 || r.right > f.right + 1 || r.top < f.top - 1 || r.bottom > f.bottom + 1) out.outside.push(t.textContent);
+      boxes.push({r: r, s: t.textContent});
     });
     for (var i = 0; i < boxes.length; i++) for (var j = i + 1; j < boxes.length; j++) {
       var a = boxes[i].r, b = boxes[j].r;
@@ -297,7 +332,11 @@ const measureScript = `<script>
       var h = Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top);
       if (w > 1 && h > 1) out.overlaps.push(svg.getAttribute('aria-label') + ': "' + boxes[i].s + '" and "' + boxes[j].s + '"');
     }
-  });
+  }); }
+  measure();
+  // the other scale of each pull histogram
+  document.querySelectorAll('input.logtoggle').forEach(function (c) { c.checked = !c.checked; });
+  measure();
   var pre = document.createElement('pre');
   pre.id = 'measure';
   pre.textContent = JSON.stringify(out);
@@ -349,6 +388,10 @@ func figureFixture(t testing.TB) *compare.Summary {
 	add("fine", a, b)
 	a, b = series(60, func(i int) float64 { return math.Pow(10, float64(i)/15) }, func(x float64) float64 { return 1e6 * math.Pow(x, -1.25) }, func(i int) float64 { return 0.02 * float64(i) })
 	add("spectrum5", a, b)
+	// table mode with long labels: the legend and titles must still fit
+	last := &s.Entries[len(s.Entries)-1]
+	last.Teams = [2]string{}
+	last.LabelA, last.LabelB = "/data/groups/heron/2026-11/spectrum_final_v3.csv", "/data/groups/otter/2026-11/spectrum_final_v7.csv"
 	return s
 }
 
@@ -393,16 +436,20 @@ func TestFiguresInChromium(t *testing.T) {
 			MinPx          float64
 			Small          []string
 			Overlaps       []string
+			Outside        []string
 		}
 		if !ok || json.Unmarshal([]byte(html.UnescapeString(js)), &m) != nil {
 			t.Fatalf("no measurement in the DOM:\n%.500s", js)
 		}
 		t.Logf("%d px: %d figures, %d texts, smallest %.1f px", width, m.Figures, m.Texts, m.MinPx)
-		if m.Figures != 4*len(s.Entries) || m.Texts < 40*len(s.Entries) {
+		if m.Figures != 8*len(s.Entries) || m.Texts < 80*len(s.Entries) {
 			t.Errorf("%d px: %d figures with %d texts shown", width, m.Figures, m.Texts)
 		}
 		if len(m.Small) > 0 {
 			t.Errorf("%d px: %d texts smaller than 12 px, e.g. %q", width, len(m.Small), m.Small[:min(5, len(m.Small))])
+		}
+		if len(m.Outside) > 0 {
+			t.Errorf("%d px: texts cut off at the figure's edge: %q", width, m.Outside[:min(5, len(m.Outside))])
 		}
 		if len(m.Overlaps) > 0 {
 			t.Errorf("%d px: overlapping texts: %q", width, m.Overlaps[:min(5, len(m.Overlaps))])
@@ -584,7 +631,7 @@ func TestAcceptedBesideVerdict(t *testing.T) {
 		t.Fatal(err)
 	}
 	page := buf.String()
-	v := strings.Index(page, `<p class="banner bad">Verdict:`)
+	v := strings.Index(page, `<p class="banner disagree">Verdict:`)
 	a := strings.Index(page, `<p class="banner accepted"><b>Disagreement accepted</b> by heron and otter: the tilt comes from a known alignment shift</p>`)
 	if v < 0 || a < 0 || strings.Contains(page[v:a], "<h") {
 		t.Errorf("accepted disagreement not right after the verdict (verdict at %d, accepted at %d)", v, a)
@@ -612,6 +659,77 @@ func TestAcceptedBesideVerdict(t *testing.T) {
 	for _, o := range doc.Observables {
 		if o.Accepted != (o.Name == "tilt") {
 			t.Errorf("%s: accepted_disagreement = %v", o.Name, o.Accepted)
+		}
+	}
+}
+
+// TestJUnitTableMode: without a campaign the suite is the pair of labels,
+// not the title repeated.
+func TestJUnitTableMode(t *testing.T) {
+	s := fixture(t)
+	s.Campaign, s.Title = "", "heron.csv vs otter.csv"
+	for i := range s.Entries {
+		s.Entries[i].Teams = [2]string{}
+		s.Entries[i].LabelA, s.Entries[i].LabelB = "heron.csv", "otter.csv"
+	}
+	var buf bytes.Buffer
+	if err := JUnit(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), `<testsuite name="heron.csv vs otter.csv" tests="2"`) {
+		t.Errorf("table-mode suite name:\n%s", buf.String())
+	}
+}
+
+// TestRenderOddInputs: every format renders degenerate comparisons
+// without panicking and the HTML stays finite: one bin, values of zero
+// (no ratio), values spanning 10⁻³⁰⁰ to 10³⁰⁰, zero combined uncertainty
+// with a difference (an infinite pull), negative values, 3000 bins.
+func TestRenderOddInputs(t *testing.T) {
+	mk := func(v, e []float64) *table.Series {
+		n := len(v)
+		s := &table.Series{Column: "y", Lo: make([]float64, n), Hi: make([]float64, n), V: v, Down: e, Up: e}
+		for i := range v {
+			s.Lo[i], s.Hi[i] = float64(i), float64(i+1)
+		}
+		return s
+	}
+	big := func(n int, f func(i int) float64) []float64 {
+		out := make([]float64, n)
+		for i := range out {
+			out[i] = f(i)
+		}
+		return out
+	}
+	cases := []struct {
+		name         string
+		a, ea, b, eb []float64
+	}{
+		{"one bin", []float64{5}, []float64{1}, []float64{6}, []float64{1}},
+		{"zeros", []float64{0, 0, 1}, []float64{1, 1, 1}, []float64{0, 1, 1}, []float64{1, 1, 1}},
+		{"extremes", []float64{1e-300, 1e300, 1}, []float64{1e-301, 1e299, 1}, []float64{2e-300, 1e300, 2}, []float64{1e-301, 1e299, 1}},
+		{"infinite pull", []float64{1, 2, 3}, []float64{0, 1, 1}, []float64{2, 2, 3}, []float64{0, 1, 1}},
+		{"negative", []float64{-5, -3, 2, 400}, []float64{1, 1, 1, 1}, []float64{-4, -3, 2, 401}, []float64{1, 1, 1, 1}},
+		{"3000 bins", big(3000, func(i int) float64 { return float64(i % 7) }), big(3000, func(int) float64 { return 1 }),
+			big(3000, func(i int) float64 { return float64(i % 5) }), big(3000, func(int) float64 { return 1 })},
+	}
+	for _, c := range cases {
+		r, err := compare.Series(mk(c.a, c.ea), mk(c.b, c.eb), compare.Options{Limits: compare.DefaultLimits})
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		s := &compare.Summary{Entries: []compare.Entry{{Observable: c.name, Result: r}}}
+		for _, f := range Formats {
+			var buf bytes.Buffer
+			if err := Render(&buf, f, s, Style{Color: true}); err != nil {
+				t.Errorf("%s, %s: %v", c.name, f, err)
+			}
+			if f == "html" && regexp.MustCompile(`="[^"]*(NaN|Inf)`).Match(buf.Bytes()) {
+				t.Errorf("%s: HTML has a NaN or Inf coordinate", c.name)
+			}
+			if f == "json" && !json.Valid(buf.Bytes()) {
+				t.Errorf("%s: invalid JSON", c.name)
+			}
 		}
 	}
 }

@@ -272,30 +272,29 @@ func ConstantRegion(c Column, p float64) (Estimate, bool) {
 }
 
 // SharedRatio is the ratio of two columns with the same bin edges. If both
-// were blinded with one shared map without shift, v′ₐ,ᵢ/v′_b,ᵢ =
-// (s·vₐ,ᵢ)/(s·v_b,ᵢ) is the true ratio, and whoever knows the true values
-// of b (the team that produced b, once the tables are public) gets
+// were blinded with one shared map without shift,
 //
-//	v̂ₐ,ᵢ = v_b,ᵢ · v′ₐ,ᵢ / v′_b,ᵢ.
+//	r̂ᵢ = v′ₐ,ᵢ / v′_b,ᵢ = (s·vₐ,ᵢ)/(s·v_b,ᵢ) = rᵢ,
 //
-// The estimate is scored as an estimate of a, against Dₐ,ᵢ, so that the
-// ratio attack is measured on the same scale as the others (a width for
-// the ratio itself blows up wherever b's interval approaches 0). Bins with
-// v′_b,ᵢ = 0 get no estimate.
+// the true ratio rᵢ = vₐ,ᵢ/v_b,ᵢ, exactly; with independent maps r̂ᵢ is off
+// by sₐ/s_b and the shifts. The estimate is of the ratio, and it is scored
+// against rᵢ with the yardstick min(Wʳᵢ, max(|rᵢ|, median |r|)), where Wʳᵢ
+// is the width of {x/y : x ∈ Iₐ,ᵢ, y ∈ I_b,ᵢ} (infinite when I_b,ᵢ holds 0).
+// Bins with v′_b,ᵢ = 0 get no estimate.
 func SharedRatio(a, b Column) (Estimate, bool) {
 	v := nans(len(a.Blinded))
 	ok := false
 	for i := range v {
-		if b.Blinded[i] != 0 && isFinite(a.Blinded[i]) && isFinite(b.Blinded[i]) && isFinite(b.True[i]) {
-			v[i] = b.True[i] * a.Blinded[i] / b.Blinded[i]
+		if b.Blinded[i] != 0 && isFinite(a.Blinded[i]) && isFinite(b.Blinded[i]) {
+			v[i] = a.Blinded[i] / b.Blinded[i]
 			ok = true
 		}
 	}
 	return Estimate{V: v}, ok
 }
 
-// ratioFinding scores SharedRatio on a with b known and on b with a
-// known, and keeps the more precise.
+// ratioFinding scores SharedRatio on a/b and on b/a and keeps the more
+// precise.
 func ratioFinding(a, b Column, threshold float64) (Finding, bool) {
 	obs := a.Observable
 	if b.Observable != a.Observable {
@@ -310,10 +309,36 @@ func ratioFinding(a, b Column, threshold float64) (Finding, bool) {
 		if !ok {
 			continue
 		}
-		est.Variant = x.Observable + " " + x.Column + " from its ratio to " + y.Observable + " " + y.Column
-		if g, ok := best(obs, col, NameSharedRatio, []Estimate{est}, x.True, scales(x), threshold); ok && (!found || g.Precision < f.Precision) {
+		truth := nans(len(x.True))
+		w := make([]float64, len(x.True))
+		for i := range truth {
+			if y.True[i] != 0 {
+				truth[i] = x.True[i] / y.True[i]
+			}
+			w[i] = ratioWidth(x, y, i)
+		}
+		est.Variant = x.Observable + " " + x.Column + " over " + y.Observable + " " + y.Column
+		if g, ok := best(obs, col, NameSharedRatio, []Estimate{est}, truth, yardstick(w, truth), threshold); ok && (!found || g.Precision < f.Precision) {
 			f, found = g, true
 		}
 	}
 	return f, found
+}
+
+// ratioWidth is the width of {x/y : x ∈ Iₐ,ᵢ, y ∈ I_b,ᵢ}, infinite when
+// I_b,ᵢ contains 0.
+func ratioWidth(a, b Column, i int) float64 {
+	al, ah := interval(a.Blinded[i], a.Scale, a.Shift)
+	bl, bh := interval(b.Blinded[i], b.Scale, b.Shift)
+	if bl <= 0 && bh >= 0 {
+		return math.Inf(1)
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, x := range []float64{al, ah} {
+		for _, y := range []float64{bl, bh} {
+			r := x / y
+			lo, hi = min(lo, r), max(hi, r)
+		}
+	}
+	return hi - lo
 }

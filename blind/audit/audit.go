@@ -53,7 +53,8 @@ const (
 )
 
 // Run scores every attack on every column, and the ratio attack on every
-// pair of columns with identical bin edges. A column whose slices do not
+// pair of columns with identical bin edges, except pairs with the same
+// observable and column name (two teams' tables of one column). A column whose slices do not
 // line up gets a single Broken finding for [NameInput], so that a caller
 // that refuses on Broken fails closed. A threshold ≤ 0 or NaN means
 // [DefaultThreshold]. Attacks that do not apply (no uncertainties, fewer
@@ -103,6 +104,11 @@ func Run(cols []Column, threshold float64) []Finding {
 		for j := i + 1; j < len(cols); j++ {
 			a, b := cols[i], cols[j]
 			if !valid[i] || !valid[j] || !slices.Equal(a.Lo, b.Lo) || !slices.Equal(a.Hi, b.Hi) {
+				continue
+			}
+			if a.Observable == b.Observable && a.Column == b.Column {
+				// Two teams' tables of one column: in the common map they
+				// share it on purpose (see the package documentation).
 				continue
 			}
 			if f, ok := ratioFinding(a, b, threshold); ok {
@@ -226,21 +232,27 @@ func widths(c Column) []float64 {
 // scales returns Dᵢ = min(Wᵢ, max(|vᵢ|, m)) for every bin of c, m the
 // median of |vⱼ| over the column: the yardstick of the precision.
 func scales(c Column) []float64 {
-	w := widths(c)
+	return yardstick(widths(c), c.True)
+}
+
+// yardstick returns min(wᵢ, max(|tᵢ|, m)), m the median of the finite
+// |tⱼ|.
+func yardstick(w, truth []float64) []float64 {
 	var mags []float64
-	for _, v := range c.True {
+	for _, v := range truth {
 		if isFinite(v) {
 			mags = append(mags, math.Abs(v))
 		}
 	}
+	d := slices.Clone(w)
 	if len(mags) == 0 {
-		return w
+		return d
 	}
 	m := median(mags)
-	for i, v := range c.True {
-		w[i] = math.Min(w[i], math.Max(math.Abs(v), m))
+	for i, v := range truth {
+		d[i] = math.Min(d[i], math.Max(math.Abs(v), m))
 	}
-	return w
+	return d
 }
 
 // scored is the precision of one estimate and the figures for Detail.

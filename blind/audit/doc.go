@@ -55,9 +55,14 @@
 // size of the value, and the attacks that need the sign of s do not
 // apply; such a range is refused at init.
 //
-// The ratio attack between two columns a and b is scored the same way, as
-// an estimate of a by whoever knows the true values of b (see
-// [SharedRatio]).
+// The ratio attack between two columns a and b estimates the true ratio
+// and is scored the same way, with the ratio in place of the value (see
+// [SharedRatio]). It is not run between two columns with the same
+// observable and column name, which are two teams' tables of one column:
+// once a comparison opens they share the common map on purpose, so that
+// differences keep their meaning, and a team that knows its own true
+// table then reads the other team's through the ratio. That is the stated
+// limit of the threat model, not something an audit can refuse.
 //
 // [Finding.Detail] also reports the median relative error |v̂ᵢ − vᵢ|/|vᵢ|.
 //

@@ -57,6 +57,6 @@ func (c *Campaign) Amend(actor string, next []byte, reason string, signer ssh.Si
 		return nil, fmt.Errorf("the amendment is logged, but replacing %s failed (write the new protocol there by hand): %w", ProtocolFile, err)
 	}
 	c.Protocol, c.ProtocolBytes = np, next
-	c.state, c.cmp = nil, nil
+	c.state, c.cmp, c.signoffs = nil, nil, nil
 	return stale, nil
 }

@@ -18,8 +18,10 @@
 package campaign
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
+	"path/filepath"
 	"strings"
 	"time"
 
@@ -136,9 +138,12 @@ type Campaign struct {
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
 
-	root  root
-	state *State
-	cmp   *Comparison
+	root     root
+	raw      []byte // the ledger bytes parsed so far
+	torn     int    // bytes of a partial last line left by an interrupted append
+	state    *State
+	cmp      *Comparison
+	signoffs []SignoffStatus
 }
 
 func (c *Campaign) now() time.Time {
@@ -164,7 +169,13 @@ func Open(dir string) (*Campaign, error) {
 }
 
 func open(dir string) (*Campaign, error) {
-	r := root{dir: dir}
+	r, err := openRoot(dir)
+	if err != nil {
+		if errors.Is(err, ErrSymlink) {
+			return nil, refuse("open", ProblemSymlink, "%v", err)
+		}
+		return nil, table.Errorf(filepath.Join(dir, ProtocolFile), 0, 0, "%v", unwrapPath(err))
+	}
 	data, err := r.ReadFile(ProtocolFile, maxProtocol)
 	if err != nil {
 		if errors.Is(err, ErrSymlink) {
@@ -189,19 +200,44 @@ func (c *Campaign) readLedger() error {
 	case errors.Is(err, ErrSymlink):
 		return refuse("open", ProblemSymlink, "%v", err)
 	case err != nil && isNotExist(err):
-		c.Ledger = nil
+		c.Ledger, c.raw = nil, nil
 	case err != nil:
 		return table.Errorf(c.root.abs(LedgerFile), 0, 0, "%v", unwrapPath(err))
+	}
+	c.torn = 0
+	if err == nil && len(ld) > 0 && ld[len(ld)-1] != '\n' {
+		// An append interrupted mid-line: the partial line was never
+		// committed. Read the whole lines; the next step removes the rest.
+		cut := bytes.LastIndexByte(ld, '\n') + 1
+		c.torn = len(ld) - cut
+		ld = ld[:cut]
+	}
+	switch {
+	case err != nil:
+	case len(c.raw) > 0 && len(ld) >= len(c.raw) && bytes.Equal(ld[:len(c.raw)], c.raw):
+		if len(ld) == len(c.raw) {
+			return nil // nothing appended since
+		}
+		entries, err := format.ParseMore(c.root.abs(LedgerFile), c.Ledger, ld[len(c.raw):])
+		if err != nil {
+			return c.damaged(err)
+		}
+		c.Ledger, c.raw = entries, ld
 	default:
 		entries, err := format.ParseLedger(c.root.abs(LedgerFile), ld)
 		if err != nil {
-			// A damaged ledger is a failed integrity check, not bad input.
-			return &RefusedError{Step: "open", Problems: []Problem{{Kind: ProblemChain, Path: LedgerFile, Message: trimPath(err.Error(), c.root.abs(LedgerFile))}}}
+			return c.damaged(err)
 		}
-		c.Ledger = entries
+		c.Ledger, c.raw = entries, ld
 	}
-	c.state, c.cmp = nil, nil
+	c.state, c.cmp, c.signoffs = nil, nil, nil
 	return nil
+}
+
+// damaged reports a ledger that does not parse: a failed integrity check,
+// not bad input.
+func (c *Campaign) damaged(err error) error {
+	return &RefusedError{Step: "open", Problems: []Problem{{Kind: ProblemChain, Path: LedgerFile, Message: strings.TrimSpace(trimPath(err.Error(), c.root.abs(LedgerFile)))}}}
 }
 
 // trimPath turns "DIR/ledger:4: msg" into "4: msg" for a Problem whose

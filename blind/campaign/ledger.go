@@ -12,46 +12,68 @@ import (
 	"tandem/blind/internal/sshsig"
 )
 
-// appendEntry fills Seq, Prev and Time, signs the entry with signer (whose
-// key must be the one the protocol gives the actor) and appends its line
-// to the ledger with one O_APPEND write and an fsync. The caller holds the
-// lock and has reread the ledger. The ledger is never rewritten.
+// appendEntry appends one entry; see [Campaign.appendEntries].
 func (c *Campaign) appendEntry(e format.Entry, signer ssh.Signer) error {
-	want := c.Protocol.SignerKey(e.Actor)
-	if want == nil {
-		return fmt.Errorf("%q is not a party of the protocol", e.Actor)
-	}
-	if signer == nil || string(signer.PublicKey().Marshal()) != string(want.Marshal()) {
-		return refuse(Step(e.Step), ProblemSignature, "the signing key is not the one the protocol gives %s (%s)", e.Actor, ssh.FingerprintSHA256(want))
-	}
-	e.Seq = len(c.Ledger) + 1
-	e.Prev = format.Genesis
-	if len(c.Ledger) > 0 {
-		e.Prev = c.Ledger[len(c.Ledger)-1].Hash()
-	}
-	if e.Time == "" {
-		e.Time = c.now().UTC().Format(time.RFC3339)
-	}
-	sig, err := sshsig.Sign(signer, format.LedgerNamespace, e.SignedBytes())
-	if err != nil {
-		return err
-	}
-	e.Sig = sshsig.Flatten(sig)
-	line := e.Line()
-	out := line
+	return c.appendEntries([]format.Entry{e}, signer)
+}
+
+// appendEntries fills Seq, Prev and Time of each entry, signs it with
+// signer (whose key must be the one the protocol gives the actor) and
+// appends the lines to the ledger with one O_APPEND write and an fsync:
+// the commit point of a step. The caller holds the lock, has reread the
+// ledger and has synced the files the entries cover. The ledger is never
+// rewritten.
+func (c *Campaign) appendEntries(es []format.Entry, signer ssh.Signer) error {
+	var out []byte
 	if len(c.Ledger) == 0 {
 		if c.root.Exists(LedgerFile) {
 			return errors.New("the ledger exists but holds no entry; remove it if init was interrupted")
 		}
-		out = append([]byte(format.LedgerHeader+"\n"), line...)
+		out = []byte(format.LedgerHeader + "\n")
 	}
-	out = append(out, '\n')
+	prev, seq := format.Genesis, len(c.Ledger)
+	if seq > 0 {
+		prev = c.Ledger[seq-1].Hash()
+	}
+	done := make([]format.Entry, 0, len(es))
+	for _, e := range es {
+		want := c.Protocol.SignerKey(e.Actor)
+		if want == nil {
+			return fmt.Errorf("%q is not a party of the protocol", e.Actor)
+		}
+		if signer == nil || string(signer.PublicKey().Marshal()) != string(want.Marshal()) {
+			return refuse(Step(e.Step), ProblemSignature, "the signing key is not the one the protocol gives %s (%s)", e.Actor, ssh.FingerprintSHA256(want))
+		}
+		seq++
+		e.Seq, e.Prev = seq, prev
+		if e.Time == "" {
+			e.Time = c.now().UTC().Format(time.RFC3339)
+		}
+		sig, err := sshsig.Sign(signer, format.LedgerNamespace, e.SignedBytes())
+		if err != nil {
+			return err
+		}
+		e.Sig = sshsig.Flatten(sig)
+		line := e.Line()
+		prev = format.HashLine(line)
+		e.SetHash(prev)
+		out = append(append(out, line...), '\n')
+		done = append(done, e)
+	}
 	if err := c.root.Append(LedgerFile, out); err != nil {
 		return fmt.Errorf("appending to the ledger: %w", err)
 	}
-	e.SetHash(format.HashLine(line))
-	c.Ledger = append(c.Ledger, e)
-	c.state, c.cmp = nil, nil
+	c.Ledger = append(c.Ledger, done...)
+	c.raw = append(c.raw, out...)
+	c.state, c.signoffs = nil, nil
+	for _, e := range done {
+		switch Step(e.Step) {
+		case StepSign, StepUnblind:
+			// the comparison of the blinded tables is unchanged
+		default:
+			c.cmp = nil
+		}
+	}
 	return nil
 }
 
@@ -97,6 +119,14 @@ func (c *Campaign) begin(step Step) (func(), error) {
 	}
 	if err := c.readLedger(); err != nil {
 		return fail(err)
+	}
+	if c.torn > 0 {
+		// The partial line was never committed: keep the whole lines, the
+		// only time the ledger file is replaced rather than appended to.
+		if err := c.root.WriteAtomic(LedgerFile, c.raw); err != nil {
+			return fail(fmt.Errorf("removing the partial line an interrupted step left in the ledger: %w", err))
+		}
+		c.torn = 0
 	}
 	if p := c.protocolProblem(); p != nil {
 		return fail(&RefusedError{Step: step, Problems: []Problem{*p}})

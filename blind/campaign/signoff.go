@@ -242,6 +242,13 @@ type SignoffStatus struct {
 
 // Signoffs checks the latest sign-off of every party (once per command).
 func (c *Campaign) Signoffs() []SignoffStatus {
+	if c.signoffs == nil {
+		c.signoffs = c.checkSignoffs()
+	}
+	return c.signoffs
+}
+
+func (c *Campaign) checkSignoffs() []SignoffStatus {
 	st := c.State()
 	var out []SignoffStatus
 	for _, q := range c.Protocol.Parties {

@@ -217,6 +217,11 @@ func Canonical(o *protocol.Observable, t *table.Table) (*table.Table, error) {
 		names = append(names, c.Name)
 		names = append(names, c.Errors...)
 	}
+	for _, x := range o.Extra {
+		if !slices.Contains(names, x) {
+			names = append(names, x)
+		}
+	}
 	for _, n := range t.Names {
 		if !slices.Contains(names, n) {
 			return nil, table.Errorf(t.Source, 0, 0, "column %q is not declared for observable %q (declared: %s)", n, o.Name, strings.Join(names, ", "))

@@ -41,6 +41,9 @@ func (c *Campaign) audit() *Report {
 	if p := c.protocolProblem(); p != nil {
 		r.Problems = append(r.Problems, *p)
 	}
+	if c.torn > 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%s: an interrupted step left a partial last line (%d bytes, never committed); the next step removes it", LedgerFile, c.torn))
+	}
 	st := c.State()
 	r.Problems = append(r.Problems, st.Problems...)
 	r.Problems = append(r.Problems, c.verifyEntrySignatures()...)
@@ -81,6 +84,11 @@ func (c *Campaign) audit() *Report {
 		}
 	} else if err != nil {
 		r.Problems = append(r.Problems, Problem{Kind: ProblemState, Message: err.Error()})
+	}
+	if left, err := c.root.Leftovers(); err == nil {
+		for _, rel := range left {
+			r.Notes = append(r.Notes, rel+": temporary file of an interrupted write; safe to remove")
+		}
 	}
 	for _, rel := range all {
 		if _, ok := files[rel]; ok || rel == LedgerFile || rel == ProtocolFile {

@@ -270,6 +270,15 @@ func (r *Result) WriteOverlap(w io.Writer) error {
 	return bw.Flush()
 }
 
+// WriteOverlapIfBinned writes the overlap table when a binning was asked
+// for, and nothing otherwise.
+func (r *Result) WriteOverlapIfBinned(w io.Writer) error {
+	if r.Binning == nil {
+		return nil
+	}
+	return r.WriteOverlap(w)
+}
+
 // Merge adds partition summaries. They must describe the same comparison
 // (keys, variables and tolerances, cuts, binning, α and level); the
 // counts, histograms and per-bin counts add, maxima and the bounded lists

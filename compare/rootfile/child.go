@@ -287,7 +287,7 @@ func (c *child) finish(streamErr error) error {
 	}
 	msg := c.stderr.String()
 	switch {
-	case strings.Contains(msg, "out of memory"), strings.Contains(msg, "cannot allocate memory"):
+	case strings.Contains(msg, "out of memory"), strings.Contains(msg, "cannot allocate memory"), strings.Contains(msg, "failed to allocate"):
 		return table.Errorf(c.spec, 0, 0, "could not decode the ROOT file: the reader ran out of its %s memory limit (a damaged file, or one that needs more: raise the limit with TANDEM_ROOT_MEMORY)", FormatSize(c.limits.Memory))
 	case strings.Contains(msg, "stack exceeds"):
 		return table.Errorf(c.spec, 0, 0, "could not decode the ROOT file: the reader's stack outgrew its limit (damaged file?)")

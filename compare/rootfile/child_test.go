@@ -336,4 +336,3 @@ func writeStreams(dir string) error {
 		}),
 	)
 }
-

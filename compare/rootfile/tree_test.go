@@ -3,6 +3,7 @@ package rootfile
 import (
 	"errors"
 	"math"
+	"os"
 	"path/filepath"
 	"reflect"
 	"strings"
@@ -276,4 +277,35 @@ func TestTreeOrderAndKinds(t *testing.T) {
 	if err := ReadTree(p+":sub/events", []string{"e", "e"}, func([]float64) error { return nil }); err == nil || !strings.Contains(err.Error(), "twice") {
 		t.Errorf("duplicate column: %v", err)
 	}
+}
+
+// FuzzReadTree: corrupted versions of the groot-written seed tree
+// (testdata/seeds/tree.root) give rows or a *table.Error, through the
+// child as tandem reads them; never a crash.
+func FuzzReadTree(f *testing.F) {
+	for _, data := range seedFiles(f) {
+		f.Add(data, uint16(0), byte(0))
+	}
+	f.Fuzz(func(t *testing.T, data []byte, at uint16, flip byte) {
+		if len(data) > 0 {
+			data = append([]byte(nil), data...)
+			data[int(at)%len(data)] ^= flip
+		}
+		p := filepath.Join(t.TempDir(), "f.root")
+		if err := os.WriteFile(p, data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		if _, err := TreeColumns(p + ":dir/events"); err != nil {
+			mustBeInputError(t, err)
+		}
+		err := ReadTree(p+":dir/events", []string{"evt", "e", "pass", "u64"}, func(row []float64) error {
+			if len(row) != 4 {
+				t.Fatalf("row of %d", len(row))
+			}
+			return nil
+		})
+		if err != nil {
+			mustBeInputError(t, err)
+		}
+	})
 }

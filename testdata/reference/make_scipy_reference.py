@@ -43,12 +43,12 @@ def runs_cdf(n1, n2, r):
 
 
 def comparison(path_a, path_b, value, errors, rho):
+    """Each error column is a source k with its own correlation rho[k]:
+    sigma_d^2 = sum_k (sa_k^2 + sb_k^2 - 2 rho_k sa_k sb_k)."""
     a = pd.read_csv(path_a, comment="#")
     b = pd.read_csv(path_b, comment="#")
-    sa = np.sqrt(sum(a[e] ** 2 for e in errors))
-    sb = np.sqrt(sum(b[e] ** 2 for e in errors))
     d = a[value] - b[value]
-    sd = np.sqrt(sa**2 + sb**2 - 2 * rho * sa * sb)
+    sd = np.sqrt(sum(a[e] ** 2 + b[e] ** 2 - 2 * rho[e] * a[e] * b[e] for e in errors))
     pulls = (d / sd).to_numpy()
     n = len(pulls)
     chi2 = float(np.sum(pulls**2))
@@ -60,7 +60,7 @@ def comparison(path_a, path_b, value, errors, rho):
     pmax = float(np.max(np.abs(pulls)))
     q = 2 * stats.norm.sf(pmax)
     return {
-        "a": path_a, "b": path_b, "value": value, "errors": errors, "correlation": rho,
+        "a": path_a, "b": path_b, "value": value, "errors": errors, "correlations": rho,
         "pulls": pulls.tolist(),
         "chi2": chi2, "ndf": n, "p_value": float(stats.chi2.sf(chi2, n)),
         "pull_mean": float(np.mean(pulls)), "pull_width": float(np.std(pulls, ddof=1)),
@@ -92,8 +92,9 @@ out = {
     "runs_cdf": [[n1, n2, r, runs_cdf(n1, n2, r)] for n1, n2, r in
                  [(5, 5, 3), (10, 10, 6), (10, 10, 7), (12, 8, 5), (20, 20, 14), (3, 7, 2), (1, 1, 2), (30, 40, 25), (200, 180, 150)]],
     "comparisons": [
-        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], 0.0),
-        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], 0.4),
+        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], {"stat": 0.0, "syst": 0.0}),
+        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], {"stat": 0.4, "syst": 0.4}),
+        comparison("testdata/reference/heron_like_a.csv", "testdata/reference/heron_like_b.csv", "y", ["stat", "syst"], {"stat": 0.6, "syst": 1.0}),
     ],
 }
 json.dump(out, sys.stdout, indent=1)

@@ -4,10 +4,11 @@ import (
 	"bytes"
 	"crypto/sha256"
 	"encoding/hex"
-	"encoding/json"
+	"errors"
 	"fmt"
 	"slices"
 	"strconv"
+	"unicode/utf8"
 
 	"tandem/blind"
 	"tandem/compare/table"
@@ -37,14 +38,14 @@ var Genesis = hex.EncodeToString(make([]byte, 32))
 // exactly two escapes: '"' as \" and '\' as \\; every other character is
 // written as its UTF-8 bytes, and control characters never occur.
 type Entry struct {
-	Seq   int               `json:"seq"`
-	Prev  string            `json:"prev"`
-	Step  string            `json:"step"`
-	Time  string            `json:"time"`
-	Actor string            `json:"actor"`
-	Files map[string]string `json:"files"`
-	Data  map[string]string `json:"data"`
-	Sig   string            `json:"sig"`
+	Seq   int
+	Prev  string
+	Step  string
+	Time  string
+	Actor string
+	Files map[string]string
+	Data  map[string]string
+	Sig   string
 
 	hash string
 }
@@ -142,11 +143,24 @@ func ParseLedger(path string, data []byte) ([]Entry, error) {
 	if len(data) == 0 || data[len(data)-1] != '\n' {
 		return nil, table.Errorf(path, 1+bytes.Count(data, []byte("\n")), 0, "ledger does not end with a newline (torn write?)")
 	}
-	out := make([]Entry, 0, bytes.Count(rest, []byte("\n")))
+	return ParseMore(path, nil, rest)
+}
+
+// ParseMore parses lines appended to a ledger whose earlier entries are
+// known (the ledger is append-only, so a reader that has parsed a prefix
+// only reads what was added). more holds whole LF-terminated lines.
+func ParseMore(path string, entries []Entry, more []byte) ([]Entry, error) {
+	if len(more) > 0 && more[len(more)-1] != '\n' {
+		return nil, table.Errorf(path, len(entries)+2+bytes.Count(more, []byte("\n")), 0, "ledger does not end with a newline (torn write?)")
+	}
+	out := slices.Grow(entries, bytes.Count(more, []byte("\n")))
 	prev := Genesis
-	for ln := 2; len(rest) > 0; ln++ {
+	if len(out) > 0 {
+		prev = out[len(out)-1].hash
+	}
+	for ln := len(out) + 2; len(more) > 0; ln++ {
 		var line []byte
-		line, rest, _ = bytes.Cut(rest, []byte("\n"))
+		line, more, _ = bytes.Cut(more, []byte("\n"))
 		e, err := DecodeEntry(line)
 		if err != nil {
 			return nil, table.Errorf(path, ln, 0, "%v", err)
@@ -163,20 +177,145 @@ func ParseLedger(path string, data []byte) ([]Entry, error) {
 	return out, nil
 }
 
-// DecodeEntry parses one canonical ledger line (without its LF).
+// DecodeEntry parses one canonical ledger line (without its LF). The
+// parser reads exactly the grammar of [Entry] and nothing else: members in
+// the fixed order, strings with only the two escapes, map keys strictly
+// increasing, valid UTF-8 and no control character.
 func DecodeEntry(line []byte) (Entry, error) {
 	var e Entry
-	dec := json.NewDecoder(bytes.NewReader(line))
-	dec.DisallowUnknownFields()
-	if err := dec.Decode(&e); err != nil {
-		return e, fmt.Errorf("entry is not valid JSON: %v", err)
+	p := &lineParser{b: line}
+	p.lit(`{"seq":`)
+	e.Seq = p.int()
+	p.lit(`,"prev":`)
+	e.Prev = p.str()
+	p.lit(`,"step":`)
+	e.Step = p.str()
+	p.lit(`,"time":`)
+	e.Time = p.str()
+	p.lit(`,"actor":`)
+	e.Actor = p.str()
+	if p.try(`,"files":`) {
+		e.Files = p.obj()
 	}
-	if dec.More() {
-		return e, fmt.Errorf("entry has trailing data")
+	if p.try(`,"data":`) {
+		e.Data = p.obj()
+	}
+	if p.try(`,"sig":`) {
+		e.Sig = p.str()
+	}
+	p.lit(`}`)
+	if p.err == nil && p.i != len(line) {
+		p.fail("trailing data")
+	}
+	if p.err != nil {
+		return e, fmt.Errorf("entry is not a canonical ledger line (edited by hand?): %v at byte %d", p.err, p.i+1)
+	}
+	if !utf8.Valid(line) {
+		return e, fmt.Errorf("entry is not valid UTF-8")
 	}
 	if !bytes.Equal(e.Line(), line) {
 		return e, fmt.Errorf("entry is not in canonical form (edited by hand?)")
 	}
 	e.hash = HashLine(line)
 	return e, nil
+}
+
+// lineParser reads the canonical ledger-line grammar; the first error
+// sticks.
+type lineParser struct {
+	b   []byte
+	i   int
+	err error
+}
+
+func (p *lineParser) fail(msg string) {
+	if p.err == nil {
+		p.err = errors.New(msg)
+	}
+}
+
+func (p *lineParser) lit(s string) {
+	if !p.try(s) {
+		p.fail("expected " + s)
+	}
+}
+
+func (p *lineParser) try(s string) bool {
+	if p.err == nil && bytes.HasPrefix(p.b[p.i:], []byte(s)) {
+		p.i += len(s)
+		return true
+	}
+	return false
+}
+
+func (p *lineParser) int() int {
+	if p.err != nil {
+		return 0
+	}
+	j := p.i
+	for j < len(p.b) && p.b[j] >= '0' && p.b[j] <= '9' {
+		j++
+	}
+	if j == p.i || (p.b[p.i] == '0' && j-p.i > 1) || j-p.i > 9 {
+		p.fail("expected a decimal number without leading zeros")
+		return 0
+	}
+	n, _ := strconv.Atoi(string(p.b[p.i:j]))
+	p.i = j
+	return n
+}
+
+func (p *lineParser) str() string {
+	if p.err != nil {
+		return ""
+	}
+	if p.i >= len(p.b) || p.b[p.i] != '"' {
+		p.fail("expected a string")
+		return ""
+	}
+	var out []byte
+	for j := p.i + 1; j < len(p.b); j++ {
+		switch c := p.b[j]; {
+		case c == '"':
+			p.i = j + 1
+			return string(out)
+		case c == '\\':
+			if j+1 < len(p.b) && (p.b[j+1] == '"' || p.b[j+1] == '\\') {
+				out = append(out, p.b[j+1])
+				j++
+				continue
+			}
+			p.i = j
+			p.fail("only \\\" and \\\\ are allowed as escapes")
+			return ""
+		case c < 0x20 || c == 0x7f:
+			p.i = j
+			p.fail("control character in a string")
+			return ""
+		default:
+			out = append(out, c)
+		}
+	}
+	p.fail("unterminated string")
+	return ""
+}
+
+func (p *lineParser) obj() map[string]string {
+	p.lit("{")
+	m := map[string]string{}
+	prev := ""
+	for first := true; p.err == nil; first = false {
+		if !first && !p.try(",") {
+			break
+		}
+		k := p.str()
+		if !first && k <= prev {
+			p.fail("object keys must be sorted and unique")
+		}
+		prev = k
+		p.lit(":")
+		m[k] = p.str()
+	}
+	p.lit("}")
+	return m
 }

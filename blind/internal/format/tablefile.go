@@ -117,7 +117,7 @@ func DecodeTableFile(name string, data []byte, kind TableKind, lo, hi string) (*
 		}
 		f.Nonce = nonce
 	}
-	t, err := table.ParseCSV(name, data, table.CSVOptions{Lo: lo, Hi: hi, Delim: ','})
+	t, err := decodeCSV(name, lines[len(keys)+1], len(keys)+2, lo, hi)
 	if err != nil {
 		return nil, err
 	}
@@ -155,4 +155,57 @@ func NewNonce() ([]byte, error) {
 func Digest(data []byte) string {
 	h := sha256.Sum256(data)
 	return hex.EncodeToString(h[:])
+}
+
+// decodeCSV reads the canonical CSV of a table file, starting at line
+// first: the header (lo, hi, then the other column names), then one row per
+// bin of canonical numbers (see the package doc), comma-separated, each
+// line ending in LF. Anything else is refused with its line and column.
+func decodeCSV(name, text string, first int, lo, hi string) (*table.Table, error) {
+	header, rest, ok := strings.Cut(text, "\n")
+	if !ok {
+		return nil, table.Errorf(name, first, 0, "no table after the header lines")
+	}
+	names := strings.Split(header, ",")
+	if len(names) < 3 || names[0] != lo || names[1] != hi {
+		return nil, table.Errorf(name, first, 1, "header must start with %s,%s and name at least one column", lo, hi)
+	}
+	t := &table.Table{Source: name, LoName: lo, HiName: hi, Names: names[2:], Cols: make([][]float64, len(names)-2), FirstLine: first + 1}
+	n := strings.Count(rest, "\n")
+	if n == 0 || !strings.HasSuffix(rest, "\n") {
+		return nil, table.Errorf(name, first+1, 0, "table has no bins, or its last line has no LF")
+	}
+	t.Lo, t.Hi = make([]float64, 0, n), make([]float64, 0, n)
+	for j := range t.Cols {
+		t.Cols[j] = make([]float64, 0, n)
+	}
+	for ln := first + 1; rest != ""; ln++ {
+		var row string
+		row, rest, _ = strings.Cut(rest, "\n")
+		col := 1
+		for j := 0; j < len(names); j++ {
+			field, tail, more := strings.Cut(row, ",")
+			if more != (j < len(names)-1) {
+				return nil, table.Errorf(name, ln, col, "expected %d comma-separated numbers", len(names))
+			}
+			v, err := strconv.ParseFloat(field, 64)
+			if err != nil || table.Format(v) != field {
+				return nil, table.Errorf(name, ln, col, "%q is not a number in canonical form", field)
+			}
+			switch j {
+			case 0:
+				t.Lo = append(t.Lo, v)
+			case 1:
+				t.Hi = append(t.Hi, v)
+			default:
+				t.Cols[j-2] = append(t.Cols[j-2], v)
+			}
+			col += len(field) + 1
+			row = tail
+		}
+	}
+	if err := t.Validate(); err != nil {
+		return nil, err
+	}
+	return t, nil
 }
