@@ -217,25 +217,38 @@ func scanField(line []byte, pos int, delim byte) (v float64, end int, ok bool) {
 			i++
 		}
 	}
-	// m may wrap on more than 19 digits; the count check rejects that.
+	// Leading zeros ("0.000123") are skipped and not counted; m may wrap
+	// on more than 19 other digits, which the count check rejects.
 	var m uint64
 	start := i
+	for i < len(line) && line[i] == '0' {
+		i++
+	}
+	zeros := i - start
 	for i < len(line) && line[i]-'0' <= 9 {
 		m = m*10 + uint64(line[i]-'0')
 		i++
 	}
-	digits, frac := i-start, 0
+	seen := i > start
+	digits, frac := i-start-zeros, 0
 	if i < len(line) && line[i] == '.' {
 		i++
 		fstart := i
+		if m == 0 {
+			for i < len(line) && line[i] == '0' {
+				i++
+			}
+		}
+		fzeros := i - fstart
 		for i < len(line) && line[i]-'0' <= 9 {
 			m = m*10 + uint64(line[i]-'0')
 			i++
 		}
 		frac = i - fstart
-		digits += frac
+		digits += frac - fzeros
+		seen = seen || frac > 0
 	}
-	if digits == 0 || digits > 19 {
+	if !seen || digits > 19 {
 		return 0, 0, false
 	}
 	q := -frac
