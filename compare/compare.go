@@ -2,16 +2,21 @@
 // result.
 //
 // For bin i of a compared column, with values a_i, b_i and uncertainties
-// σ_a,i, σ_b,i, the difference, its uncertainty and the pull are
+// from sources k (each uncertainty column is one source, with its own
+// correlation ρ_k between the two chains; see [Options]), the difference,
+// its uncertainty and the pull are
 //
-//	d_i   = a_i - b_i
-//	σ_d,i² = σ_a,i² + σ_b,i² - 2 ρ σ_a,i σ_b,i      (default)
-//	σ_d,i² = |σ_a,i² - σ_b,i²|                      (Barlow's rule, one sample a subset of the other)
-//	p_i   = d_i / σ_d,i
+//	d_i    = a_i - b_i
+//	σ_d,i² = Σ_k (σ_a,k,i - σ_b,k,i)² + 2 (1 - ρ_k) σ_a,k,i σ_b,k,i   (default)
+//	σ_d,i² = |(σ_a,i - σ_b,i)(σ_a,i + σ_b,i)|                         (Barlow's rule, one sample a subset of the other)
+//	p_i    = d_i / σ_d,i
 //
-// where ρ is the declared correlation of the two chains' errors. When full
-// covariance matrices are given, χ² uses W = V_a + V_b - C - Cᵀ, with C the
-// cross-covariance, and is computed through a Cholesky factorisation:
+// The first form is Σ_k (σ_a,k² + σ_b,k² - 2ρ_k σ_a,k σ_b,k) without its
+// cancellation; σ_a,i in the second is the quadrature sum of a's sources.
+// Very small or large σ are scaled by a power of two before squaring. A bin
+// with σ_d = 0 and d ≠ 0 has an infinite pull and cannot be compared. When
+// full covariance matrices are given, χ² uses W = V_a + V_b - C - Cᵀ, with C
+// the cross-covariance, and is computed through a Cholesky factorisation:
 //
 //	χ² = dᵀ W⁻¹ d,  ndf = number of compared bins
 //
@@ -25,13 +30,16 @@
 // the report says when it was used.
 //
 // The shape of the pulls is tested too: their mean and sample width, the
-// exact one-sample Kolmogorov–Smirnov test against N(0,1), the exact one-sided
-// Wald–Wolfowitz runs test on the signs of d_i (zeros dropped), and the
-// largest |p_i| with its Šidák trials-corrected p-value
+// one-sample Kolmogorov–Smirnov test against N(0,1) (see
+// [stats.KSPValue]), the exact one-sided Wald–Wolfowitz runs test on the
+// signs of d_i (zeros dropped), and the largest |p_i| with its Šidák
+// trials-corrected p-value
 //
 //	p_max = 1 - (1 - 2(1 - Φ(|p|max)))^n
 //
-// Tolerances and the verdict are described in [Limits].
+// The verdict holds these p-values, over a whole family of comparisons, to
+// one false-alarm rate α by Holm's method ([AdjustFamily]); tolerances are
+// described in [Options].
 package compare
 
 import (
@@ -258,6 +266,11 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 	}
 	if cov && (opt.CovA.SymmetricDim() != n || opt.CovB.SymmetricDim() != n) {
 		return nil, fmt.Errorf("covariance matrices are %d×%d and %d×%d for %d bins", opt.CovA.SymmetricDim(), opt.CovA.SymmetricDim(), opt.CovB.SymmetricDim(), opt.CovB.SymmetricDim(), n)
+	}
+	if cov && opt.CovCross != nil {
+		if rr, cc := opt.CovCross.Dims(); rr != n || cc != n {
+			return nil, fmt.Errorf("cross-covariance is %d×%d for %d bins", rr, cc, n)
+		}
 	}
 	if c := e.Default; cov && opt.CovCross == nil && c.Set && c.Value != 0 {
 		cross, err := CrossFromCorrelation(opt.CovA, opt.CovB, c.Value)
@@ -515,9 +528,6 @@ func covChi2(r *Result, opt *Options) (float64, float64, error) {
 	w := mat.NewSymDense(n, nil)
 	w.AddSym(opt.CovA, opt.CovB)
 	if opt.CovCross != nil {
-		if rr, cc := opt.CovCross.Dims(); rr != n || cc != n {
-			return 0, 0, fmt.Errorf("cross-covariance is %d×%d for %d bins", rr, cc, n)
-		}
 		for i := 0; i < n; i++ {
 			for j := i; j < n; j++ {
 				w.SetSym(i, j, w.At(i, j)-opt.CovCross.At(i, j)-opt.CovCross.At(j, i))

@@ -115,6 +115,14 @@ func TestMagnitudeAndCancellation(t *testing.T) {
 				t.Fatal(err)
 			}
 			got := rs[0].Pulls[0]
+			// The campaign's entry point (Tables) gives the same pull.
+			rt, err := Tables(ta, tb, []Selection{sel}, opt.EdgeTol, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if p := rt[0].Pulls[0]; p != got || rt[0].NDF != rs[0].NDF {
+				t.Errorf("Tables: pull %v ndf %d, Columns: pull %v ndf %d", p, rt[0].NDF, got, rs[0].NDF)
+			}
 			// from the decimal strings: the pull a user means
 			var sa, sb, rho, sa64, sb64, rho64 []*big.Float
 			for k, n := range sel.Errors {

@@ -1,6 +1,7 @@
 package compare
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -69,11 +70,11 @@ type Options struct {
 	// Default is the correlation of the sources Correlations does not
 	// name: a number, or a column holding one value per bin. Its Set field
 	// records that it was written explicitly.
-	Default Rho `toml:"correlation" json:"correlation"`
+	Default Rho `toml:"correlation,omitempty" json:"correlation"`
 	// Correlations gives per-source correlations.
-	Correlations map[string]Rho `toml:"correlations" json:"correlations,omitempty"`
+	Correlations map[string]Rho `toml:"correlations,omitempty" json:"correlations,omitempty"`
 	// Overlap derives a per-bin correlation from event counts.
-	Overlap Overlap `toml:"overlap" json:"overlap,omitzero"`
+	Overlap Overlap `toml:"overlap,omitempty" json:"overlap,omitzero"`
 
 	// CovA and CovB are optional covariance matrices (n×n) of the two
 	// chains; when both are given, χ² is dᵀ W⁻¹ d with
@@ -165,8 +166,27 @@ func (r Rho) MarshalTOML() ([]byte, error) {
 	return []byte(strconv.FormatFloat(r.Value, 'g', -1, 64)), nil
 }
 
-// MarshalJSON writes the number or the column name.
-func (r Rho) MarshalJSON() ([]byte, error) { return r.MarshalTOML() }
+// MarshalJSON writes the number or the column name, or null when nothing
+// was declared.
+func (r Rho) MarshalJSON() ([]byte, error) {
+	if !r.Set {
+		return []byte("null"), nil
+	}
+	return r.MarshalTOML()
+}
+
+// UnmarshalJSON accepts a number or a column name.
+func (r *Rho) UnmarshalJSON(b []byte) error {
+	var v any
+	if err := json.Unmarshal(b, &v); err != nil {
+		return err
+	}
+	if v == nil {
+		*r = Rho{}
+		return nil
+	}
+	return r.UnmarshalTOML(v)
+}
 
 // Overlap names the per-bin event counts from which the correlation of the
 // statistical errors is derived:

@@ -1,6 +1,7 @@
 package compare
 
 import (
+	"encoding/json"
 	"math"
 	"strings"
 	"testing"
@@ -49,11 +50,51 @@ overlap = { count = "n", common = "n_common" }
 	if d := cmp.Diff(o.Correlations, back.Correlations); d != "" {
 		t.Errorf("TOML round trip of correlations (-want +got):\n%s", d)
 	}
+	// the whole options, declared and not, survive a TOML round trip
+	for _, o := range []Options{o, Defaults()} {
+		var buf strings.Builder
+		if err := toml.NewEncoder(&buf).Encode(o); err != nil {
+			t.Fatal(err)
+		}
+		back := Defaults()
+		if _, err := toml.Decode(buf.String(), &back); err != nil {
+			t.Fatalf("re-decoding %q: %v", buf.String(), err)
+		}
+		if d := cmp.Diff(o, back); d != "" {
+			t.Errorf("TOML round trip of %q (-want +got):\n%s", buf.String(), d)
+		}
+	}
 	for _, bad := range []string{`correlation = 1.5`, `correlations = { stat = true }`, `correlations = { stat = "" }`} {
 		o := Defaults()
 		if _, err := toml.Decode(bad, &o); err == nil {
 			t.Errorf("%s: accepted", bad)
 		}
+	}
+}
+
+// TestOptionsJSON: the options survive a JSON round trip (a statement or
+// report may carry them).
+func TestOptionsJSON(t *testing.T) {
+	o := Defaults()
+	o.MaxPull, o.Default = 4, Number(0.25)
+	o.Correlations = map[string]Rho{"lumi": Number(1), "eff": {Column: "rho_eff", Set: true}}
+	o.Overlap = Overlap{Count: "n", Common: "n_common"}
+	for _, o := range []Options{o, Defaults()} {
+		b, err := json.Marshal(o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var back Options
+		if err := json.Unmarshal(b, &back); err != nil {
+			t.Fatalf("decoding %s: %v", b, err)
+		}
+		if d := cmp.Diff(o, back); d != "" {
+			t.Errorf("JSON round trip of %s (-want +got):\n%s", b, d)
+		}
+	}
+	var r Rho
+	if err := json.Unmarshal([]byte(`1.5`), &r); err == nil {
+		t.Error("correlation 1.5 decoded")
 	}
 }
 

@@ -1,10 +1,6 @@
 package compare
 
-import (
-	"fmt"
-
-	"tandem/compare/table"
-)
+import "tandem/compare/table"
 
 // Entry is the comparison of one column of one observable between two
 // chains.
@@ -93,38 +89,13 @@ func (e *Entry) Sides() (string, string) {
 func (e *Entry) Verdict() string { return verdict(e.Pass) }
 
 // Tables compares the selected columns of two tables, after checking that
-// their bins agree within the relative edge tolerance edgeTol.
+// their bins agree within the relative edge tolerance edgeTol. It is
+// [Columns] with opt.EdgeTol set to edgeTol: each uncertainty column is its
+// own error source (so 1e-200 errors keep their pulls), and the results are
+// adjusted together as one family at opt.Alpha.
 func Tables(a, b *table.Table, sels []Selection, edgeTol float64, opt Options) ([]*Result, error) {
-	if err := table.SameEdges(a, b, edgeTol); err != nil {
-		return nil, err
-	}
-	if len(sels) == 0 {
-		return nil, fmt.Errorf("%s: no value columns to compare", a.Source)
-	}
-	out := make([]*Result, 0, len(sels))
-	for _, sel := range sels {
-		var sb *table.Series
-		var errB error
-		done := make(chan struct{})
-		go func() {
-			defer close(done)
-			sb, errB = b.Series(sel)
-		}()
-		sa, err := a.Series(sel)
-		<-done
-		if err != nil {
-			return nil, err
-		}
-		if errB != nil {
-			return nil, errB
-		}
-		r, err := Series(sa, sb, opt)
-		if err != nil {
-			return nil, fmt.Errorf("column %q: %w", sel.Value, err)
-		}
-		out = append(out, r)
-	}
-	return out, nil
+	opt.EdgeTol = edgeTol
+	return Columns(a, b, sels, opt)
 }
 
 // Selection is re-exported so callers of Tables need not import table.

@@ -170,3 +170,23 @@ func TestIllConditioned(t *testing.T) {
 		t.Errorf("want ErrNotPositiveDefinite with its eigenvalue, got %v", err)
 	}
 }
+
+// TestBadShapes: matrices and error columns of the wrong size are errors,
+// not panics.
+func TestBadShapes(t *testing.T) {
+	a, b := sym([]float64{1, 2}, []float64{1, 1}), sym([]float64{1.1, 1.9}, []float64{1, 1})
+	o := Defaults()
+	o.CovA, o.CovB = mat.NewSymDense(2, []float64{1, 0, 0, 1}), mat.NewSymDense(2, []float64{1, 0, 0, 1})
+	o.CovCross = mat.NewDense(3, 3, nil)
+	if _, err := Series(a, b, o); err == nil || !strings.Contains(err.Error(), "cross-covariance is 3×3") {
+		t.Errorf("wrong cross-covariance size: %v", err)
+	}
+	o.CovCross, o.CovB = nil, mat.NewSymDense(3, nil)
+	if _, err := Series(a, b, o); err == nil {
+		t.Error("wrong covariance size accepted")
+	}
+	short := sym([]float64{1, 2}, []float64{1})
+	if _, err := Series(a, short, Defaults()); err == nil {
+		t.Error("short error column accepted")
+	}
+}

@@ -27,6 +27,7 @@ th{text-align:left;background:#f3f5f8}td:first-child{text-align:left}
 tr.split td{background:#fde8e8;font-weight:600}tr.first td{background:#fff6e5}
 svg{background:#fff;border:1px solid #e3e6ea}.figs{display:flex;flex-wrap:wrap;gap:.6em}
 .note{background:#f6f7f9;padding:.4em .8em;border-left:3px solid #8893a4}
+.wide{overflow-x:auto}
 </style></head><body>
 <h1>%s</h1>
 <p>Verdict: %s</p>
@@ -60,7 +61,7 @@ svg{background:#fff;border:1px solid #e3e6ea}.figs{display:flex;flex-wrap:wrap;g
 	}
 	if len(r.Steps) > 0 {
 		fmt.Fprintf(ew, "<h2>Cut flow</h2>\n<p>Counts are cumulative. Efficiencies are per step with %g%% Clopper–Pearson intervals; the test is McNemar's exact test on the common events one chain keeps and the other drops, Holm-adjusted over the steps (α = %g).</p>\n", 100*r.CL, r.Alpha)
-		fmt.Fprintf(ew, "<table><tr><th>cut</th><th>%s</th><th>%s</th><th>both</th><th>only %s</th><th>only %s</th><th>eff %s</th><th>eff %s</th><th>p</th><th>adjusted</th></tr>\n",
+		fmt.Fprintf(ew, "<div class=\"wide\"><table><tr><th>cut</th><th>%s</th><th>%s</th><th>both</th><th>only %s</th><th>only %s</th><th>eff %s</th><th>eff %s</th><th>p</th><th>adjusted</th></tr>\n",
 			esc(r.LabelA), esc(r.LabelB), esc(r.LabelA), esc(r.LabelB), esc(r.LabelA), esc(r.LabelB))
 		for k, s := range r.Steps {
 			cls := ""
@@ -73,15 +74,15 @@ svg{background:#fff;border:1px solid #e3e6ea}.figs{display:flex;flex-wrap:wrap;g
 			fmt.Fprintf(ew, "<tr%s><td>%s</td><td>%d</td><td>%d</td><td>%d</td><td>%d</td><td>%d</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td></tr>\n",
 				cls, esc(s.Cut), s.A, s.B, s.Both, s.OnlyA, s.OnlyB, effStr(s.EffA), effStr(s.EffB), pval(s.PValue), pval(s.Adjusted))
 		}
-		fmt.Fprintln(ew, "</table>")
+		fmt.Fprintln(ew, "</table></div>")
 		if r.FirstSplit >= 0 {
 			fmt.Fprintf(ew, "<p class=\"fail\">The chains part at cut %s.</p>\n", esc(r.Steps[r.FirstSplit].Cut))
 		}
 	}
 	if len(r.Worst) > 0 {
-		fmt.Fprintln(ew, "<h2>Events that fail most</h2>\n<table><tr><th>key</th><th>outside</th><th>max rel</th>")
+		fmt.Fprintf(ew, "<h2>Events that fail most</h2>\n<p>Values as %s / %s.</p>\n<div class=\"wide\"><table><tr><th>key</th><th>outside</th><th>max rel</th>", esc(r.LabelA), esc(r.LabelB))
 		for _, v := range r.Variables {
-			fmt.Fprintf(ew, "<th>%s (%s / %s)</th>", esc(v.Name), esc(r.LabelA), esc(r.LabelB))
+			fmt.Fprintf(ew, "<th>%s</th>", esc(v.Name))
 		}
 		fmt.Fprintln(ew, "</tr>")
 		for _, e := range r.Worst {
@@ -91,7 +92,7 @@ svg{background:#fff;border:1px solid #e3e6ea}.figs{display:flex;flex-wrap:wrap;g
 			}
 			fmt.Fprintln(ew, "</tr>")
 		}
-		fmt.Fprintln(ew, "</table>")
+		fmt.Fprintln(ew, "</table></div>")
 	}
 	if r.Binning != nil {
 		fmt.Fprintf(ew, "<h2>Overlap per bin of %s</h2>\n<table><tr><th>lo</th><th>hi</th>", esc(r.Binning.Var))

@@ -45,8 +45,8 @@ type junitText struct {
 }
 
 // JUnit writes one test suite per pair of chains, named after the
-// campaign (or what was compared) and the pair, e.g. "campaign muon: heron
-// vs otter", with one test case per observable and column, named
+// campaign and the pair, e.g. "campaign muon: heron vs otter" (in table
+// mode the pair alone), with one test case per observable and column, named
 // "observable / column" (and its title when declared); a failing case
 // carries its failed criteria, and an accepted disagreement says so.
 func JUnit(w io.Writer, s *compare.Summary) error {
@@ -66,7 +66,11 @@ func JUnit(w io.Writer, s *compare.Summary) error {
 		if !ok {
 			k = len(out.Suites)
 			suiteOf[pair] = k
-			out.Suites = append(out.Suites, junitSuite{Name: fmt.Sprintf("%s: %s vs %s", name, a, b)})
+			suite := fmt.Sprintf("%s vs %s", a, b)
+			if s.Campaign != "" {
+				suite = "campaign " + s.Campaign + ": " + suite
+			}
+			out.Suites = append(out.Suites, junitSuite{Name: suite})
 		}
 		caseName := e.Observable + " / " + e.Column
 		if e.Title != "" {

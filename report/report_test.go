@@ -161,6 +161,9 @@ func TestJSONContract(t *testing.T) {
 	if doc["verdict"] != "fail" {
 		t.Errorf("verdict %v", doc["verdict"])
 	}
+	if _, ok := doc["accepted_disagreements"].([]any); !ok {
+		t.Errorf("accepted_disagreements is not a list: %v", doc["accepted_disagreements"])
+	}
 	obs := doc["observables"].([]any)
 	for _, o := range obs {
 		m := o.(map[string]any)
@@ -172,6 +175,21 @@ func TestJSONContract(t *testing.T) {
 		}
 		if len(m["pulls"].([]any)) != int(m["bins"].(float64)) {
 			t.Errorf("pulls length")
+		}
+		// the inputs and settings beside the contract
+		for _, k := range []string{"labels", "criteria", "limits", "family_size", "sources", "accepted_disagreement", "per_bin"} {
+			if _, ok := m[k]; !ok {
+				t.Errorf("observable %v lacks %q", m["name"], k)
+			}
+		}
+		per := m["per_bin"].(map[string]any)
+		for _, k := range []string{"lo", "hi", "a", "error_a", "b", "error_b", "difference", "sigma_difference"} {
+			if xs, ok := per[k].([]any); !ok || len(xs) != int(m["bins"].(float64)) {
+				t.Errorf("observable %v: per_bin.%s is not one value per bin", m["name"], k)
+			}
+		}
+		if a := m["limits"].(map[string]any)["alpha"]; a != 0.01 {
+			t.Errorf("limits.alpha = %v", a)
 		}
 	}
 }
@@ -641,6 +659,77 @@ func TestAcceptedBesideVerdict(t *testing.T) {
 	for _, o := range doc.Observables {
 		if o.Accepted != (o.Name == "tilt") {
 			t.Errorf("%s: accepted_disagreement = %v", o.Name, o.Accepted)
+		}
+	}
+}
+
+// TestJUnitTableMode: without a campaign the suite is the pair of labels,
+// not the title repeated.
+func TestJUnitTableMode(t *testing.T) {
+	s := fixture(t)
+	s.Campaign, s.Title = "", "heron.csv vs otter.csv"
+	for i := range s.Entries {
+		s.Entries[i].Teams = [2]string{}
+		s.Entries[i].LabelA, s.Entries[i].LabelB = "heron.csv", "otter.csv"
+	}
+	var buf bytes.Buffer
+	if err := JUnit(&buf, s); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), `<testsuite name="heron.csv vs otter.csv" tests="2"`) {
+		t.Errorf("table-mode suite name:\n%s", buf.String())
+	}
+}
+
+// TestRenderOddInputs: every format renders degenerate comparisons
+// without panicking and the HTML stays finite: one bin, values of zero
+// (no ratio), values spanning 10⁻³⁰⁰ to 10³⁰⁰, zero combined uncertainty
+// with a difference (an infinite pull), negative values, 3000 bins.
+func TestRenderOddInputs(t *testing.T) {
+	mk := func(v, e []float64) *table.Series {
+		n := len(v)
+		s := &table.Series{Column: "y", Lo: make([]float64, n), Hi: make([]float64, n), V: v, Down: e, Up: e}
+		for i := range v {
+			s.Lo[i], s.Hi[i] = float64(i), float64(i+1)
+		}
+		return s
+	}
+	big := func(n int, f func(i int) float64) []float64 {
+		out := make([]float64, n)
+		for i := range out {
+			out[i] = f(i)
+		}
+		return out
+	}
+	cases := []struct {
+		name         string
+		a, ea, b, eb []float64
+	}{
+		{"one bin", []float64{5}, []float64{1}, []float64{6}, []float64{1}},
+		{"zeros", []float64{0, 0, 1}, []float64{1, 1, 1}, []float64{0, 1, 1}, []float64{1, 1, 1}},
+		{"extremes", []float64{1e-300, 1e300, 1}, []float64{1e-301, 1e299, 1}, []float64{2e-300, 1e300, 2}, []float64{1e-301, 1e299, 1}},
+		{"infinite pull", []float64{1, 2, 3}, []float64{0, 1, 1}, []float64{2, 2, 3}, []float64{0, 1, 1}},
+		{"negative", []float64{-5, -3, 2, 400}, []float64{1, 1, 1, 1}, []float64{-4, -3, 2, 401}, []float64{1, 1, 1, 1}},
+		{"3000 bins", big(3000, func(i int) float64 { return float64(i % 7) }), big(3000, func(int) float64 { return 1 }),
+			big(3000, func(i int) float64 { return float64(i % 5) }), big(3000, func(int) float64 { return 1 })},
+	}
+	for _, c := range cases {
+		r, err := compare.Series(mk(c.a, c.ea), mk(c.b, c.eb), compare.Options{Limits: compare.DefaultLimits})
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		s := &compare.Summary{Entries: []compare.Entry{{Observable: c.name, Result: r}}}
+		for _, f := range Formats {
+			var buf bytes.Buffer
+			if err := Render(&buf, f, s, Style{Color: true}); err != nil {
+				t.Errorf("%s, %s: %v", c.name, f, err)
+			}
+			if f == "html" && regexp.MustCompile(`="[^"]*(NaN|Inf)`).Match(buf.Bytes()) {
+				t.Errorf("%s: HTML has a NaN or Inf coordinate", c.name)
+			}
+			if f == "json" && !json.Valid(buf.Bytes()) {
+				t.Errorf("%s: invalid JSON", c.name)
+			}
 		}
 	}
 }

@@ -98,7 +98,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 			fmt.Fprintf(ew, "  showing the %d bins with the largest |pull| of %d\n", len(idx), e.Bins)
 		}
 		a, b := e.Sides()
-		bins := [][]string{{"bin", "lo", "hi", a, "±", b, "±", "a − b", "σ_d", "pull"}}
+		bins := [][]string{{"bin", "lo", "hi", shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull"}}
 		for _, i := range idx {
 			c := binCells(e, i)
 			if e.MaxPullBin == i || (st.Color && !passPull(e, i)) {

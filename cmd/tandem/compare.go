@@ -24,9 +24,11 @@ const compareHelp = `Usage:
     tandem compare A B [flags]
     tandem compare DIR [--tables blinded|unblinded] [flags]
 
-Compares the value columns of two binned tables (CSV or TSV with a header
-row) and prints the verdict, the criteria and a per-bin table. With a
-campaign folder it compares the teams' blinded tables as the protocol says.
+Compares the value columns of two binned tables and prints the verdict,
+the criteria and a per-bin table. A table is CSV or TSV with a header row
+(- reads one from the standard input), a JSON or TOML table (.json,
+.toml), or a ROOT histogram or graph (FILE.root:PATH). With a campaign
+folder it compares the teams' blinded tables as the protocol says.
 
 Value columns: --value names them (repeatable); otherwise every column that
 is not a bin edge or an uncertainty. Uncertainties: --error names them
@@ -45,12 +47,16 @@ largest-pull p-values of every compared column are adjusted together
 --abs-tol/--rel-tol require numerical agreement, and are the only criterion
 when the tables have no uncertainties.
 
+Report: --format text (the default), json, markdown, junit or html. With
+-o FILE and no --format, the extension chooses: .txt, .json, .md, .xml,
+.html. Nothing is written when the input is bad.
+
 Exit status: 0 agreement, 1 disagreement, 2 bad usage or input (also: no
 uncertainty column and no tolerance, or no criterion left).
 
 Example:
     tandem compare heron.csv otter.csv --value rate --error stat --error syst \
-        --error-correlation stat=0.6 --error-correlation syst=1 --format json -o verdict.json
+        --error-correlation stat=0.6 --error-correlation syst=1 -o verdict.json
 `
 
 // compareFlags are the comparison settings shared by table and campaign mode.
@@ -62,6 +68,8 @@ type compareFlags struct {
 	alpha, maxPull, minP                float64
 	absTol, relTol, edgeTol             float64
 	subset                              bool
+	delimiter                           string
+	limits                              table.Limits
 	overlapCount, overlapCommon         string
 	overlapSource                       string
 	labelA, labelB                      string
@@ -70,7 +78,7 @@ type compareFlags struct {
 }
 
 // tableOnly are the flags that campaign mode refuses (the protocol sets them).
-var tableOnly = []string{"alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol"}
+var tableOnly = []string{"alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
@@ -89,15 +97,41 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&cf.alpha, "alpha", d.Alpha, "family-wise false-alarm rate `A` of the p-value criteria (0: no p-value criteria)")
 	fs.Float64Var(&cf.minP, "min-p", d.Alpha, "deprecated: the same as --alpha")
 	fs.Float64Var(&cf.maxPull, "max-pull", 0, "optional raw limit `X` on the largest |pull|, not trials-corrected (0: none)")
-	fs.Float64Var(&cf.absTol, "abs-tol", 0, "absolute numerical tolerance per bin (chains that must agree to rounding)")
-	fs.Float64Var(&cf.relTol, "rel-tol", 0, "relative numerical tolerance per bin")
-	fs.Float64Var(&cf.edgeTol, "edge-tol", d.EdgeTol, "relative tolerance on bin edges")
+	fs.Float64Var(&cf.absTol, "abs-tol", 0, "absolute numerical tolerance `X` per bin (chains that must agree to rounding)")
+	fs.Float64Var(&cf.relTol, "rel-tol", 0, "relative numerical tolerance `X` per bin")
+	fs.Float64Var(&cf.edgeTol, "edge-tol", d.EdgeTol, "relative tolerance `X` on bin edges")
 	fs.StringVar(&cf.format, "format", "text", "output `FORMAT`: text, json, markdown, junit or html")
-	stringVar(fs, &cf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout")
+	stringVar(fs, &cf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout; its extension chooses the format when --format is not given")
 	fs.StringVar(&cf.name, "name", "", "observable `NAME` in the report (default: the first file's name)")
 	fs.StringVar(&cf.labelA, "label-a", "", "`LABEL` of the first table in the report (default: its file name)")
 	fs.StringVar(&cf.labelB, "label-b", "", "`LABEL` of the second table in the report (default: its file name)")
 	fs.StringVar(&cf.tables, "tables", "blinded", "campaign mode: compare the `blinded` or the `unblinded` tables")
+	registerLimits(fs, &cf.limits, &cf.delimiter)
+}
+
+// registerLimits adds the reader limits and the field separator.
+func registerLimits(fs *flag.FlagSet, lim *table.Limits, delim *string) {
+	d := table.DefaultLimits
+	fs.IntVar(&lim.MaxLineBytes, "max-line-bytes", d.MaxLineBytes, "refuse a table line longer than `N` bytes")
+	fs.IntVar(&lim.MaxColumns, "max-columns", d.MaxColumns, "refuse a table with more than `N` columns")
+	fs.Int64Var(&lim.MaxBytes, "max-input-bytes", d.MaxBytes, "refuse an input larger than `N` bytes")
+	fs.StringVar(delim, "delimiter", "", "field separator `C` of CSV tables: , or tab or ; (default: from the header)")
+}
+
+// csvOptions builds the reader options from the edge names, the limits
+// and the separator.
+func csvOptions(lo, hi, delim string, lim table.Limits) (table.CSVOptions, error) {
+	opt := table.CSVOptions{Lo: lo, Hi: hi, Limits: lim}
+	switch delim {
+	case "":
+	case ",", ";":
+		opt.Delim = delim[0]
+	case "tab", "\\t", "\t":
+		opt.Delim = '\t'
+	default:
+		return opt, usageErr("--delimiter must be , or ; or tab, got %q", delim)
+	}
+	return opt, nil
 }
 
 // check validates the flag values before any file is touched, and builds
@@ -105,6 +139,14 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	cf.set = map[string]bool{}
 	fs.Visit(func(f *flag.Flag) { cf.set[f.Name] = true })
+	if cf.output != "" && !cf.set["format"] {
+		f, ok := formatFromPath(cf.output)
+		if !ok {
+			return withHint(usageErr("cannot tell the format of %s from its extension", cf.output),
+				"give --format, or use .txt, .json, .md, .xml or .html")
+		}
+		cf.format = f
+	}
 	if !slices.Contains(report.Formats, cf.format) {
 		return usageErr("--format %q is not one of %s", cf.format, strings.Join(report.Formats, ", "))
 	}
@@ -204,7 +246,7 @@ func runCompare(e *env, args []string) error {
 		}
 		return compareCampaign(e, pos[0], &cf)
 	case len(pos) != 2:
-		return withHint(usageErr("compare wants two tables (or one campaign folder), got %d arguments", len(pos)),
+		return withHint(usageErr("compare wants two tables (or one campaign folder), got %s", argCount(len(pos))),
 			"tandem compare A.csv B.csv")
 	}
 	for _, p := range pos {
@@ -216,7 +258,11 @@ func runCompare(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	ts, err := input.ReadAll(table.CSVOptions{Lo: lo, Hi: hi}, pos[0], pos[1])
+	opt, err := csvOptions(lo, hi, cf.delimiter, cf.limits)
+	if err != nil {
+		return err
+	}
+	ts, err := input.ReadAllFrom(e.stdin, opt, pos[0], pos[1])
 	if err != nil {
 		return inputErr(err)
 	}
@@ -257,7 +303,7 @@ func runCompare(e *env, args []string) error {
 		if cf.labelB != "" {
 			r.LabelB = cf.labelB
 		}
-		s.Entries = append(s.Entries, compare.Entry{Observable: name, Result: r})
+		s.Entries = append(s.Entries, compare.Entry{Observable: name, Files: [2]string{a.Source, b.Source}, Result: r})
 	}
 	if cf.labelA != "" || cf.labelB != "" {
 		s.Title = fmt.Sprintf("%s vs %s", results[0].LabelA, results[0].LabelB)
@@ -303,17 +349,17 @@ func (cf *compareFlags) selections(a, b *table.Table) []compare.Selection {
 }
 
 func readCovariances(opt *compare.Options, cf *compareFlags, n int) error {
-	va, err := table.ReadMatrixFile(cf.covA, n, true)
+	va, err := table.ReadMatrixFileLimits(cf.covA, n, true, cf.limits)
 	if err != nil {
 		return inputErr(err)
 	}
-	vb, err := table.ReadMatrixFile(cf.covB, n, true)
+	vb, err := table.ReadMatrixFileLimits(cf.covB, n, true, cf.limits)
 	if err != nil {
 		return inputErr(err)
 	}
 	opt.CovA, opt.CovB = symDense(va), symDense(vb)
 	if cf.covAB != "" {
-		c, err := table.ReadMatrixFile(cf.covAB, n, false)
+		c, err := table.ReadMatrixFileLimits(cf.covAB, n, false, cf.limits)
 		if err != nil {
 			return inputErr(err)
 		}

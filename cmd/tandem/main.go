@@ -82,8 +82,16 @@ func usageErr(format string, args ...any) error {
 	return &exitError{code: 2, err: fmt.Errorf(format, args...)}
 }
 
-// inputErr is bad input (exit 2).
-func inputErr(err error) error { return &exitError{code: 2, err: err} }
+// inputErr is bad input (exit 2); a reader's hint (such as the flag that
+// raises a limit) is printed as a hint line.
+func inputErr(err error) error {
+	ee := &exitError{code: 2, err: err}
+	var te *table.Error
+	if errors.As(err, &te) && te.Hint != "" {
+		ee.hints = append(ee.hints, te.Hint)
+	}
+	return ee
+}
 
 // refused is a refused step or a disagreement (exit 1).
 func refused(err error) error { return &exitError{code: 1, err: err} }

@@ -86,10 +86,13 @@ func (o *Options) prepare(ca, cb []ColumnInfo, nameA, nameB string) error {
 		o.MemBudget = defaultBudget
 	}
 	if o.LabelA == "" {
-		o.LabelA = nameA
+		o.LabelA = filepath.Base(nameA)
 	}
 	if o.LabelB == "" {
-		o.LabelB = nameB
+		o.LabelB = filepath.Base(nameB)
+	}
+	if o.LabelA == o.LabelB {
+		o.LabelA, o.LabelB = "A: "+o.LabelA, "B: "+o.LabelB
 	}
 	l, err := ResolveLayout(ca, cb, nameA, nameB, o.Layout.Keys, o.Layout.Vars, o.Layout.Cuts)
 	if err != nil {
@@ -358,7 +361,8 @@ func (a *acc) common(key []int64, va []float64, ca uint64, pa int64, vb []float6
 		}
 		m := math.Max(math.Abs(x), math.Abs(y))
 		t := a.o.Tol[j]
-		if math.Abs(d) > math.Max(t.Abs, t.Rel*m) {
+		out := math.Abs(d) > math.Max(t.Abs, t.Rel*m)
+		if out {
 			st.Outside++
 			outside++
 		}
@@ -380,7 +384,7 @@ func (a *acc) common(key []int64, va []float64, ca uint64, pa int64, vb []float6
 		if r >= st.MaxRel.Value {
 			st.MaxRel.offer(r, key)
 		}
-		if math.Abs(va[j]-vb[j]) > math.Max(t.Abs, t.Rel*math.Max(math.Abs(va[j]), math.Abs(vb[j]))) {
+		if out {
 			worst = math.Max(worst, r)
 		}
 	}

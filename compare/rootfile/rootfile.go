@@ -1,20 +1,31 @@
-// Package rootfile reads one-dimensional histograms and graphs from ROOT
-// files into tandem tables, with go-hep's groot.
+// Package rootfile reads ROOT files with go-hep's groot: one-dimensional
+// histograms and graphs into tandem tables ([Read]), and the numeric
+// branches of a TTree as streamed rows ([ReadTree], [TreeColumns]).
 //
 // An object is named as FILE:PATH, for example "chain.root:spectra/h_rate".
-// The resulting table has the bin edges "lo" and "hi", the value column
-// "value", and either a symmetric uncertainty "err" or asymmetric ones
-// "err_minus" and "err_plus":
+// The table read from a histogram or graph has the bin edges "lo" and
+// "hi", the value column "value", and either a symmetric uncertainty "err"
+// or asymmetric ones "err_minus" and "err_plus":
 //
 //   - TH1D and TH1F (also with variable bin widths): edges from the axis,
 //     values from the bin contents, errors √(Σw²) when the sum of squared
 //     weights is stored, else √|content|. Under- and overflow are left out
-//     and reported in [Table.Notes].
+//     and reported in [table.Table.Notes].
 //   - TGraphErrors and TGraphAsymmErrors: a point (x, y) with x errors
 //     (e_lo, e_hi) becomes the bin [x - e_lo, x + e_hi]; y errors become
 //     "err" (equal) or "err_minus"/"err_plus".
 //
 // A plain TGraph has no x errors, hence no bins, and is refused.
+//
+// # Damaged files
+//
+// groot trusts the lengths a file declares, so a damaged file can make it
+// allocate without bound, which no recover catches. A program that calls
+// [Child] at start-up (cmd/tandem does) decodes every ROOT input in a
+// child copy of itself under [Limits]: a memory cap (RLIMIT_DATA on Linux;
+// the garbage collector's target elsewhere) and a time limit. Whatever the
+// file holds, the caller gets a table, rows, or a *table.Error naming the
+// input; a child that dies at a limit is reported as such.
 package rootfile
 
 import (

@@ -67,6 +67,7 @@ var errMalformed = errors.New("malformed answer")
 type frameWriter struct {
 	w   *bufio.Writer
 	err error
+	buf []byte // reused by floats
 }
 
 func newFrameWriter(w io.Writer) *frameWriter {
@@ -99,7 +100,10 @@ func (fw *frameWriter) json(kind byte, v any) error {
 }
 
 func (fw *frameWriter) floats(kind byte, v []float64) error {
-	b := make([]byte, 8*len(v))
+	if cap(fw.buf) < 8*len(v) {
+		fw.buf = make([]byte, 8*len(v))
+	}
+	b := fw.buf[:8*len(v)]
 	for i, x := range v {
 		binary.LittleEndian.PutUint64(b[8*i:], math.Float64bits(x))
 	}
@@ -127,7 +131,8 @@ func (fw *frameWriter) table(t *table.Table) error {
 
 // frameReader reads the stream, allocating no frame beyond its bound.
 type frameReader struct {
-	r *bufio.Reader
+	r   *bufio.Reader
+	buf []byte // reused for 'r' frames
 }
 
 func newFrameReader(r io.Reader) (*frameReader, error) {
@@ -159,7 +164,16 @@ func (fr *frameReader) next(kinds string, max int) (byte, []byte, error) {
 	case int64(n) > int64(max):
 		return 0, nil, fmt.Errorf("%w: a %q frame of %d bytes, more than the %d allowed", errMalformed, kind, n, max)
 	}
-	payload := make([]byte, n)
+	var payload []byte
+	if kind == 'r' {
+		// rows are consumed before the next frame: reuse the buffer
+		if cap(fr.buf) < int(n) {
+			fr.buf = make([]byte, n)
+		}
+		payload = fr.buf[:n]
+	} else {
+		payload = make([]byte, n)
+	}
 	if _, err := io.ReadFull(fr.r, payload); err != nil {
 		return 0, nil, err
 	}

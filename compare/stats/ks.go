@@ -97,9 +97,10 @@ func cell(u float64, n int) int {
 }
 
 // KSExactLimit is the largest n for which [KSPValue] evaluates the exact
-// distribution by the matrix method in the central region; above it the
-// Pelz–Good expansion is used there.
-const KSExactLimit = 10000
+// distribution by the matrix method; above it the Pelz–Good expansion is
+// used, whose difference from the exact value is below 1e-7 from here on
+// (measured: 6.4e-8 at n = 1000, falling as 1/n²; see TestPelzGoodExact).
+const KSExactLimit = 1000
 
 // KSPValue returns P(D_n >= d) for the two-sided one-sample
 // Kolmogorov–Smirnov statistic of n observations from a continuous

@@ -2,6 +2,7 @@ package stats
 
 import (
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"testing"
@@ -85,15 +86,20 @@ func TestKSLargeAgainstScipy(t *testing.T) {
 	t.Logf("largest difference from scipy %s: %.2g at n = %d, d = %.4g", ref.SciPy, worst, worstN, worstD)
 }
 
-// TestKSContinuousAtSwitch: the exact method just below KSExactLimit and
-// the expansion just above it agree to 1e-6 (the earlier asymptotic form
-// jumped by 1e-3 here).
-func TestKSContinuousAtSwitch(t *testing.T) {
-	for _, c := range []float64{0.4, 0.6, 0.8, 1.0, 1.2, 1.4, 1.6} {
-		d := c / math.Sqrt(KSExactLimit)
-		below, above := KSPValue(KSExactLimit, d), KSPValue(KSExactLimit+1, d*math.Sqrt(KSExactLimit/(KSExactLimit+1.0)))
-		if math.Abs(below-above) > 1e-6 {
-			t.Errorf("λ = %v: %v at n = %d, %v at n = %d", c, below, KSExactLimit, above, KSExactLimit+1)
+// TestPelzGoodExact: above KSExactLimit the Pelz–Good expansion is within
+// 1e-7 of the exact matrix method, so the p-value is continuous across the
+// switch (the earlier asymptotic form jumped by 1e-3 at its switch, n =
+// 10⁴), across the central region (λ = √n·d from
+// 0.3 to 1.9; beyond, the matrix method itself takes an upper-tail
+// shortcut).
+func TestPelzGoodExact(t *testing.T) {
+	for _, n := range []int{KSExactLimit + 1, 2 * KSExactLimit, 5 * KSExactLimit} {
+		for c := 0.3; c < 1.9; c += 0.1 {
+			d := c / math.Sqrt(float64(n))
+			ex, pg := 1-mtwCDF(n, d), 1-pelzGood(float64(n), d)
+			if math.Abs(ex-pg) > 1e-7 {
+				t.Errorf("n = %d, λ = %.1f: Pelz–Good %.10g, exact %.10g", n, c, pg, ex)
+			}
 		}
 	}
 }
@@ -124,13 +130,13 @@ func TestKSCriticalValues(t *testing.T) {
 	}
 }
 
-// TestKSLargeN checks the Pelz–Good branch against the exact branch where
-// both apply, and, at very large n, the 5% point of the limiting Kolmogorov
+// TestKSLargeN checks the Pelz–Good branch against the exact matrix method
+// at n = 10⁴, and, at very large n, the 5% point of the limiting Kolmogorov
 // distribution, λ = 1.3581 (standard tables; from memory).
 func TestKSLargeN(t *testing.T) {
-	exact := KSPValue(KSExactLimit, 0.012)
-	if approx := 1 - pelzGood(KSExactLimit, 0.012); !close(approx, exact, 0, 1e-8) {
-		t.Errorf("Pelz–Good %v vs exact %v at n=%d", approx, exact, KSExactLimit)
+	exact := 1 - mtwCDF(10000, 0.012)
+	if approx := KSPValue(10000, 0.012); !close(approx, exact, 0, 1e-8) {
+		t.Errorf("Pelz–Good %v vs exact %v at n = 10⁴", approx, exact)
 	}
 	const n = 1e12
 	if got := KSPValue(n, 1.3581/math.Sqrt(n)); !close(got, 0.05, 1e-3, 0) {
@@ -266,5 +272,19 @@ func TestKSCrowdedPulls(t *testing.T) {
 	}
 	if d := KSStatistic(x); math.Abs(d-0.5) > 1e-3 {
 		t.Errorf("D = %v, want about 0.5", d)
+	}
+}
+
+// BenchmarkKSPValue times the p-value at a typical λ = √n·D = 0.87 of
+// agreeing tables: the exact matrix method at n = 1000, the Pelz–Good
+// expansion above.
+func BenchmarkKSPValue(b *testing.B) {
+	for _, n := range []int{1000, 10000, 100000} {
+		b.Run(fmt.Sprint(n), func(b *testing.B) {
+			d := 0.87 / math.Sqrt(float64(n))
+			for b.Loop() {
+				KSPValue(n, d)
+			}
+		})
 	}
 }

@@ -112,7 +112,9 @@ func (s *splitter) next() (*block, *Error) {
 	if b == nil {
 		return nil, nil
 	}
-	need := s.target + s.lim.MaxLineBytes + 2
+	// Room for the target and a line of ordinary length; a longer line
+	// grows the buffer, up to the line limit.
+	need := s.target + 64<<10
 	if s.size > 0 && s.size-s.total+int64(len(s.carry)) < int64(need) {
 		need = int(s.size-s.total) + len(s.carry) + 2 // all that is left
 	}
@@ -141,7 +143,7 @@ func (s *splitter) next() (*block, *Error) {
 			}
 		}
 		if len(buf) == cap(buf) {
-			buf = append(buf, 0)[:len(buf)]
+			buf = append(buf, make([]byte, min(len(buf), s.lim.MaxLineBytes+1))...)[:len(buf)]
 		}
 		n, err := s.r.Read(buf[len(buf):cap(buf)])
 		buf = buf[:len(buf)+n]

@@ -90,7 +90,7 @@ func parse(name string, r io.Reader, size int64, opt CSVOptions, target int) (*T
 		opt.Hi = DefaultHi
 	}
 	t := &Table{Source: name, LoName: opt.Lo, HiName: opt.Hi}
-	s := newSplitter(r, lim, target, 2*runtime.GOMAXPROCS(0)+2)
+	s := newSplitter(r, lim, target, runtime.GOMAXPROCS(0)+2)
 	s.size = size
 	p, first, err := t.header(name, s, opt)
 	if err != nil {

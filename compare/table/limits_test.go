@@ -130,6 +130,13 @@ func TestManyColumns(t *testing.T) {
 	if n := len(DefaultSelections(tb)); n != 100_000 {
 		t.Errorf("%d selections", n)
 	}
+	// The same from a stream in small blocks: the buffer grows to hold
+	// the 200 kB lines.
+	text := b.String() + row.String() + "\n" + strings.Replace(row.String(), "0,1", "1,2", 1) + "\n"
+	st, err := parse("s", strings.NewReader(text), 0, CSVOptions{Limits: Limits{MaxColumns: 200_000}}, 4096)
+	if err != nil || st.Len() != 2 || st.line(1) != 3 {
+		t.Fatalf("stream: %v", err)
+	}
 }
 
 // TestDevZero: endless binary input (the zero device, also behind a

@@ -98,7 +98,16 @@ func eiselLemire(m uint64, q int, neg bool) (float64, bool) {
 	// P = w·5^q/2^e lies in [w·T, w·T + w). First w·Thi: the product
 	// w·T is at least (h1, h0)·2⁶⁴ and floor(P/2⁶⁴) at most (h1, h0) + w.
 	h1, h0 := bits.Mul64(w, pow5Hi[i])
-	top, decided := roundTop(h1, h0, w, false)
+	// The common case, decided by the first product alone (roundTop,
+	// written out): a carry from the slack into h1 leaves the top bits
+	// alone unless the bits below them are all ones, and the value is not
+	// possibly halfway.
+	shift := 9 + h1>>63
+	top, low := h1>>shift, h1&(1<<shift-1)
+	decided := (h0+w >= h0 || low != 1<<shift-1) && (top&1 == 0 || low != 0 || h0 != 0)
+	if !decided {
+		top, decided = roundTop(h1, h0, w, false)
+	}
 	if !decided {
 		// Then the full 192-bit product: P in [Q, Q + w - 1] with
 		// Q = (h1, h0, 0) + (0, g1, g0).
@@ -119,9 +128,9 @@ func eiselLemire(m uint64, q int, neg bool) (float64, bool) {
 	}
 	// top holds 54 bits: the 53 of the result and the rounding bit, which
 	// roundTop has shown is not a tie. shift is where they sat in h1.
-	shift := 9 + int(h1>>63)
+	shift = 9 + h1>>63
 	mant := (top + 1) >> 1
-	e2 := 128 + shift + 1 + int(pow5Exp[i]) + q - l
+	e2 := 128 + int(shift) + 1 + int(pow5Exp[i]) + q - l
 	biased := e2 + 52 + 1023
 	if biased < 1 {
 		return 0, false // subnormal range: rounded at another precision
@@ -208,25 +217,38 @@ func scanField(line []byte, pos int, delim byte) (v float64, end int, ok bool) {
 			i++
 		}
 	}
-	// m may wrap on more than 19 digits; the count check rejects that.
+	// Leading zeros ("0.000123") are skipped and not counted; m may wrap
+	// on more than 19 other digits, which the count check rejects.
 	var m uint64
 	start := i
+	for i < len(line) && line[i] == '0' {
+		i++
+	}
+	zeros := i - start
 	for i < len(line) && line[i]-'0' <= 9 {
 		m = m*10 + uint64(line[i]-'0')
 		i++
 	}
-	digits, frac := i-start, 0
+	seen := i > start
+	digits, frac := i-start-zeros, 0
 	if i < len(line) && line[i] == '.' {
 		i++
 		fstart := i
+		if m == 0 {
+			for i < len(line) && line[i] == '0' {
+				i++
+			}
+		}
+		fzeros := i - fstart
 		for i < len(line) && line[i]-'0' <= 9 {
 			m = m*10 + uint64(line[i]-'0')
 			i++
 		}
 		frac = i - fstart
-		digits += frac
+		digits += frac - fzeros
+		seen = seen || frac > 0
 	}
-	if digits == 0 || digits > 19 {
+	if !seen || digits > 19 {
 		return 0, 0, false
 	}
 	q := -frac
@@ -259,7 +281,25 @@ func scanField(line []byte, pos int, delim byte) (v float64, end int, ok bool) {
 	if i < len(line) && line[i] != delim {
 		return 0, 0, false
 	}
-	v, ok = convert(m, q, neg)
+	// Clinger's fast path, written out here because it is the common
+	// case and a call costs as much as the arithmetic.
+	if m < 1<<53 && q >= -22 && q <= 22 {
+		v = float64(m)
+		if q >= 0 {
+			v *= pow10[q]
+		} else {
+			v /= pow10[-q]
+		}
+		if neg {
+			v = -v
+		}
+		return v, i, true
+	}
+	if m == 0 {
+		v, ok = convert(m, q, neg)
+		return v, i, ok
+	}
+	v, ok = eiselLemire(m, q, neg)
 	return v, i, ok
 }
 

@@ -1,0 +1,810 @@
+#!/usr/bin/env python3
+"""A second implementation of blind/SPEC.md (tandem/v2), written from the
+spec and not from the Go code: it checks the known-answer vectors and
+verifies whole campaign folders (ledger hash chain, order rules, file
+digests, both commitments, the key -> (s, o) map by recomputing every
+blinded table after unblinding, sign-off statements and the quorum).
+
+Python 3 standard library only; SSHSIG signatures are checked with
+`ssh-keygen -Y verify` (OpenSSH).
+
+    verify.py VECTOR.txt ...      one line "NAME OUTCOME" per vector
+    verify.py --campaign DIR      the outcome of one campaign, then its problems
+"""
+
+import base64
+import hashlib
+import hmac
+import json
+import os
+import re
+import subprocess
+import sys
+import tempfile
+import tomllib
+
+VERSION = "tandem/v2"
+
+# SPEC.md "Outcomes": when several hold, the first in this list is reported.
+OUTCOMES = ["ok", "non-canonical", "broken-chain", "bad-signature", "unknown-party", "second-init",
+            "out-of-order", "protocol-changed", "bad-digest", "uncovered-file", "bad-commitment",
+            "bad-signoff", "stale-signoff", "missing-signoff", "missing"]
+
+NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}\Z")
+HEX64 = re.compile(r"[0-9a-f]{64}\Z")
+
+
+class Bad(Exception):
+    """Input that is not in its one canonical form."""
+
+
+# ---------------------------------------------------------------- HKDF (RFC 5869)
+
+def hkdf_extract(salt, ikm):
+    if not salt:
+        salt = bytes(32)
+    return hmac.new(salt, ikm, hashlib.sha256).digest()
+
+
+def hkdf_expand(prk, info, length):
+    out, t, i = b"", b"", 1
+    while len(out) < length:
+        t = hmac.new(prk, t + info + bytes([i]), hashlib.sha256).digest()
+        out += t
+        i += 1
+    return out[:length]
+
+
+def blind_info(observable, column, scope, param, bin_index):
+    return "\0".join([VERSION + " blind", observable, column, scope, param, str(bin_index)]).encode()
+
+
+def uniform(key, info):
+    okm = hkdf_expand(hkdf_extract(b"", key), info, 8)
+    n = int.from_bytes(okm, "big") >> 11
+    return okm, n, n / 2.0 ** 53
+
+
+def draw(lo, hi, u):
+    return lo + u * (hi - lo)  # each operation rounded to binary64, no fused multiply-add
+
+
+# ---------------------------------------------------------------- numbers
+
+def fmt_num(x):
+    """SPEC.md "Numbers": the one text of a finite binary64."""
+    if x != x or x in (float("inf"), float("-inf")):
+        raise Bad("not a finite number")
+    if x == 0:
+        return "0"
+    sign = "-" if x < 0 else ""
+    r = repr(abs(x))  # shortest round-trip digits (Python 3.1+)
+    mant, _, exp = r.partition("e")
+    ip, _, fp = mant.partition(".")
+    digits = ip + fp
+    z = len(digits) - len(digits.lstrip("0"))
+    x10 = len(ip) - z - 1 + (int(exp) if exp else 0)
+    d = digits.strip("0")
+    if -4 <= x10 < 6:
+        if x10 >= 0:
+            ipart = (d[:x10 + 1]).ljust(x10 + 1, "0")
+            frac = d[x10 + 1:]
+            return sign + ipart + ("." + frac if frac else "")
+        return sign + "0." + "0" * (-x10 - 1) + d
+    e = ("+" if x10 >= 0 else "-") + ("%02d" % abs(x10))
+    return sign + d[0] + ("." + d[1:] if len(d) > 1 else "") + "e" + e
+
+
+NUMBER = re.compile(r"-?(0|[1-9][0-9]*)(\.[0-9]+)?(e[+-][0-9]{2,3})?\Z")
+
+
+def read_num(text):
+    if not NUMBER.match(text):
+        raise Bad("not a number: %r" % text)
+    x = float(text)
+    if fmt_num(x) != text:
+        raise Bad("not the canonical form of %r" % text)
+    return x
+
+
+# ---------------------------------------------------------------- table files
+
+def encode_csv(names, rows):
+    out = ",".join(names) + "\n"
+    for r in rows:
+        out += ",".join(fmt_num(v) for v in r) + "\n"
+    return out
+
+
+def parse_csv(text, lo, hi):
+    lines = text.split("\n")
+    if lines[-1] != "" or len(lines) < 3:
+        raise Bad("a table needs a header line and at least one row, each ending in LF")
+    names = lines[0].split(",")
+    if names[:2] != [lo, hi] or len(set(names)) != len(names) or not all(NAME.match(n) for n in names):
+        raise Bad("bad table header")
+    rows = []
+    for line in lines[1:-1]:
+        f = line.split(",")
+        if len(f) != len(names):
+            raise Bad("row with %d fields, header has %d" % (len(f), len(names)))
+        rows.append([read_num(v) for v in f])
+    if encode_csv(names, rows) != text:
+        raise Bad("table not canonical")
+    return names, rows
+
+
+def table_keys(kind):
+    return ["campaign", "team", "observable", "version"] + (["map", "sealed"] if kind == "blinded" else ["nonce"])
+
+
+def encode_table_file(kind, h, names, rows):
+    out = "# %s %s table\n" % (VERSION, kind)
+    for k in table_keys(kind):
+        out += "# %s: %s\n" % (k, h[k])
+    return out + encode_csv(names, rows)
+
+
+def parse_table_file(data, kind, lo, hi):
+    text = data.decode("utf-8")
+    keys = table_keys(kind)
+    lines = text.split("\n", len(keys) + 1)
+    if len(lines) != len(keys) + 2 or lines[0] != "# %s %s table" % (VERSION, kind):
+        raise Bad("not a %s %s table" % (VERSION, kind))
+    h = {}
+    for k, line in zip(keys, lines[1:]):
+        if not line.startswith("# %s: " % k):
+            raise Bad("expected # %s:" % k)
+        h[k] = line[len(k) + 4:]
+    if not re.fullmatch(r"[1-9][0-9]*", h["version"]):
+        raise Bad("bad version")
+    names, rows = parse_csv(lines[-1], lo, hi)
+    if encode_table_file(kind, h, names, rows) != text:
+        raise Bad("table file not canonical")
+    return h, names, rows
+
+
+def b64raw(b):
+    return base64.b64encode(b).decode().rstrip("=")
+
+
+def seal_commitment(campaign, team, observable, version, nonce, csv):
+    pre = ("%s seal-commitment\0%s\0%s\0%s\0%d\0" % (VERSION, campaign, team, observable, version)).encode()
+    return hashlib.sha256(pre + nonce + csv.encode()).hexdigest()
+
+
+def key_commitment(key, salt):
+    return hashlib.sha256((VERSION + " key-commitment\0").encode() + salt + key).hexdigest()
+
+
+def parse_key_file(data):
+    m = re.fullmatch(rb"tandem/v2 campaign-key\nkey: ([0-9a-f]{64})\n", data)
+    if not m:
+        raise Bad("not a key file")
+    return bytes.fromhex(m.group(1).decode())
+
+
+# ---------------------------------------------------------------- ledger lines
+
+def jstr(s):
+    return '"' + s.replace("\\", "\\\\").replace('"', '\\"') + '"'
+
+
+def encode_entry(e, with_sig=True):
+    out = '{"seq":%d,"prev":%s,"step":%s,"time":%s,"actor":%s' % (
+        e["seq"], jstr(e["prev"]), jstr(e["step"]), jstr(e["time"]), jstr(e["actor"]))
+    for m in ("files", "data"):
+        if e.get(m):
+            out += ',"%s":{' % m + ",".join(jstr(k) + ":" + jstr(v) for k, v in sorted(e[m].items(), key=lambda kv: kv[0].encode())) + "}"
+    if with_sig and e.get("sig"):
+        out += ',"sig":' + jstr(e["sig"])
+    return out + "}"
+
+
+def parse_entry(line):
+    try:
+        text = line.decode("utf-8")
+        e = json.loads(text)
+    except (UnicodeDecodeError, ValueError) as err:
+        raise Bad("not JSON: %s" % err)
+    if not isinstance(e, dict) or type(e.get("seq")) is not int or e["seq"] < 1:
+        raise Bad("bad entry")
+    for k in ("prev", "step", "time", "actor", "sig"):
+        if not isinstance(e.get(k, None if k != "sig" else ""), str):
+            raise Bad("bad member " + k)
+    for m in ("files", "data"):
+        v = e.get(m, {})
+        if not isinstance(v, dict) or not all(isinstance(x, str) for x in v.values()):
+            raise Bad("bad member " + m)
+    if any(ord(c) < 0x20 for c in text):
+        raise Bad("control character")
+    if encode_entry(e).encode() != line:
+        raise Bad("not canonical")
+    e["hash"] = hashlib.sha256(line).hexdigest()
+    return e
+
+
+def parse_ledger(data):
+    if not data.startswith((VERSION + " ledger\n").encode()):
+        raise Bad("not a %s ledger" % VERSION)
+    # Bytes after the last LF are a partial line left by an interrupted
+    # append: never committed, not part of the chain.
+    data = data[:data.rfind(b"\n") + 1]
+    prev, out = "0" * 64, []
+    for line in data.split(b"\n")[1:-1]:
+        e = parse_entry(line)
+        if e["seq"] != len(out) + 1 or e["prev"] != prev:
+            raise Bad("hash chain broken at entry %d" % (len(out) + 1))
+        prev = e["hash"]
+        out.append(e)
+    return out
+
+
+# ---------------------------------------------------------------- statements
+
+FPR = r"SHA256:[A-Za-z0-9+/]{43}"
+SLOT = r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}/[A-Za-z0-9][A-Za-z0-9_.-]{0,63}"
+STATEMENT_LINES = [
+    ("campaign", NAME.pattern[:-2], False), ("party", NAME.pattern[:-2], False), ("role", "team|reviewer", False),
+    ("date", r"[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z", False),
+    ("protocol", "[0-9a-f]{64}", False), ("key-commitment", "[0-9a-f]{64}", False),
+    ("ledger-head", "[1-9][0-9]* [0-9a-f]{64}", False),
+    ("sealed", SLOT + " v[1-9][0-9]* [0-9a-f]{64} by " + NAME.pattern[:-2] + " " + FPR, True),
+    ("blinded", SLOT + " [0-9a-f]{64}", True), ("comparison", "[0-9a-f]{64}", False),
+    ("verdict", "pass|fail|incomplete", False), ("accepted-disagreement", "TEXT", None),
+    ("accepted-risk", SLOT + " TEXT", True),
+]
+
+
+def clean_text(s):
+    bidi = {0x061C, 0x200E, 0x200F, 0x2028, 0x2029} | set(range(0x202A, 0x202F)) | set(range(0x2066, 0x206A))
+    return s != "" and not any(ord(c) < 0x20 or 0x7F <= ord(c) <= 0x9F or ord(c) in bidi for c in s)
+
+
+def parse_statement(data):
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise Bad("not UTF-8")
+    lines = text.split("\n")
+    if lines[0] != VERSION + " signoff" or lines[-1] != "":
+        raise Bad("not a statement")
+    st, i = {}, 1
+    body = lines[1:-1]
+    for key, pat, many in STATEMENT_LINES:
+        vals = []
+        while i - 1 < len(body) and body[i - 1].startswith(key + ": "):
+            v = body[i - 1][len(key) + 2:]
+            ok = clean_text(v) if pat == "TEXT" else (
+                re.fullmatch(pat.replace(" TEXT", r" (.+)"), v) and (not pat.endswith("TEXT") or clean_text(v.split(" ", 1)[1])))
+            if not ok:
+                raise Bad("line %d: bad %s" % (i + 1, key))
+            vals.append(v)
+            i += 1
+            if not many:
+                break
+        if many:
+            st[key] = vals
+        elif vals:
+            st[key] = vals[0]
+        elif many is False:
+            raise Bad("no %s line" % key)
+    if i - 1 != len(body):
+        raise Bad("line %d: unexpected" % (i + 1))
+    if (st["verdict"] == "fail") != ("accepted-disagreement" in st):
+        raise Bad("accepted-disagreement goes with verdict fail, and only with it")
+    return st
+
+
+# ---------------------------------------------------------------- SSHSIG
+
+def armor(raw):
+    b = base64.b64encode(raw).decode()
+    return "-----BEGIN SSH SIGNATURE-----\n" + "\n".join(b[i:i + 70] for i in range(0, len(b), 70)) + "\n-----END SSH SIGNATURE-----\n"
+
+
+def ssh_verify(armored, message, namespace, principal, key_line):
+    with tempfile.TemporaryDirectory() as d:
+        sig, allowed = os.path.join(d, "sig"), os.path.join(d, "allowed")
+        with open(sig, "wb") as f:
+            f.write(armored)
+        with open(allowed, "w") as f:
+            f.write(principal + " " + " ".join(key_line.split()[:2]) + "\n")
+        r = subprocess.run(["ssh-keygen", "-Y", "verify", "-f", allowed, "-I", principal, "-n", namespace, "-s", sig],
+                           input=message, capture_output=True)
+        return r.returncode == 0
+
+
+def fingerprint(key_line):
+    blob = base64.b64decode(key_line.split()[1])
+    return "SHA256:" + b64raw(hashlib.sha256(blob).digest())
+
+
+# ---------------------------------------------------------------- campaigns
+
+LEFTOVER = re.compile(r"(sealed/[^/]+/[^/]+\.v[0-9]+\.age|blinded/[^/]+/[^/]+\.v[0-9]+(\.own)?\.csv|"
+                      r"signoffs/[^/]+\.[0-9]+\.statement(\.sig)?|unblinded/[^/]+/[^/]+\.csv|key\.age|key\.revealed)\Z")
+
+
+class Campaign:
+    def __init__(self, root):
+        self.root = root
+        self.problems = []  # (outcome, message)
+        self.notes = []
+
+    def bad(self, kind, msg):
+        self.problems.append((kind, msg))
+
+    def read(self, rel):
+        p = self.root
+        for part in rel.split("/"):
+            p = os.path.join(p, part)
+            if os.path.islink(p):
+                raise OSError("symbolic link: " + rel)
+        with open(p, "rb") as f:
+            return f.read()
+
+    def walk(self):
+        out = []
+        for dirpath, dirs, files in os.walk(self.root):
+            rel = os.path.relpath(dirpath, self.root).replace(os.sep, "/")
+            rel = "" if rel == "." else rel + "/"
+            dirs[:] = sorted(d for d in dirs if not d.startswith(".") and rel + d not in ("reports", "keys"))
+            out += [rel + f for f in files if not f.startswith(".")]
+        return out
+
+    def verify(self):
+        proto_bytes = self.read("campaign.toml")
+        p = tomllib.loads(proto_bytes.decode("utf-8"))
+        parties = {q["name"]: q for q in p["party"]}
+        teams = [q["name"] for q in p["party"] if q["role"] == "team"]
+        keys = {n: q["key"] for n, q in parties.items()}
+        keys["custodian"] = p["custodian_key"]
+        obs = {o["name"]: o for o in p["observable"]}
+        try:
+            ledger = parse_ledger(self.read("ledger"))
+        except (Bad, OSError) as err:
+            self.bad("broken-chain", "ledger: %s" % err)
+            return
+        self.ledger = ledger
+        self.check_protocol_lock(ledger, proto_bytes, p)
+        st = self.replay(ledger, parties, teams, obs)
+        for e in ledger:
+            if e["actor"] not in keys:
+                continue
+            if not e.get("sig"):
+                self.bad("bad-signature", "entry %d is not signed" % e["seq"])
+                continue
+            try:
+                raw = base64.b64decode(e["sig"], validate=True)
+            except ValueError:
+                raw = b""
+            if not ssh_verify(armor(raw).encode(), encode_entry(e, False).encode(), "tandem-ledger", e["actor"], keys[e["actor"]]):
+                self.bad("bad-signature", "entry %d: signature does not verify" % e["seq"])
+        init = ledger[0]["data"] if ledger and ledger[0]["step"] == "init" else {}
+        if init.get("campaign") != p["campaign"]:
+            self.bad("protocol-changed", "campaign id differs from the one logged at init")
+        salt, com = init.get("key_salt", ""), init.get("key_commitment", "")
+        if not (HEX64.match(salt) and HEX64.match(com)):
+            self.bad("bad-commitment", "malformed key commitment at init")
+        for rel in sorted(st["files"]):
+            if rel == "campaign.toml":
+                continue
+            try:
+                if hashlib.sha256(self.read(rel)).hexdigest() != st["files"][rel]:
+                    self.bad("bad-digest", rel + ": content differs from the ledger")
+            except OSError as err:
+                self.bad("bad-digest", "%s: %s" % (rel, err))
+        for rel in self.walk():
+            if rel in st["files"] or rel in ("ledger", "campaign.toml"):
+                continue
+            if LEFTOVER.match(rel):
+                self.notes.append(rel + ": left by an interrupted step")
+            else:
+                self.bad("uncovered-file", rel + ": not covered by the ledger")
+        unblinded = st["unblind"] is not None
+        signoffs = self.signoffs(st, p, parties, teams, obs, proto_bytes, com)
+        for party, probs in signoffs.items():
+            for kind, msg in probs:
+                if kind == "stale-signoff" and not unblinded:
+                    self.notes.append(msg + " (must sign again)")
+                else:
+                    self.bad(kind, msg)
+        if unblinded:
+            for n in p["quorum"]:
+                if n not in st["signs"]:
+                    self.bad("missing-signoff", n + " has not signed")
+            self.verify_unblinded(st, p, teams, obs, salt, com)
+
+    def check_protocol_lock(self, ledger, proto_bytes, p):
+        want = ""
+        for e in ledger:
+            if e["step"] in ("init", "amend") and e.get("files", {}).get("campaign.toml"):
+                want = e["files"]["campaign.toml"]
+        if want and hashlib.sha256(proto_bytes).hexdigest() != want:
+            self.bad("protocol-changed", "campaign.toml differs from the one the ledger locked")
+
+    def replay(self, ledger, parties, teams, obs):
+        st = {"files": {}, "latest": {}, "own": {}, "common": {}, "rounds": {}, "signs": {}, "unblind": None}
+        count = {}
+        for e in ledger:
+            d, files, step, actor = e.get("data", {}), e.get("files", {}), e["step"], e["actor"]
+            st["files"].update(files)
+            where = "entry %d (%s by %s): " % (e["seq"], step, actor)
+            if e["seq"] > 1 and step == "init":
+                self.bad("second-init", where + "a second init entry")
+                continue
+            if e["seq"] == 1 and step != "init":
+                self.bad("out-of-order", where + "the first entry must be init")
+            if st["unblind"] is not None:
+                self.bad("out-of-order", where + "an entry after unblinding")
+                continue
+            if actor != "custodian" and actor not in parties:
+                self.bad("unknown-party", where + "not a party")
+                continue
+            if step == "init":
+                if actor != "custodian":
+                    self.bad("out-of-order", where + "init by another than the custodian")
+            elif step == "seal":
+                team, o = d.get("team", ""), d.get("observable", "")
+                if o not in obs or team not in teams:
+                    self.bad("out-of-order", where + "unknown slot")
+                    continue
+                if actor != team:
+                    self.bad("bad-signature", where + "a seal not made by its team")
+                    continue
+                prev = st["latest"].get((team, o), {}).get("version", 0)
+                if d.get("version") != str(prev + 1):
+                    self.bad("out-of-order", where + "seal version %s after %d" % (d.get("version"), prev))
+                    continue
+                path = "sealed/%s/%s.v%d.age" % (team, o, prev + 1)
+                st["latest"][(team, o)] = {"version": prev + 1, "commitment": d.get("commitment", ""), "seq": e["seq"]}
+                st["own"].pop((team, o), None)
+                st["common"].pop((team, o), None)
+            elif step in ("blind", "open"):
+                o = d.get("observable", "")
+                if actor != "custodian" or o not in obs:
+                    self.bad("out-of-order", where + "a blind or open step by another than the custodian, or of no observable")
+                    continue
+                seals, ok = {}, True
+                for t in teams:
+                    if "seal." + t not in d:
+                        continue
+                    l = st["latest"].get((t, o))
+                    if l is None or d["seal." + t] != "%d %s" % (l["version"], l["commitment"]):
+                        self.bad("out-of-order", where + "blinds a seal that is not the latest")
+                        ok = False
+                        continue
+                    seals[t] = l["version"]
+                if not ok or not seals:
+                    continue
+                if step == "open":
+                    if len(seals) != len(teams):
+                        self.bad("out-of-order", where + "opens before every team sealed")
+                        continue
+                    st["rounds"][o] = st["rounds"].get(o, 0) + 1
+                for t, v in seals.items():
+                    if step == "open":
+                        path = "blinded/%s/%s.v%d.csv" % (t, o, v)
+                        st["common"][(t, o)] = {"path": path, "digest": files.get(path, ""), "version": v}
+                    else:
+                        path = "blinded/%s/%s.v%d.own.csv" % (t, o, v)
+                        st["own"][(t, o)] = {"path": path, "digest": files.get(path, ""), "version": v}
+            elif step == "sign":
+                party = d.get("party", "")
+                if actor != party or party not in parties:
+                    self.bad("bad-signature", where + "a sign-off of another party")
+                    continue
+                count[party] = count.get(party, 0) + 1
+                sp = "signoffs/%s.%d.statement" % (party, count[party])
+                st["signs"][party] = {"statement": sp, "sig": sp + ".sig"}
+            elif step == "amend":
+                pass
+            elif step == "unblind":
+                if actor != "custodian":
+                    self.bad("out-of-order", where + "unblind by another than the custodian")
+                    continue
+                st["unblind"] = e
+            else:
+                self.bad("out-of-order", where + "unknown step")
+        return st
+
+    def is_open(self, st, teams, o):
+        for t in teams:
+            l, c = st["latest"].get((t, o)), st["common"].get((t, o))
+            if l is None or c is None or c["version"] != l["version"]:
+                return False
+        return True
+
+    def comparison_digests(self, st, p, teams, proto_digest):
+        """Every comparison digest consistent with the campaign, by verdict:
+        the per-comparison verdicts come from the statistics, which this
+        verifier does not compute, so a failing verdict is checked against
+        every assignment with at least one failing comparison."""
+        lines, incomplete = [], []
+        for o in p["observable"]:
+            if not self.is_open(st, teams, o["name"]):
+                incomplete.append(o["name"] + " incomplete\n")
+                continue
+            for i in range(len(teams)):
+                for j in range(i + 1, len(teams)):
+                    for c in o["column"]:
+                        a, b = st["common"][(teams[i], o["name"])], st["common"][(teams[j], o["name"])]
+                        lines.append("%s %s %s %s %s %s " % (o["name"], c["name"], teams[i], teams[j], a["digest"], b["digest"]))
+        head = "%s comparison\nprotocol: %s\n" % (VERSION, proto_digest)
+
+        def digest(verdicts, overall):
+            text = head + "".join(l + v + "\n" for l, v in zip(lines, verdicts)) + "".join(incomplete) + "verdict: " + overall + "\n"
+            return hashlib.sha256(text.encode()).hexdigest()
+        out = {}
+        n = len(lines)
+        if n <= 16:
+            for mask in range(1 << n):
+                vs = ["fail" if mask >> k & 1 else "pass" for k in range(n)]
+                overall = "incomplete" if incomplete else ("fail" if mask else "pass")
+                out.setdefault(overall, set()).add(digest(vs, overall))
+        return out
+
+    def signoffs(self, st, p, parties, teams, obs, proto_bytes, key_com):
+        result = {}
+        proto_digest = hashlib.sha256(proto_bytes).hexdigest()
+        digests = None
+        for q in p["party"]:
+            name = q["name"]
+            s = st["signs"].get(name)
+            if s is None:
+                continue
+            probs = result.setdefault(name, [])
+            try:
+                body, sig = self.read(s["statement"]), self.read(s["sig"])
+            except OSError as err:
+                probs.append(("bad-signoff", "%s: %s" % (name, err)))
+                continue
+            if not ssh_verify(sig, body, "tandem-signoff", name, q["key"]):
+                probs.append(("bad-signoff", s["sig"] + ": signature does not verify with " + name + "'s key"))
+                continue
+            try:
+                stmt = parse_statement(body)
+            except Bad as err:
+                probs.append(("bad-signoff", "%s: %s" % (s["statement"], err)))
+                continue
+            who = "sign-off of " + name
+            if stmt["party"] != name or stmt["campaign"] != p["campaign"]:
+                probs.append(("bad-signoff", who + " names another party or campaign"))
+                continue
+            if stmt["role"] != q["role"]:
+                probs.append(("bad-signoff", who + " names another role"))
+            seq, h = stmt["ledger-head"].split(" ")
+            seq = int(seq)
+            if not 1 <= seq <= len(self.ledger) or self.ledger[seq - 1]["hash"] != h:
+                probs.append(("bad-signoff", who + " names an entry not in this ledger"))
+                continue
+            later = [e for e in self.ledger[seq:] if e["step"] in ("seal", "open", "amend")]
+            if later:
+                probs.append(("stale-signoff", who + " is stale: entry %d (%s) after it" % (later[0]["seq"], later[0]["step"])))
+                continue
+            sealed, blinded = [], []
+            for t in teams:
+                for o in p["observable"]:
+                    l, c = st["latest"].get((t, o["name"])), st["common"].get((t, o["name"]))
+                    if l is None or not self.is_open(st, teams, o["name"]):
+                        continue
+                    sealed.append("%s/%s v%d %s by %s %s" % (t, o["name"], l["version"], l["commitment"], t, fingerprint(parties[t]["key"])))
+                    blinded.append("%s/%s %s" % (t, o["name"], c["digest"]))
+            risks = ["%s/%s %s" % (o["name"], c["name"], c["accept_risk"]) for o in p["observable"] for c in o["column"] if c.get("accept_risk")]
+            if stmt["protocol"] != proto_digest:
+                probs.append(("stale-signoff", who + " was made for another campaign.toml"))
+            if stmt["key-commitment"] != key_com:
+                probs.append(("bad-signoff", who + " names another key commitment"))
+            if stmt.get("sealed", []) != sealed or stmt.get("blinded", []) != blinded:
+                probs.append(("stale-signoff", who + " is stale: the sealed or blinded tables have changed since"))
+            if digests is None:
+                digests = self.comparison_digests(st, p, teams, proto_digest)
+            if stmt["comparison"] not in digests.get(stmt["verdict"], set()):
+                probs.append(("bad-signoff", who + " does not match the comparison of the campaign's blinded tables"))
+            if stmt.get("accepted-risk", []) != risks:
+                probs.append(("stale-signoff", who + " names other accepted risks than the protocol"))
+        return result
+
+    def verify_unblinded(self, st, p, teams, obs, salt, com):
+        try:
+            key = parse_key_file(self.read("key.revealed"))
+        except OSError as err:
+            self.bad("missing", "key.revealed: %s" % err)
+            return
+        except Bad as err:
+            self.bad("bad-commitment", "key.revealed: %s" % err)
+            return
+        if not hmac.compare_digest(key_commitment(key, bytes.fromhex(salt)), com):
+            self.bad("bad-commitment", "key.revealed does not open the key commitment")
+            return
+        for t in teams:
+            for o in p["observable"]:
+                rel = "unblinded/%s/%s.csv" % (t, o["name"])
+                l = st["latest"].get((t, o["name"]))
+                if l is None:
+                    self.bad("missing", rel + ": unblinded without a seal")
+                    continue
+                lo, hi = o.get("edges", ["lo", "hi"])
+                try:
+                    h, names, rows = parse_table_file(self.read(rel), "unblinded", lo, hi)
+                except OSError as err:
+                    self.bad("missing", "%s: %s" % (rel, err))
+                    continue
+                except (Bad, UnicodeDecodeError) as err:
+                    self.bad("bad-commitment", "%s: %s" % (rel, err))
+                    continue
+                if (h["campaign"], h["team"], h["observable"], h["version"]) != (p["campaign"], t, o["name"], str(l["version"])):
+                    self.bad("bad-commitment", rel + ": header names another place")
+                    continue
+                nonce = base64.b64decode(h["nonce"] + "=" * (-len(h["nonce"]) % 4))
+                if seal_commitment(p["campaign"], t, o["name"], l["version"], nonce, encode_csv(names, rows)) != l["commitment"]:
+                    self.bad("bad-commitment", rel + ": true table does not match its seal-time commitment")
+                    continue
+                for which, pub in (("common", st["common"].get((t, o["name"]))), ("team", st["own"].get((t, o["name"])))):
+                    if pub is None or pub["version"] != l["version"]:
+                        continue
+                    scope = "common" if which == "common" else "team " + t
+                    cols = [list(c) for c in zip(*rows)]
+                    for c in o["column"]:
+                        n = len(rows)
+                        s = [draw(*c["scale"], uniform(key, blind_info(o["name"], c["name"], scope, "scale", i))[2]) for i in range(n)]
+                        off = [draw(*c["shift"], uniform(key, blind_info(o["name"], c["name"], scope, "shift", i))[2]) for i in range(n)]
+                        k = names.index(c["name"])
+                        cols[k] = [s[i] * cols[k][i] + off[i] for i in range(n)]
+                        for e in c.get("errors", []):
+                            k = names.index(e)
+                            cols[k] = [s[i] * cols[k][i] for i in range(n)]
+                    hb = {"campaign": p["campaign"], "team": t, "observable": o["name"], "version": str(l["version"]),
+                          "map": which, "sealed": l["commitment"]}
+                    want = encode_table_file("blinded", hb, names, [list(r) for r in zip(*cols)]).encode()
+                    try:
+                        if self.read(pub["path"]) != want:
+                            self.bad("bad-commitment", pub["path"] + ": not the true table blinded with the published key")
+                    except OSError as err:
+                        self.bad("missing", "%s: %s" % (pub["path"], err))
+
+    def outcome(self):
+        kinds = {k for k, _ in self.problems}
+        for o in OUTCOMES:
+            if o in kinds:
+                return o
+        return "ok" if not kinds else "+".join(sorted(kinds))
+
+
+# ---------------------------------------------------------------- vectors
+
+KEYS = {
+    "hkdf": {"ikm", "salt", "info", "length", "prk", "okm"},
+    "map": {"key", "observable", "column", "scope", "param", "bin", "lo", "hi", "info", "okm", "n", "u", "value"},
+    "key-commitment": {"key", "salt", "commitment"},
+    "seal-commitment": {"campaign", "team", "observable", "version", "nonce", "commitment"},
+    "number": set(), "number-reject": set(), "ledger-line": {"hash", "signed-hash"}, "statement": set(),
+    "key-file": set(), "comparison-digest": {"digest"}, "campaign": {"campaign"},
+}
+
+
+def read_vector(path):
+    data = open(path, "rb").read()
+    head, sep, payload = data.partition(b"\n\n")
+    if not sep:
+        raise Bad("no blank line after the header")
+    h = {}
+    for line in head.decode().split("\n"):
+        k, sep, v = line.partition(": ")
+        if not sep or k in h:
+            raise Bad("bad header line %r" % line)
+        h[k] = v
+    if h.get("kind") not in KEYS or h.get("expect") not in OUTCOMES:
+        raise Bad("unknown kind or outcome")
+    if set(h) - KEYS[h["kind"]] - {"kind", "expect", "description", "source"}:
+        raise Bad("unknown key")
+    return h, payload
+
+
+def check_vector(path):
+    h, payload = read_vector(path)
+    kind = h["kind"]
+
+    def need(cond, what):
+        if not cond:
+            raise AssertionError(what)
+    if kind == "hkdf":
+        prk = hkdf_extract(bytes.fromhex(h["salt"]), bytes.fromhex(h["ikm"]))
+        need(prk.hex() == h["prk"], "prk")
+        need(hkdf_expand(prk, bytes.fromhex(h["info"]), int(h["length"])).hex() == h["okm"], "okm")
+    elif kind == "map":
+        info = blind_info(h["observable"], h["column"], h["scope"], h["param"], int(h["bin"]))
+        need(info.hex() == h["info"], "info")
+        okm, n, u = uniform(bytes.fromhex(h["key"]), info)
+        need(okm.hex() == h["okm"] and str(n) == h["n"] and fmt_num(u) == h["u"], "okm/n/u")
+        need(fmt_num(draw(read_num(h["lo"]), read_num(h["hi"]), u)) == h["value"], "value")
+    elif kind == "key-commitment":
+        need(key_commitment(bytes.fromhex(h["key"]), bytes.fromhex(h["salt"])) == h["commitment"], "commitment")
+    elif kind == "seal-commitment":
+        names, rows = parse_csv(payload.decode(), "lo", "hi")
+        need(seal_commitment(h["campaign"], h["team"], h["observable"], int(h["version"]), bytes.fromhex(h["nonce"]),
+                             encode_csv(names, rows)) == h["commitment"], "commitment")
+    elif kind == "number":
+        for line in payload.decode().splitlines():
+            bits, text = line.split(" ")
+            x = __import__("struct").unpack(">d", bytes.fromhex(bits))[0]
+            need(fmt_num(x) == text, "number %s" % bits)
+            if not (x == 0 and bits != "0" * 16):
+                need(read_num(text) == x, "read %s" % text)
+    elif kind == "number-reject":
+        for text in payload.decode().split("\n")[:-1]:
+            try:
+                read_num(text)
+                return "ok"
+            except (Bad, ValueError):
+                pass
+        return "non-canonical"
+    elif kind == "ledger-line":
+        try:
+            e = parse_entry(payload[:-1] if payload.endswith(b"\n") else payload + b"?")
+        except Bad:
+            return "non-canonical"
+        need(e["hash"] == h["hash"], "hash")
+        need(hashlib.sha256(encode_entry(e, False).encode()).hexdigest() == h["signed-hash"], "signed-hash")
+    elif kind == "statement":
+        try:
+            parse_statement(payload)
+        except Bad:
+            return "non-canonical"
+    elif kind == "key-file":
+        try:
+            parse_key_file(payload)
+        except Bad:
+            return "non-canonical"
+    elif kind == "comparison-digest":
+        need(hashlib.sha256(payload).hexdigest() == h["digest"], "digest")
+        need(re.fullmatch(r"tandem/v2 comparison\nprotocol: [0-9a-f]{64}\n"
+                          r"(\S+ \S+ \S+ \S+ [0-9a-f]{64} [0-9a-f]{64} (pass|fail)\n)*(\S+ incomplete\n)*"
+                          r"verdict: (pass|fail|incomplete)\n", payload.decode()), "grammar")
+    elif kind == "campaign":
+        root = os.path.join(os.path.dirname(path), "campaigns", h["campaign"])
+        c = Campaign(root)
+        man = sorted((hashlib.sha256(c.read(r)).hexdigest() + " " + r for r in c.walk_all()), key=lambda s: s[65:])
+        need("".join(m + "\n" for m in man).encode() == payload, "manifest")
+        c.verify()
+        return c.outcome()
+    return "ok"
+
+
+def walk_all(self):
+    out = []
+    for dirpath, dirs, files in os.walk(self.root):
+        rel = os.path.relpath(dirpath, self.root).replace(os.sep, "/")
+        out += [("" if rel == "." else rel + "/") + f for f in files]
+    return out
+
+
+Campaign.walk_all = walk_all
+
+
+def main(argv):
+    if len(argv) == 2 and argv[0] == "--campaign":
+        c = Campaign(argv[1])
+        try:
+            c.verify()
+        except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError, KeyError, TypeError, ValueError) as err:
+            print("verify.py: error: %s: %s" % (argv[1], err), file=sys.stderr)
+            return 2
+        print(c.outcome())
+        for kind, msg in c.problems:
+            print("%s: %s" % (kind, msg))
+        for n in c.notes:
+            print("note: " + n)
+        return 0 if not c.problems else 1
+    for path in argv:
+        try:
+            out = check_vector(path)
+        except (Bad, AssertionError, KeyError, ValueError, TypeError, OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
+            out = "error(%s)" % str(err).replace(" ", "_")
+        print(os.path.basename(path), out)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
