@@ -498,6 +498,14 @@ func TestRevisionRound(t *testing.T) {
 	if _, err := c.Seal("otter", "zenith", tb, signer(t, dir, "otter"), ""); err == nil || !strings.Contains(err.Error(), "needs --reason") {
 		t.Errorf("re-seal without a reason: %v", err)
 	}
+	for _, bad := range []string{"new \x1b[31msurvey", "new \u202esurvey"} {
+		if _, err := open(t, dir).Seal("otter", "zenith", tb, signer(t, dir, "otter"), bad); err == nil || !strings.Contains(err.Error(), "--reason") {
+			t.Errorf("reason %q: %v", bad, err)
+		}
+	}
+	if _, _, err := open(t, dir).Draft("heron", "tilt \x07understood"); err == nil || !strings.Contains(err.Error(), "control character") {
+		t.Errorf("accept reason with a control character: %v", err)
+	}
 	res, err := open(t, dir).Seal("otter", "zenith", tb, signer(t, dir, "otter"), "new tower survey")
 	if err != nil {
 		t.Fatal(err)
