@@ -2,6 +2,7 @@ package campaign
 
 import (
 	"fmt"
+	"math"
 	"strconv"
 
 	"filippo.io/age"
@@ -144,6 +145,14 @@ func auditColumns(o *protocol.Observable, truth, blinded *format.TableFile) []au
 			Scale: [2]float64{col.Scale[0], col.Scale[1]}, Shift: [2]float64{col.Shift[0], col.Shift[1]}}
 		for _, e := range col.Errors {
 			ac.BlindedErr = append(ac.BlindedErr, blinded.Table.Column(e))
+		}
+		if col.Covariance {
+			// the published diagonal is σ'_i² as well
+			diag := make([]float64, truth.Table.Len())
+			for i := range diag {
+				diag[i] = math.Sqrt(math.Abs(blinded.Table.Column(protocol.CovColumn(col.Name, i))[i]))
+			}
+			ac.BlindedErr = append(ac.BlindedErr, diag)
 		}
 		out = append(out, ac)
 	}

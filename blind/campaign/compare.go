@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"io"
 
+	"gonum.org/v1/gonum/mat"
+
 	"tandem/blind"
 	"tandem/blind/internal/format"
 	"tandem/blind/protocol"
@@ -96,6 +98,9 @@ func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tabl
 			for ci := range o.Columns {
 				col := &o.Columns[ci]
 				opt := col.CompareOptions(alpha)
+				if col.Covariance {
+					opt.CovA, opt.CovB = covariance(a, col), covariance(b, col)
+				}
 				rs, err := compare.Tables(a, b, []table.Selection{col.Selection()}, opt.EdgeTol, opt)
 				if err != nil {
 					return fmt.Errorf("observable %s, %s vs %s: %w", o.Name, teams[i], teams[j], err)
@@ -108,6 +113,22 @@ func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tabl
 		}
 	}
 	return nil
+}
+
+// covariance assembles a column's covariance matrix from its NAME.cov.J
+// columns, symmetrised as (V + Vᵀ)/2 (a table's rows are written to the
+// shortest round-trip digits, so V_ij and V_ji agree only to rounding).
+func covariance(t *table.Table, col *protocol.Column) *mat.SymDense {
+	n := t.Len()
+	v := mat.NewSymDense(n, nil)
+	for i := 0; i < n; i++ {
+		ci := t.Column(protocol.CovColumn(col.Name, i))
+		for j := 0; j <= i; j++ {
+			cj := t.Column(protocol.CovColumn(col.Name, j))
+			v.SetSym(i, j, (ci[j]+cj[i])/2)
+		}
+	}
+	return v
 }
 
 // readBlinded reads a common- or team-map table the ledger records,

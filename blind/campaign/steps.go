@@ -217,6 +217,13 @@ func Canonical(o *protocol.Observable, t *table.Table) (*table.Table, error) {
 		names = append(names, c.Name)
 		names = append(names, c.Errors...)
 	}
+	for _, c := range o.Columns {
+		if c.Covariance {
+			for j := 0; j < t.Len(); j++ {
+				names = append(names, protocol.CovColumn(c.Name, j))
+			}
+		}
+	}
 	for _, x := range o.Extra {
 		if !slices.Contains(names, x) {
 			names = append(names, x)
@@ -291,6 +298,18 @@ func (c *Campaign) blindTable(k *blind.Key, f *format.TableFile, scope, commitme
 		for _, e := range col.Errors {
 			if i := slices.Index(t.Names, e); i >= 0 {
 				out.Cols[i] = m.Errors(t.Cols[i])
+			}
+		}
+		if col.Covariance {
+			// column j holds V_ij for every row i: V'_ij = s_i s_j V_ij
+			for j := 0; j < t.Len(); j++ {
+				if i := slices.Index(t.Names, protocol.CovColumn(col.Name, j)); i >= 0 {
+					v := make([]float64, t.Len())
+					for r := range v {
+						v[r] = m.S[r] * m.S[j] * t.Cols[i][r]
+					}
+					out.Cols[i] = v
+				}
 			}
 		}
 	}

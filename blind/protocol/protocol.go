@@ -107,12 +107,21 @@ type Column struct {
 	// AcceptRisk, when set, lets blind publish a map that one of the
 	// standard attacks breaks; the reason is shown in every report.
 	AcceptRisk string `toml:"accept_risk"`
+	// Covariance says that each team's table carries the column's
+	// covariance matrix as the columns NAME.cov.1 … NAME.cov.n (row i of
+	// the table holds V_i1 … V_in). Blinding scales V_ij by s_i·s_j, and
+	// the comparison computes χ² = dᵀ W⁻¹ d with W = V_a + V_b − C − Cᵀ.
+	Covariance bool `toml:"covariance"`
 	// Options are the comparison settings, decoded from the same TOML
 	// table with the keys [compare.Options] names (max_pull, abs_tol,
 	// rel_tol, edge_tol, subset, correlation, correlations, overlap); the
 	// family-wise alpha is campaign-wide and set at the top level.
 	compare.Options
 }
+
+// CovColumn is the name of column j (0-based) of a column's covariance
+// matrix in a table: NAME.cov.J+1.
+func CovColumn(name string, j int) string { return fmt.Sprintf("%s.cov.%d", name, j+1) }
 
 // CompareOptions returns the comparison options the column declares,
 // with the campaign's family-wise alpha.
@@ -448,6 +457,9 @@ func (o *Observable) validate(seen map[string]bool, alpha float64) error {
 		opt := c.CompareOptions(alpha)
 		if err := opt.Validate(); err != nil {
 			return ferr(canchor, "%s: %v", where, err)
+		}
+		if c.Covariance && (len(c.Correlations) > 0 || c.Subset || c.Default.Column != "") {
+			return ferr(canchor, "%s: with covariance matrices give the correlation between the chains as one number (correlation = ρ), not per source, per bin or by the subset rule", where)
 		}
 		for k, rho := range c.Correlations {
 			if !slices.Contains(c.Errors, k) && !slices.Contains(c.Errors, c.Name+"_"+k) {
