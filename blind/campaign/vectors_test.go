@@ -22,6 +22,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -617,9 +618,30 @@ func numberVectors() []*vector {
 	for _, v := range vals {
 		fmt.Fprintf(&b, "%016x %s\n", math.Float64bits(v), table.Format(v))
 	}
+	// Random bit patterns over the whole finite range, and random values
+	// near the switch between plain and exponent form (10^-5 … 10^7),
+	// from a fixed seed.
+	r := rand.New(rand.NewPCG(5869, 2119))
+	var rb strings.Builder
+	for n := 0; n < 1200; {
+		v := math.Float64frombits(r.Uint64())
+		if n%2 == 1 {
+			v = math.Pow(10, -5+12*r.Float64())
+			if r.IntN(2) == 0 {
+				v = -v
+			}
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			continue
+		}
+		fmt.Fprintf(&rb, "%016x %s\n", math.Float64bits(v), table.Format(v))
+		n++
+	}
 	return []*vector{
 		{name: "number.txt", headers: hdr("kind", "number", "expect", "ok",
 			"description", "binary64 bits (hex) and the one text a table number is written as"), payload: []byte(b.String())},
+		{name: "number-random.txt", headers: hdr("kind", "number", "expect", "ok",
+			"description", "1200 binary64 values from a fixed seed: random bit patterns, and values of 10^-5 to 10^7 around the switch to exponent form"), payload: []byte(rb.String())},
 		{name: "number-reject.txt", headers: hdr("kind", "number-reject", "expect", "non-canonical",
 			"description", "texts that read as a number but are not its canonical form: a reader refuses each"),
 			payload: []byte("1e6\n1e+6\n1E+06\n+1\n1.0\n01\n-0\n0.0\n.5\n5.\n1000000\n0.00001\n1.50\n0x10\nNaN\nInf\n+Inf\n-Inf\n1_000\n 1\n")},
@@ -1058,6 +1080,10 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.signed()
 			g.seal("team-a", "flux", "team-a/flux2", "a corrected efficiency")
 			g.blind()
+		}},
+		{"ok-torn", "ok", "as ok-signed, with a partial last ledger line (no LF) as an interrupted append leaves it: not part of the chain, a note only", func(g *gen) {
+			g.signed()
+			g.editFile(LedgerFile, func(s string) string { return s + `{"seq":12,"prev":"` })
 		}},
 		{"stale-signoff", "stale-signoff", "as ok-resealed, then unblinded by a custodian who skipped the checks: every sign-off predates round 2", func(g *gen) {
 			g.signed()
