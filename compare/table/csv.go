@@ -63,8 +63,8 @@ func unwrapPath(err error) error {
 // row per bin. Lines starting with '#' (after optional blanks) and blank lines
 // are ignored, and a UTF-8 byte order mark at the start is skipped. Fields
 // are trimmed of spaces; quoting is not supported, since every field is a
-// column name or a number. Numbers follow the strict grammar of
-// [parseNumber]: plain decimals with an optional exponent.
+// column name or a number. Numbers are plain decimals with an optional
+// exponent (see the package documentation).
 //
 // Refused, with the line and column of the problem: empty or header-only
 // input, NUL bytes or invalid UTF-8, rows with a different number of fields,

@@ -13,6 +13,20 @@
 //
 // and every number is finite. Uncertainty columns must not be negative; which
 // columns are uncertainties is decided by the caller through [Selection].
+//
+// # Numbers
+//
+// Every reader takes numbers in one strict form, plain decimals with an
+// optional exponent ("12.5", "-3", ".5", "1.25e-3", "+7E2"), and reads them
+// as the correctly rounded float64 (the value of strconv.ParseFloat).
+// Hexadecimal, digit separators, NaN and infinities are refused, and so is a
+// non-zero number that overflows or falls below the smallest normal float64.
+//
+// # Limits
+//
+// Every reader keeps to [Limits] on the line length, the number of columns
+// and the input size, so no input makes it use unbounded memory or time.
+// Text tables are read in blocks of whole lines parsed on all cores.
 package table
 
 import (
