@@ -254,7 +254,7 @@ func appendJSONNumber(b []byte, v float64) []byte {
 
 // JSON writes s as one indented JSON object followed by a newline.
 func JSON(w io.Writer, s *compare.Summary) error {
-	enc := json.NewEncoder(w)
+	enc := json.NewEncoder(jsonEscaper{w})
 	enc.SetIndent("", "  ")
 	return enc.Encode(JSONValue(s))
 }

@@ -42,8 +42,13 @@ type Style struct {
 	MaxRows int
 }
 
-// Render writes s in the named format.
+// Render writes s in the named format. Free text (names, labels, files,
+// reasons) is shown with its control characters and bidirectional
+// overrides escaped (\x1b, \u202e), in every format.
 func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
+	if format != "json" {
+		s = cleanSummary(s)
+	}
 	switch format {
 	case "text", "":
 		return Text(w, s, st)

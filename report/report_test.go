@@ -878,3 +878,54 @@ func BenchmarkJSON1e6(b *testing.B) {
 	}
 	b.ReportMetric(float64(size), "json-bytes")
 }
+
+// TestFreeTextEscaped: names, labels, reasons and notes with an ANSI
+// escape, a C1 control or a bidirectional override (Unicode Standard
+// Annex #9: U+202E reverses what follows) reach no report raw. Text,
+// Markdown, JUnit and HTML show them as \x1b, \u202e; JSON writes the \u
+// escape, which decodes to the same string.
+func TestFreeTextEscaped(t *testing.T) {
+	s := fixture(t)
+	s.Title = "ti\x1b[2Jtle"
+	s.Notes = []string{"no\u202ete"}
+	s.Accepted = []compare.Acceptance{{By: []string{"he\u0085ron"}, Reason: "re\u2066ason\x07"}}
+	s.Entries[1].Files = [2]string{"a\u202e.csv", "b.csv"}
+	r := *s.Entries[1].Result
+	r.Column, r.LabelA = "co\x1blumn", "x\u200fy"
+	s.Entries[1].Result = &r
+	bad := regexp.MustCompile("[\x00-\x08\x0b-\x1f\x7f\u0080-\u009f\u061c\u200e\u200f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+	for _, f := range Formats {
+		var buf bytes.Buffer
+		if err := Render(&buf, f, s, Style{}); err != nil {
+			t.Fatal(err)
+		}
+		out := buf.String()
+		if m := bad.FindString(out); m != "" {
+			t.Errorf("%s: raw %q in the report", f, m)
+		}
+		want := []string{`re\u2066ason\x07`}
+		if f == "json" {
+			want = []string{`re\u2066ason\u0007`, `no\u202ete`}
+		}
+		for _, w := range want {
+			if !strings.Contains(out, w) {
+				t.Errorf("%s: %s not shown escaped", f, w)
+			}
+		}
+		if f == "json" {
+			var doc struct {
+				Notes []string `json:"notes"`
+			}
+			if err := json.Unmarshal(buf.Bytes(), &doc); err != nil || doc.Notes[0] != "no\u202ete" {
+				t.Errorf("json: notes read back as %q (%v)", doc.Notes, err)
+			}
+		}
+	}
+	// the fixture itself is unchanged: the renderers work on a copy
+	if s.Entries[1].Column != "co\x1blumn" || s.Title != "ti\x1b[2Jtle" {
+		t.Error("rendering changed the summary")
+	}
+	if got := EscapeText("ok \xff \x1b \u202e é"); got != `ok \xff \x1b \u202e é` {
+		t.Errorf("EscapeText = %q", got)
+	}
+}
