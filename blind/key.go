@@ -104,7 +104,11 @@ func Info(observable, column, scope, param string, bin int) string {
 type Range struct{ Lo, Hi float64 }
 
 // Draw maps u in [0, 1) onto the range: Lo + u·(Hi − Lo).
-func (r Range) Draw(u float64) float64 { return r.Lo + u*(r.Hi-r.Lo) }
+//
+// The explicit conversion rounds the product on its own: Go may otherwise
+// fuse x*y + z into one multiply-add (it does on arm64), which would give
+// other bytes than the spec's separately rounded operations.
+func (r Range) Draw(u float64) float64 { return r.Lo + float64(u*(r.Hi-r.Lo)) }
 
 // Width is Hi − Lo.
 func (r Range) Width() float64 { return r.Hi - r.Lo }
@@ -180,11 +184,12 @@ func (k *Key) Map(spec MapSpec, n int) Map {
 	return m
 }
 
-// Values returns s_i·v_i + o_i.
+// Values returns s_i·v_i + o_i, the product rounded before the sum (no
+// fused multiply-add, so every platform writes the same bytes).
 func (m Map) Values(v []float64) []float64 {
 	out := make([]float64, len(v))
 	for i := range v {
-		out[i] = m.S[i]*v[i] + m.O[i]
+		out[i] = float64(m.S[i]*v[i]) + m.O[i]
 	}
 	return out
 }

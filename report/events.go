@@ -80,6 +80,7 @@ func SyncText(w io.Writer, r *events.Result, st Style) error {
 		if n == 0 {
 			return
 		}
+		keys = keys[:min(len(keys), 8)]
 		parts := make([]string, len(keys))
 		for i, k := range keys {
 			parts[i] = "(" + keyStr(r, k) + ")"

@@ -8,6 +8,7 @@ import (
 	"golang.org/x/crypto/ssh"
 
 	"tandem/blind"
+	"tandem/blind/audit"
 	"tandem/blind/internal/format"
 	"tandem/blind/protocol"
 )
@@ -22,6 +23,9 @@ type BlindResult struct {
 	// Waiting names the observables published in team maps only, and the
 	// teams still to seal them.
 	Waiting map[string][]string
+	// Risks lists the attacks that broke a column whose protocol accepts
+	// that risk (published anyway, with the protocol's reason).
+	Risks []audit.Finding
 }
 
 type pending struct {
@@ -52,6 +56,7 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 	teams := c.Protocol.Teams()
 	res := &BlindResult{Waiting: map[string][]string{}}
 	var work []pending
+	var cols []audit.Column
 	for _, o := range c.Protocol.Observables {
 		os := st.Observables[o.Name]
 		step, scope := StepBlind, ""
@@ -91,10 +96,14 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 			if err != nil {
 				return nil, err
 			}
+			cols = append(cols, auditColumns(&o, f, bf)...)
 			p.files[rel] = bf.Encode()
 			p.data["seal."+t] = fmt.Sprintf("%d %s", s.Version, s.Commitment)
 		}
 		work = append(work, p)
+	}
+	if probs := c.judgeAudit(cols, res); len(probs) > 0 {
+		return nil, &RefusedError{Step: StepBlind, Problems: probs}
 	}
 	var entries []format.Entry
 	for _, p := range work {
@@ -117,12 +126,74 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 			res.Opened = append(res.Opened, p.obs)
 		}
 	}
-	if err := c.root.Sync(res.Files); err != nil {
-		return res, err
-	}
 	crashPoint("blind")
 	if err := c.appendEntries(entries, custodian); err != nil {
 		return res, err
 	}
 	return res, nil
+}
+
+// auditColumns describes every blinded column of a table for the attack
+// battery: what an outsider sees next to the true values.
+func auditColumns(o *protocol.Observable, truth, blinded *format.TableFile) []audit.Column {
+	var out []audit.Column
+	for ci := range o.Columns {
+		col := &o.Columns[ci]
+		ac := audit.Column{Observable: o.Name, Column: col.Name, Lo: truth.Table.Lo, Hi: truth.Table.Hi,
+			True: truth.Table.Column(col.Name), Blinded: blinded.Table.Column(col.Name),
+			Scale: [2]float64{col.Scale[0], col.Scale[1]}, Shift: [2]float64{col.Shift[0], col.Shift[1]}}
+		for _, e := range col.Errors {
+			ac.BlindedErr = append(ac.BlindedErr, blinded.Table.Column(e))
+		}
+		out = append(out, ac)
+	}
+	return out
+}
+
+// judgeAudit runs the attack battery on everything a blind step is about
+// to publish and refuses a column an attack breaks, unless the protocol
+// accepts that risk for the column (then the finding is kept in res).
+func (c *Campaign) judgeAudit(cols []audit.Column, res *BlindResult) []Problem {
+	var probs []Problem
+	seen := map[string]bool{}
+	// Every observable and column has maps of its own (its name is in the
+	// HKDF info), so the ratio attack between columns can only gain
+	// within one observable's table: audit observable by observable,
+	// which keeps the cost linear in the number of observables.
+	var findings []audit.Finding
+	for start := 0; start < len(cols); {
+		end := start + 1
+		for end < len(cols) && cols[end].Observable == cols[start].Observable {
+			end++
+		}
+		findings = append(findings, audit.Run(cols[start:end], audit.DefaultThreshold)...)
+		start = end
+	}
+	for _, f := range findings {
+		if !f.Broken {
+			continue
+		}
+		key := f.Observable + "/" + f.Column + "/" + f.Attack
+		if seen[key] {
+			continue // the same attack on another team's table of the column
+		}
+		seen[key] = true
+		o := c.Protocol.Observable(f.Observable)
+		var col *protocol.Column
+		if o != nil {
+			col = o.Column(f.Column)
+		}
+		if col != nil && col.AcceptRisk != "" {
+			res.Risks = append(res.Risks, f)
+			continue
+		}
+		detail := ""
+		if f.Detail != "" {
+			detail = " (" + f.Detail + ")"
+		}
+		probs = append(probs, Problem{Kind: ProblemState, Message: fmt.Sprintf(
+			"%s/%s: the %s attack recovers the true values to %.3g of the blinding range%s, below the %.2g the blind step accepts; widen the shift range, or accept the risk in the protocol with accept_risk = \"reason\"",
+			f.Observable, f.Column, f.Attack, f.Precision, detail, audit.DefaultThreshold)})
+	}
+	return probs
 }

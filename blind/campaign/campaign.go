@@ -21,6 +21,7 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"path/filepath"
 	"strings"
 	"time"
 
@@ -168,7 +169,13 @@ func Open(dir string) (*Campaign, error) {
 }
 
 func open(dir string) (*Campaign, error) {
-	r := root{dir: dir}
+	r, err := openRoot(dir)
+	if err != nil {
+		if errors.Is(err, ErrSymlink) {
+			return nil, refuse("open", ProblemSymlink, "%v", err)
+		}
+		return nil, table.Errorf(filepath.Join(dir, ProtocolFile), 0, 0, "%v", unwrapPath(err))
+	}
 	data, err := r.ReadFile(ProtocolFile, maxProtocol)
 	if err != nil {
 		if errors.Is(err, ErrSymlink) {

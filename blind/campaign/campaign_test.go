@@ -13,6 +13,8 @@ import (
 	"sync"
 	"testing"
 
+	"tandem/blind"
+	"tandem/blind/audit"
 	"tandem/blind/campaign"
 	"tandem/blind/internal/format"
 	"tandem/blind/internal/sshsig"
@@ -690,5 +692,88 @@ func TestWrongIdentity(t *testing.T) {
 	after, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*"))
 	if len(after) != len(before) {
 		t.Errorf("blinded/ written with a wrong identity: %v", after)
+	}
+}
+
+// countingTable is a 20-bin counting spectrum with √N errors, the case
+// where blinded uncertainties give the map away.
+func countingTable() *table.Table {
+	t := &table.Table{Source: "counts.csv", LoName: "lo", HiName: "hi", Names: []string{"counts", "stat"}, Cols: make([][]float64, 2)}
+	for i := 0; i < 20; i++ {
+		n := math.Round(5e4 * math.Pow(float64(i+1), -1.5))
+		t.Lo, t.Hi = append(t.Lo, float64(i)), append(t.Hi, float64(i+1))
+		t.Cols[0] = append(t.Cols[0], n)
+		t.Cols[1] = append(t.Cols[1], math.Sqrt(n))
+	}
+	return t
+}
+
+// TestBlindRefusesBrokenMap: with a narrow shift range on counting data,
+// the blind step's own attacks recover the true counts and it refuses,
+// naming the attack; a protocol that accepts the risk publishes, and the
+// reports say so.
+func TestBlindRefusesBrokenMap(t *testing.T) {
+	for _, accept := range []bool{false, true} {
+		dir := buildDemo(t, "init")
+		p := filepath.Join(dir, campaign.ProtocolFile)
+		proto, _ := os.ReadFile(p)
+		narrow := "shift = [-1.0, 1.0]"
+		if accept {
+			narrow += "\n  accept_risk = \"a test of the refusal\""
+		}
+		os.WriteFile(p, []byte(strings.Replace(string(proto), "shift = [-100000.0, 100000.0]", narrow, 1)), 0o644)
+		c, err := campaign.Init(dir, signer(t, dir, "custodian"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := c.Seal("heron", "energy_spectrum", countingTable(), signer(t, dir, "heron"), ""); err != nil {
+			t.Fatal(err)
+		}
+		res, err := open(t, dir).Blind(identity(t, dir), signer(t, dir, "custodian"))
+		if !accept {
+			if !errors.Is(err, campaign.ErrRefused) || !strings.Contains(problems(err), "energy_spectrum/counts: the ") || !strings.Contains(problems(err), "attack recovers") {
+				t.Fatalf("narrow shift: got %v (%s)", err, problems(err))
+			}
+			if m, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*")); len(m) != 0 {
+				t.Errorf("published after a refusal: %v", m)
+			}
+			continue
+		}
+		if err != nil || len(res.Risks) == 0 {
+			t.Fatalf("accepted risk: %v, risks %v", err, res.Risks)
+		}
+		notes := strings.Join(open(t, dir).Notes(nil), "\n")
+		if !strings.Contains(notes, "accepts the risk") || !strings.Contains(notes, "a test of the refusal") {
+			t.Errorf("notes lack the accepted risk: %s", notes)
+		}
+	}
+}
+
+// TestTemplateDefaultsPassAudit: the template's default ranges (scale
+// [0.5, 2], shift [-1000, 1000]) on counting data as large as the shift
+// range, with √N errors, survive every attack of the battery for many
+// keys.
+func TestTemplateDefaultsPassAudit(t *testing.T) {
+	text := protocol.Template("x", "", "")
+	if !strings.Contains(text, "scale = [0.5, 2.0]") || !strings.Contains(text, "shift = [-1000.0, 1000.0]") {
+		t.Fatal("template defaults changed; update this test")
+	}
+	spec := blind.MapSpec{Observable: "spectrum", Column: "rate", Scope: blind.CommonScope, Scale: blind.Range{Lo: 0.5, Hi: 2}, Shift: blind.Range{Lo: -1000, Hi: 1000}}
+	var lo, hi, v, e []float64
+	for i := 0; i < 30; i++ {
+		n := math.Round(1000 * math.Exp(-float64(i)/15))
+		lo, hi = append(lo, float64(i)), append(hi, float64(i+1))
+		v, e = append(v, n), append(e, math.Sqrt(n))
+	}
+	for trial := 0; trial < 20; trial++ {
+		k, _ := blind.GenerateKey()
+		m := k.Map(spec, len(v))
+		col := audit.Column{Observable: "spectrum", Column: "rate", Lo: lo, Hi: hi, True: v, Blinded: m.Values(v),
+			BlindedErr: [][]float64{m.Errors(e)}, Scale: [2]float64{0.5, 2}, Shift: [2]float64{-1000, 1000}}
+		for _, f := range audit.Run([]audit.Column{col}, audit.DefaultThreshold) {
+			if f.Broken {
+				t.Errorf("key %d: %s breaks the template defaults (precision %.3g)", trial, f.Attack, f.Precision)
+			}
+		}
 	}
 }

@@ -41,7 +41,7 @@ func (c *Campaign) Compare() (*Comparison, error) {
 	}
 	st := c.State()
 	teams := c.Protocol.Teams()
-	cmp := &Comparison{Summary: &compare.Summary{Title: "campaign " + c.Protocol.Campaign}, Tables: map[Slot]*Published{}}
+	cmp := &Comparison{Summary: &compare.Summary{Title: "campaign " + c.Protocol.Campaign, Campaign: c.Protocol.Campaign}, Tables: map[Slot]*Published{}}
 	for oi := range c.Protocol.Observables {
 		o := &c.Protocol.Observables[oi]
 		os := st.Observables[o.Name]
@@ -59,9 +59,12 @@ func (c *Campaign) Compare() (*Comparison, error) {
 			tables[t] = tb
 			cmp.Tables[Slot{t, o.Name}] = pub
 		}
-		if err := addEntries(cmp.Summary, o, teams, tables, true); err != nil {
+		if err := addEntries(cmp.Summary, o, teams, tables, true, c.Protocol.FamilyAlpha()); err != nil {
 			return nil, err
 		}
+	}
+	if err := adjustFamily(cmp.Summary, c.Protocol.FamilyAlpha()); err != nil {
+		return nil, err
 	}
 	cmp.Verdict = Verdict(cmp.Summary.Verdict())
 	if len(cmp.Incomplete) > 0 {
@@ -86,18 +89,19 @@ func (c *Campaign) pendingReason(os *ObservableState) string {
 }
 
 // addEntries compares every pair of teams on every column.
-func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tables map[string]*table.Table, blinded bool) error {
+func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tables map[string]*table.Table, blinded bool, alpha float64) error {
 	for i := 0; i < len(teams); i++ {
 		for j := i + 1; j < len(teams); j++ {
 			a, b := tables[teams[i]], tables[teams[j]]
 			for ci := range o.Columns {
 				col := &o.Columns[ci]
-				rs, err := compare.Tables(a, b, []table.Selection{col.Selection()}, protocol.EdgeTolerance, col.Options())
+				opt := col.CompareOptions(alpha)
+				rs, err := compare.Tables(a, b, []table.Selection{col.Selection()}, opt.EdgeTol, opt)
 				if err != nil {
 					return fmt.Errorf("observable %s, %s vs %s: %w", o.Name, teams[i], teams[j], err)
 				}
 				s.Entries = append(s.Entries, compare.Entry{
-					Observable: o.Name, Teams: [2]string{teams[i], teams[j]},
+					Observable: o.Name, Title: o.Title, Teams: [2]string{teams[i], teams[j]},
 					XLabel: o.XLabel, YLabel: o.YLabel, Blinded: blinded, Result: rs[0],
 				})
 			}
@@ -159,7 +163,7 @@ func (c *Campaign) CompareUnblinded() (*compare.Summary, error) {
 	if !c.Unblinded() {
 		return nil, refuse("compare", ProblemState, "the campaign is not unblinded yet; only blinded tables can be compared")
 	}
-	s := &compare.Summary{Title: "campaign " + c.Protocol.Campaign + ": final (true values)"}
+	s := &compare.Summary{Title: "campaign " + c.Protocol.Campaign + ": final (true values)", Campaign: c.Protocol.Campaign}
 	teams := c.Protocol.Teams()
 	for oi := range c.Protocol.Observables {
 		o := &c.Protocol.Observables[oi]
@@ -180,11 +184,25 @@ func (c *Campaign) CompareUnblinded() (*compare.Summary, error) {
 			}
 			tables[t] = f.Table
 		}
-		if err := addEntries(s, o, teams, tables, false); err != nil {
+		if err := addEntries(s, o, teams, tables, false, c.Protocol.FamilyAlpha()); err != nil {
 			return nil, err
 		}
 	}
+	if err := adjustFamily(s, c.Protocol.FamilyAlpha()); err != nil {
+		return nil, err
+	}
 	return s, nil
+}
+
+// adjustFamily holds the family-wise alpha across every observable,
+// column and team pair of the campaign (Holm's method, see
+// [compare.AdjustFamily]).
+func adjustFamily(s *compare.Summary, alpha float64) error {
+	rs := make([]*compare.Result, len(s.Entries))
+	for i := range s.Entries {
+		rs[i] = s.Entries[i].Result
+	}
+	return compare.AdjustFamily(rs, alpha)
 }
 
 func joinAnd(s []string) string {

@@ -121,7 +121,9 @@ func (c *Campaign) begin(step Step) (func(), error) {
 		return fail(err)
 	}
 	if c.torn > 0 {
-		if err := c.root.Truncate(LedgerFile, int64(len(c.raw))); err != nil {
+		// The partial line was never committed: keep the whole lines, the
+		// only time the ledger file is replaced rather than appended to.
+		if err := c.root.WriteAtomic(LedgerFile, c.raw); err != nil {
 			return fail(fmt.Errorf("removing the partial line an interrupted step left in the ledger: %w", err))
 		}
 		c.torn = 0

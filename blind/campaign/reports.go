@@ -70,6 +70,26 @@ func (c *Campaign) Notes(cmp *Comparison) []string {
 	return notes
 }
 
+// Accepted lists the disagreements the valid sign-offs accept, for
+// [compare.Summary.Accepted].
+func (c *Campaign) Accepted() []compare.Acceptance {
+	var out []compare.Acceptance
+	idx := map[string]int{}
+	for _, s := range c.Signoffs() {
+		if !s.Valid || s.Statement.Accepted == "" {
+			continue
+		}
+		r := s.Statement.Accepted
+		if i, ok := idx[r]; ok {
+			out[i].By = append(out[i].By, s.Party)
+			continue
+		}
+		idx[r] = len(out)
+		out = append(out, compare.Acceptance{By: []string{s.Party}, Reason: r})
+	}
+	return out
+}
+
 // BlindedSummary is the comparison of the blinded tables with the notes on
 // top, for reports.
 func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
@@ -79,6 +99,7 @@ func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
 	}
 	s := *cmp.Summary
 	s.Notes = append(append([]string(nil), s.Notes...), c.Notes(cmp)...)
+	s.Accepted = c.Accepted()
 	return &s, cmp, nil
 }
 
@@ -93,6 +114,7 @@ func (c *Campaign) FinalSummary() (*compare.Summary, error) {
 		return nil, err
 	}
 	s.Notes = append(c.Notes(cmp), "the pulls, χ² and p-values equal those of the blinded comparison that was signed")
+	s.Accepted = c.Accepted()
 	return s, nil
 }
 

@@ -149,9 +149,6 @@ func (c *Campaign) Sign(st *Statement, signer ssh.Signer) (statementPath string,
 	if err := c.root.CreateExclusive(gp, sig, 0o644); err != nil {
 		return "", err
 	}
-	if err := c.root.Sync([]string{sp, gp}); err != nil {
-		return "", err
-	}
 	crashPoint("sign")
 	data := map[string]string{"party": st.Party, "verdict": st.Verdict}
 	if st.Accepted != "" {

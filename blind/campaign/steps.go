@@ -61,9 +61,6 @@ func Init(dir string, custodian ssh.Signer) (*Campaign, error) {
 	if err := c.root.CreateExclusive(KeyFile, sealedKey, 0o644); err != nil {
 		return nil, err
 	}
-	if err := c.root.Sync([]string{KeyFile}); err != nil {
-		return nil, err
-	}
 	com := k.Commitment(salt)
 	err = c.appendEntry(format.Entry{Step: string(StepInit), Actor: protocol.RoleCustodian,
 		Files: map[string]string{KeyFile: format.Digest(sealedKey), ProtocolFile: format.Digest(c.ProtocolBytes)},
@@ -196,9 +193,6 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 	if err := c.root.CreateExclusive(rel, ciphertext, 0o644); err != nil {
 		return nil, err
 	}
-	if err := c.root.Sync([]string{rel}); err != nil {
-		return nil, err
-	}
 	crashPoint("seal")
 	com := f.Commitment()
 	data := map[string]string{"team": team, "observable": observable, "commitment": com, "version": strconv.Itoa(version)}
@@ -222,6 +216,11 @@ func Canonical(o *protocol.Observable, t *table.Table) (*table.Table, error) {
 	for _, c := range o.Columns {
 		names = append(names, c.Name)
 		names = append(names, c.Errors...)
+	}
+	for _, x := range o.Extra {
+		if !slices.Contains(names, x) {
+			names = append(names, x)
+		}
 	}
 	for _, n := range t.Names {
 		if !slices.Contains(names, n) {

@@ -98,13 +98,6 @@ func (c *Campaign) Unblind(ids []age.Identity, custodian ssh.Signer) (*UnblindRe
 		}
 		digests[rel] = format.Digest(data)
 	}
-	var written []string
-	for rel := range digests {
-		written = append(written, rel)
-	}
-	if err := c.root.Sync(written); err != nil {
-		return nil, err
-	}
 	crashPoint("unblind-files")
 	var signers []string
 	for _, s := range c.Signoffs() {

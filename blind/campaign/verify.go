@@ -85,6 +85,11 @@ func (c *Campaign) audit() *Report {
 	} else if err != nil {
 		r.Problems = append(r.Problems, Problem{Kind: ProblemState, Message: err.Error()})
 	}
+	if left, err := c.root.Leftovers(); err == nil {
+		for _, rel := range left {
+			r.Notes = append(r.Notes, rel+": temporary file of an interrupted write; safe to remove")
+		}
+	}
 	for _, rel := range all {
 		if _, ok := files[rel]; ok || rel == LedgerFile || rel == ProtocolFile {
 			continue

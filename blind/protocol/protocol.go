@@ -11,7 +11,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"math"
 	"regexp"
 	"slices"
 	"strings"
@@ -31,7 +30,7 @@ const File = "campaign.toml"
 
 // EdgeTolerance is the relative tolerance on bin edges between two teams'
 // tables (see [table.SameEdges]).
-const EdgeTolerance = 1e-9
+const EdgeTolerance = compare.DefaultEdgeTol
 
 // Roles of parties.
 const (
@@ -81,6 +80,20 @@ type Observable struct {
 	// seal ROOT output.
 	Object  string   `toml:"object"`
 	Columns []Column `toml:"column"`
+	// Extra lists the per-bin columns the comparison settings name
+	// (correlation columns, event counts of an overlap), which the tables
+	// carry unblinded after the declared columns.
+	Extra []string `toml:"-"`
+}
+
+func dedupe(s []string) []string {
+	var out []string
+	for _, x := range s {
+		if !slices.Contains(out, x) {
+			out = append(out, x)
+		}
+	}
+	return out
 }
 
 // Column is a blinded, compared value column of an observable.
@@ -94,26 +107,22 @@ type Column struct {
 	// AcceptRisk, when set, lets blind publish a map that one of the
 	// standard attacks breaks; the reason is shown in every report.
 	AcceptRisk string `toml:"accept_risk"`
-	// Comparison settings, as `tandem compare` takes them.
-	Correlation float64  `toml:"correlation"`
-	Subset      bool     `toml:"subset"`
-	MaxPull     *float64 `toml:"max_pull"`
-	MinP        *float64 `toml:"min_p"`
-	AbsTol      float64  `toml:"abs_tol"`
-	RelTol      float64  `toml:"rel_tol"`
+	// Options are the comparison settings, decoded from the same TOML
+	// table with the keys [compare.Options] names (max_pull, abs_tol,
+	// rel_tol, edge_tol, subset, correlation, correlations, overlap); the
+	// family-wise alpha is campaign-wide and set at the top level.
+	compare.Options
 }
 
-// Options returns the comparison options the column declares.
-func (c *Column) Options() compare.Options {
-	l := compare.DefaultLimits
-	if c.MaxPull != nil {
-		l.MaxPull = *c.MaxPull
+// CompareOptions returns the comparison options the column declares,
+// with the campaign's family-wise alpha.
+func (c *Column) CompareOptions(alpha float64) compare.Options {
+	o := c.Options
+	o.Alpha = alpha
+	if o.EdgeTol == 0 {
+		o.EdgeTol = EdgeTolerance
 	}
-	if c.MinP != nil {
-		l.MinP = *c.MinP
-	}
-	l.AbsTol, l.RelTol = c.AbsTol, c.RelTol
-	return compare.Options{Correlation: c.Correlation, Subset: c.Subset, Limits: l}
+	return o
 }
 
 // Selection returns the table columns this column compares.
@@ -372,14 +381,14 @@ func (p *Protocol) validate() error {
 	}
 	seenObs := map[string]bool{}
 	for i := range p.Observables {
-		if err := p.Observables[i].validate(seenObs); err != nil {
+		if err := p.Observables[i].validate(seenObs, p.FamilyAlpha()); err != nil {
 			return err
 		}
 	}
 	return nil
 }
 
-func (o *Observable) validate(seen map[string]bool) error {
+func (o *Observable) validate(seen map[string]bool, alpha float64) error {
 	anchor := fmt.Sprintf("name = %q", o.Name)
 	if !ValidName(o.Name) {
 		return ferr(anchor, "observable name %q must be 1-64 letters, digits, '.', '_' or '-'", o.Name)
@@ -403,6 +412,8 @@ func (o *Observable) validate(seen map[string]bool) error {
 		return ferr(anchor, "observable %q declares no columns", o.Name)
 	}
 	seenCol := map[string]bool{o.Edges[0]: true, o.Edges[1]: true}
+	var extra []string
+	defer func() { o.Extra = dedupe(extra) }()
 	for j := range o.Columns {
 		c := &o.Columns[j]
 		canchor := fmt.Sprintf("name = %q", c.Name)
@@ -431,20 +442,26 @@ func (o *Observable) validate(seen map[string]bool) error {
 		if err := CleanText(c.AcceptRisk); err != nil {
 			return ferr(canchor, "%s: accept_risk: %v", where, err)
 		}
-		if c.Correlation < -1 || c.Correlation > 1 || math.IsNaN(c.Correlation) {
-			return ferr(canchor, "%s: correlation %v is outside [-1, 1]", where, c.Correlation)
+		if c.Options.Alpha != 0 {
+			return ferr(canchor, "%s: alpha is the campaign's family-wise rate; set it once at the top of the protocol", where)
 		}
-		if c.Subset && c.Correlation != 0 {
-			return ferr(canchor, "%s: subset and correlation cannot be used together", where)
+		opt := c.CompareOptions(alpha)
+		if err := opt.Validate(); err != nil {
+			return ferr(canchor, "%s: %v", where, err)
 		}
-		if c.MaxPull != nil && (*c.MaxPull < 0 || math.IsInf(*c.MaxPull, 0) || math.IsNaN(*c.MaxPull)) {
-			return ferr(canchor, "%s: max_pull must be >= 0", where)
+		for k, rho := range c.Correlations {
+			if !slices.Contains(c.Errors, k) && !slices.Contains(c.Errors, c.Name+"_"+k) {
+				return ferr(canchor, "%s: correlations names %q, which is not one of its error columns", where, k)
+			}
+			if rho.Column != "" && !slices.Contains(c.Errors, rho.Column) && rho.Column != c.Name {
+				extra = append(extra, rho.Column)
+			}
 		}
-		if c.MinP != nil && !(*c.MinP >= 0 && *c.MinP < 1) {
-			return ferr(canchor, "%s: min_p must be in [0, 1)", where)
+		if c.Default.Column != "" {
+			extra = append(extra, c.Default.Column)
 		}
-		if !(c.AbsTol >= 0) || !(c.RelTol >= 0) {
-			return ferr(canchor, "%s: abs_tol and rel_tol must be >= 0", where)
+		if c.Overlap.Enabled() {
+			return ferr(canchor, "%s: overlap is not available in a campaign: the per-bin event counts would publish the true counts; declare the correlation per source (a number or a per-bin column) instead", where)
 		}
 	}
 	return nil

@@ -77,9 +77,12 @@ edges = ["lo", "hi"]
   # scaled by s_i, so pulls, chi-square and p-values do not change.
   scale = [0.5, 2.0]            # blinding factors, drawn from this range (> 0)
   shift = [-1000.0, 1000.0]     # blinding offsets: make this as wide as the values
-  correlation = 0.0             # correlation of the two chains' errors
-  max_pull = 3.0                # largest allowed |pull|
-  min_p = 0.01                  # smallest allowed p-value
+  # Correlation of the two chains' errors, per error source: a number in
+  # [-1, 1] or the name of a column with one value per bin. A systematic
+  # both teams take from the same source has 1; statistical errors of
+  # chains on the same events about N_common/sqrt(N_a N_b).
+  correlations = { stat = 0.0, syst = 0.0 }
+  # max_pull = 4.0              # optional raw limit on the largest |pull|
   # accept_risk = "why publishing a map an attack breaks is acceptable"
 `, blind.Version, campaign, custodian, custodianKey), "\n")
 }

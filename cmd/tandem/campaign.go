@@ -355,13 +355,14 @@ func runBlind(e *env, args []string) error {
 		return err
 	}
 	res, err := c.Blind(ids, signer)
-	if res != nil {
-		for _, f := range res.Files {
-			fmt.Fprintf(e.stdout, "blinded %s\n", f)
-		}
-	}
 	if err != nil {
 		return campaignErr(err)
+	}
+	for _, f := range res.Files {
+		fmt.Fprintf(e.stdout, "blinded %s\n", f)
+	}
+	for _, f := range res.Risks {
+		e.warnf("%s/%s: the %s attack recovers the true values to %.3g of the blinding range; published because the protocol accepts the risk", f.Observable, f.Column, f.Attack, f.Precision)
 	}
 	for _, o := range res.Opened {
 		e.infof("%s: every team has sealed; the comparison is open", o)

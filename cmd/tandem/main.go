@@ -38,16 +38,19 @@ Usage:
                                            TOML or a ROOT object), no campaign
     tandem sync A B --key COL[,COL…]       match two event tables event by event
                                            and compare their cut flows
+    tandem sync merge SUMMARY…             merge the summaries of partitions
     tandem demo DIR [--stop-before STEP]   build a complete demo campaign in DIR
 
   Campaign steps (DIR holds campaign.toml, the ledger and the tables):
-    tandem init DIR [--custodian-key FILE | --custodian RECIPIENT]
-    tandem seal DIR --team T --observable O [FILE]   (stdin when no FILE)
-    tandem blind DIR --identity FILE
+    tandem init DIR [--custodian-key FILE | --custodian RECIPIENT] [--key FILE]
+    tandem seal DIR --team T --observable O [--key FILE] [--reason TEXT] [FILE]
+                                           (stdin when no FILE; ssh-agent when no --key)
+    tandem blind DIR --identity FILE [--key FILE]
     tandem compare DIR [--tables blinded|unblinded]
-    tandem status DIR [--format json]
+    tandem status DIR [--format text|json]
     tandem sign DIR --as PARTY [--key FILE] [--yes] [--accept-disagreement REASON]
-    tandem unblind DIR --identity FILE
+    tandem amend DIR --as PARTY --reason TEXT [--key FILE] NEW.toml
+    tandem unblind DIR --identity FILE [--key FILE]
     tandem verify DIR
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
 
@@ -137,6 +140,7 @@ func commands() []command {
 		{"blind", runBlind},
 		{"status", runStatus},
 		{"sign", runSign},
+		{"amend", runAmend},
 		{"unblind", runUnblind},
 		{"verify", runVerify},
 		{"report", runReport},

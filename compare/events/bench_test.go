@@ -166,3 +166,32 @@ func benchSync(b *testing.B, ext string) {
 // go test ./compare/events -run XXX -bench Sync -benchmem -benchdir /tmp/evbench [-benchrows 10000000]
 func BenchmarkSyncCSV(b *testing.B)     { benchSync(b, "csv") }
 func BenchmarkSyncParquet(b *testing.B) { benchSync(b, "parquet") }
+
+// BenchmarkSyncBlindedCSV is BenchmarkSyncCSV with every variable blinded
+// (the same affine map streamed over both sides' columns).
+func BenchmarkSyncBlindedCSV(b *testing.B) {
+	n := *benchRows
+	dir := benchFiles(b, n)
+	blind := map[string]Affine{}
+	for k := 0; k < 5; k++ {
+		blind[fmt.Sprintf("v%d", k)] = Affine{S: 1.25 + float64(k), O: -3.5 * float64(k)}
+	}
+	b.ResetTimer()
+	for b.Loop() {
+		ta, err := OpenCSV(filepath.Join(dir, fmt.Sprintf("events_a_%d.csv", n)))
+		if err != nil {
+			b.Fatal(err)
+		}
+		tb, err := OpenCSV(filepath.Join(dir, fmt.Sprintf("events_b_%d.csv", n)))
+		if err != nil {
+			b.Fatal(err)
+		}
+		s, err := Sync(ta, tb, Options{Layout: Layout{Keys: []string{"run", "event"}}, Blind: blind})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if !s.Vars[0].Blinded || s.Common < int64(n)*9/10 {
+			b.Fatal("not blinded")
+		}
+	}
+}

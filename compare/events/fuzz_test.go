@@ -43,7 +43,7 @@ func syncSelf(t *testing.T, tb Table) {
 	if len(keys) == 0 {
 		return
 	}
-	s, err := Sync(tb, tb, Options{Layout: Layout{Keys: keys, Cuts: cuts}, TempDir: t.TempDir(), MemBudget: 1 << 12})
+	s, err := Sync(tb, tb, Options{Layout: Layout{Keys: keys, Cuts: cuts}, TempDir: t.TempDir(), MemBudget: 1 << 16})
 	if err != nil {
 		return
 	}

@@ -139,3 +139,24 @@ func TestParquetSyncAgainstReference(t *testing.T) {
 	}
 	checkAgainstReference(t, ref, s)
 }
+
+// The small fuzz seed (events_write_parquet_seed.mjs) has nulls in x,
+// which read as NaN, and RLE booleans in three row groups.
+func TestParquetSeedNulls(t *testing.T) {
+	tb, err := OpenParquet("testdata/parquet/small.parquet")
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := collect(t, tb, Layout{Keys: []string{"run", "event"}, Vars: []string{"x", "y"}, Cuts: []string{"pass"}})
+	if got.N != 24 {
+		t.Fatalf("%d rows", got.N)
+	}
+	for i := 0; i < got.N; i++ {
+		x, y, pass := got.Vals[2*i], got.Vals[2*i+1], got.Cuts[i] == 1
+		wantX := float64(i) / 3
+		if (i%5 == 0) != (x != x) || (i%5 != 0 && x != wantX) || y != float64(i)*0.25 || pass != (i%3 != 0) ||
+			got.Keys[2*i] != int64(1+i>>3) || got.Keys[2*i+1] != int64(7*i) {
+			t.Errorf("row %d: keys %v x %v y %v pass %v", i, got.Keys[2*i:2*i+2], x, y, pass)
+		}
+	}
+}

@@ -168,16 +168,28 @@ func Child(stdin io.Reader, stdout io.Writer) (code int, served bool) {
 	switch req.Op {
 	case "hist":
 		t, err := readHist(req.Spec)
+		if err == nil && t.Len() > MaxBins {
+			err = table.Errorf(req.Spec, 0, 0, "%d bins, more than the %d tandem reads", t.Len(), MaxBins)
+		}
 		if err != nil {
 			fw.fail(req.Spec, err)
 		} else {
+			for i, n := range t.Notes {
+				t.Notes[i] = clean(n, 1000) // names from the file: keep the frame small
+			}
 			fw.table(t)
 		}
 	case "columns":
 		cols, err := treeColumns(req.Spec)
+		var b []byte
+		if err == nil {
+			if b, err = json.Marshal(cols); err == nil && len(b) > maxMeta {
+				err = table.Errorf(req.Spec, 0, 0, "the tree's %d branches have names too long to list (more than %s)", len(cols), FormatSize(maxMeta))
+			}
+		}
 		if err != nil {
 			fw.fail(req.Spec, err)
-		} else if fw.json('c', cols) == nil {
+		} else if fw.frame('c', b) == nil {
 			fw.frame('z', nil)
 		}
 	case "tree":
@@ -200,14 +212,14 @@ func Child(stdin io.Reader, stdout io.Writer) (code int, served bool) {
 
 // child is a running decoding child as its parent sees it.
 type child struct {
-	spec, file string
-	limits     Limits
-	cmd        *exec.Cmd
-	stdout     io.ReadCloser
-	stderr     cappedBuffer
-	timer      *time.Timer
-	timedOut   atomic.Bool
-	started    time.Time
+	spec     string
+	limits   Limits
+	cmd      *exec.Cmd
+	stdout   io.ReadCloser
+	stderr   cappedBuffer
+	timer    *time.Timer
+	timedOut atomic.Bool
+	started  time.Time
 }
 
 // observe, when set (by tests), learns the peak memory and the time of
@@ -216,7 +228,6 @@ var observe func(spec string, maxRSS int64, took time.Duration)
 
 // startChild starts a child on req.
 func startChild(req request) (*child, error) {
-	file, _ := Split(req.Spec)
 	lim, err := currentLimits()
 	if err != nil {
 		return nil, err
@@ -230,9 +241,13 @@ func startChild(req request) (*child, error) {
 	if err != nil {
 		return nil, table.Errorf(req.Spec, 0, 0, "could not start the ROOT reader: %v", err)
 	}
-	c := &child{spec: req.Spec, file: file, limits: lim}
+	c := &child{spec: req.Spec, limits: lim}
 	c.cmd = exec.Command(exe)
 	c.cmd.Env = append(os.Environ(), childEnv+"="+strconv.Itoa(protoVersion), "GOTRACEBACK=single")
+	if os.Getenv("GORACE") == "" {
+		// a binary built with -race otherwise waits 1 s at every exit
+		c.cmd.Env = append(c.cmd.Env, "GORACE=atexit_sleep_ms=0")
+	}
 	c.cmd.Stdin = bytes.NewReader(body)
 	c.cmd.Stderr = &c.stderr
 	if c.stdout, err = c.cmd.StdoutPipe(); err != nil {

@@ -16,7 +16,7 @@ import (
 	"tandem/compare/table"
 )
 
-var mutations = flag.Int("mutations", 500, "single-byte mutations of go-hep's ROOT test files in TestMutations")
+var mutations = flag.Int("mutations", defaultMutations, "single-byte mutations of go-hep's ROOT test files in TestMutations (default 500, or 100 under the race detector)")
 
 // mutationTargets are go-hep's ROOT test files (paths inside the module)
 // and what is read from each: histogram and graph objects by Read, a tree

@@ -21,7 +21,8 @@ import (
 	"tandem/compare/table"
 )
 
-// refill fills histograms from gauss-1d-data.dat as make-root-h1.py did
+// refill fills histograms from gauss-1d-data.dat as make-root-h1.py (both
+// beside gauss-h1.root in go-hep's hbook/rootcnv/testdata) did
 // with ROOT (TH1::Fill(x, w) with Sumw2), independently of any ROOT
 // reader: bin k holds the x in [edge_k, edge_k+1); x below the first edge
 // is underflow, x at or above the last edge is overflow.

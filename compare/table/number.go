@@ -98,11 +98,13 @@ func eiselLemire(m uint64, q int, neg bool) (float64, bool) {
 	// P = w·5^q/2^e lies in [w·T, w·T + w). First w·Thi: the product
 	// w·T is at least (h1, h0)·2⁶⁴ and floor(P/2⁶⁴) at most (h1, h0) + w.
 	h1, h0 := bits.Mul64(w, pow5Hi[i])
-	// The common case, decided by the first product alone: no carry from
-	// the slack into h1, and not possibly halfway (roundTop below, inline).
+	// The common case, decided by the first product alone (roundTop,
+	// written out): a carry from the slack into h1 leaves the top bits
+	// alone unless the bits below them are all ones, and the value is not
+	// possibly halfway.
 	shift := 9 + h1>>63
-	top := h1 >> shift
-	decided := h0+w >= h0 && (top&1 == 0 || h1&(1<<shift-1) != 0 || h0 != 0)
+	top, low := h1>>shift, h1&(1<<shift-1)
+	decided := (h0+w >= h0 || low != 1<<shift-1) && (top&1 == 0 || low != 0 || h0 != 0)
 	if !decided {
 		top, decided = roundTop(h1, h0, w, false)
 	}
@@ -215,25 +217,38 @@ func scanField(line []byte, pos int, delim byte) (v float64, end int, ok bool) {
 			i++
 		}
 	}
-	// m may wrap on more than 19 digits; the count check rejects that.
+	// Leading zeros ("0.000123") are skipped and not counted; m may wrap
+	// on more than 19 other digits, which the count check rejects.
 	var m uint64
 	start := i
+	for i < len(line) && line[i] == '0' {
+		i++
+	}
+	zeros := i - start
 	for i < len(line) && line[i]-'0' <= 9 {
 		m = m*10 + uint64(line[i]-'0')
 		i++
 	}
-	digits, frac := i-start, 0
+	seen := i > start
+	digits, frac := i-start-zeros, 0
 	if i < len(line) && line[i] == '.' {
 		i++
 		fstart := i
+		if m == 0 {
+			for i < len(line) && line[i] == '0' {
+				i++
+			}
+		}
+		fzeros := i - fstart
 		for i < len(line) && line[i]-'0' <= 9 {
 			m = m*10 + uint64(line[i]-'0')
 			i++
 		}
 		frac = i - fstart
-		digits += frac
+		digits += frac - fzeros
+		seen = seen || frac > 0
 	}
-	if digits == 0 || digits > 19 {
+	if !seen || digits > 19 {
 		return 0, 0, false
 	}
 	q := -frac

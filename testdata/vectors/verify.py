@@ -227,8 +227,9 @@ def parse_entry(line):
 def parse_ledger(data):
     if not data.startswith((VERSION + " ledger\n").encode()):
         raise Bad("not a %s ledger" % VERSION)
-    if not data.endswith(b"\n"):
-        raise Bad("ledger does not end with LF")
+    # Bytes after the last LF are a partial line left by an interrupted
+    # append: never committed, not part of the chain.
+    data = data[:data.rfind(b"\n") + 1]
     prev, out = "0" * 64, []
     for line in data.split(b"\n")[1:-1]:
         e = parse_entry(line)
@@ -785,7 +786,11 @@ Campaign.walk_all = walk_all
 def main(argv):
     if len(argv) == 2 and argv[0] == "--campaign":
         c = Campaign(argv[1])
-        c.verify()
+        try:
+            c.verify()
+        except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError, KeyError, TypeError, ValueError) as err:
+            print("verify.py: error: %s: %s" % (argv[1], err), file=sys.stderr)
+            return 2
         print(c.outcome())
         for kind, msg in c.problems:
             print("%s: %s" % (kind, msg))
@@ -795,7 +800,7 @@ def main(argv):
     for path in argv:
         try:
             out = check_vector(path)
-        except (Bad, AssertionError, KeyError, ValueError) as err:
+        except (Bad, AssertionError, KeyError, ValueError, TypeError, OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
             out = "error(%s)" % str(err).replace(" ", "_")
         print(os.path.basename(path), out)
     return 0

@@ -633,7 +633,14 @@ func TestCrashLeavesRecognisableTemp(t *testing.T) {
 		must(t, err)
 		must(t, cmd.Start())
 		bufio.NewReader(stdout).ReadString('\n')
-		time.Sleep(time.Duration(5+rand.IntN(40)) * time.Millisecond)
+		// Wait until a write is under way (a loaded machine can starve
+		// the child for a long time), then kill it a moment later.
+		for deadline := time.Now().Add(20 * time.Second); time.Now().Before(deadline); time.Sleep(time.Millisecond) {
+			if left, _ := r.Leftovers(); len(left) > 0 {
+				break
+			}
+		}
+		time.Sleep(time.Duration(rand.IntN(3000)) * time.Microsecond)
 		cmd.Process.Signal(syscall.SIGKILL)
 		cmd.Wait()
 		b, err := r.ReadFile("sealed.age", 8<<20)

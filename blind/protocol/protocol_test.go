@@ -1,0 +1,64 @@
+package protocol
+
+import (
+	"crypto/ed25519"
+	"crypto/rand"
+	"strings"
+	"testing"
+
+	"filippo.io/age"
+	"golang.org/x/crypto/ssh"
+)
+
+func pubLine(t *testing.T, name string) string {
+	pub, _, err := ed25519.GenerateKey(rand.Reader)
+	if err != nil {
+		t.Fatal(err)
+	}
+	k, _ := ssh.NewPublicKey(pub)
+	return strings.TrimSpace(string(ssh.MarshalAuthorizedKey(k))) + " " + name
+}
+
+// TestTemplateParses: the template, with its placeholders filled in, is a
+// valid protocol whose column options decode into compare.Options.
+func TestTemplateParses(t *testing.T) {
+	id, _ := age.GenerateX25519Identity()
+	text := Template("spectrum-2026", id.Recipient().String(), pubLine(t, "custodian"))
+	for _, p := range []string{"team-a", "team-b", "reviewer"} {
+		text = strings.Replace(text, `"ssh-ed25519 AAAA... `+p+`"`, `"`+pubLine(t, p)+`"`, 1)
+	}
+	p, err := Parse("campaign.toml", []byte(text))
+	if err != nil {
+		t.Fatalf("filled-in template refused: %v", err)
+	}
+	col := p.Observables[0].Columns[0]
+	opt := col.CompareOptions(p.FamilyAlpha())
+	if opt.Alpha != 0.01 || opt.EdgeTol != EdgeTolerance || len(opt.Correlations) != 2 || !opt.Correlations["syst"].Set {
+		t.Errorf("options %+v", opt)
+	}
+	bad := strings.Replace(text, "correlations = { stat = 0.0, syst = 0.0 }", "correlations = { stat = 0.0, lumi = 1.0 }", 1)
+	if _, err := Parse("campaign.toml", []byte(bad)); err == nil || !strings.Contains(err.Error(), `"lumi"`) {
+		t.Errorf("a correlation of an undeclared source: %v", err)
+	}
+	bad = strings.Replace(text, "correlations = { stat = 0.0, syst = 0.0 }", "correlations = { stat = 1.5 }", 1)
+	if _, err := Parse("campaign.toml", []byte(bad)); err == nil {
+		t.Errorf("a correlation of 1.5 accepted")
+	}
+	bad = strings.Replace(text, "correlations = {", "alpha = 0.05\n  correlations = {", 1)
+	if _, err := Parse("campaign.toml", []byte(bad)); err == nil || !strings.Contains(err.Error(), "family-wise") {
+		t.Errorf("a per-column alpha: %v", err)
+	}
+}
+
+func TestCleanText(t *testing.T) {
+	for _, s := range []string{"ok — ünïcode", ""} {
+		if err := CleanText(s); err != nil {
+			t.Errorf("%q: %v", s, err)
+		}
+	}
+	for _, s := range []string{"a\x1b[31mred", "tab\there", "rtl\u202eevil", "iso\u2066x", "bad\xffutf8", "c1\u0085"} {
+		if CleanText(s) == nil {
+			t.Errorf("%q accepted", s)
+		}
+	}
+}

@@ -1,0 +1,5 @@
+//go:build !race
+
+package rootfile
+
+const defaultMutations = 500
