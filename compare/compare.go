@@ -116,6 +116,13 @@ type Source struct {
 }
 
 // Result is the outcome of comparing one column between two chains.
+//
+// A statistic that is undefined is NaN: every statistic when no bin
+// carries a pull (NDF = 0), the pull width and the errors of the mean and
+// width with one pull, a source's share when no bin is compared, and the
+// pull of a bin with d = 0 and σ_d = 0 (0/0). A bin with d ≠ 0 and
+// σ_d = 0 has an infinite pull (see Incomparable). Without uncertainties
+// (a numerical tolerance alone) every pull is NaN.
 type Result struct {
 	Column string `json:"column"`
 	// LabelA and LabelB name the two sides (file names, or teams).
@@ -322,8 +329,14 @@ func compareSides(s *sides, opt *Options) (*Result, error) {
 	used := r.withoutZeroSigma(r.Pulls)
 	r.NDF = len(used)
 	if !statistical {
+		// without uncertainties no bin has a pull, and none is
+		// "incomparable": the numerical tolerance alone judges
 		r.NDF = 0
 		used = nil
+		r.ZeroSigma, r.Incomparable = nil, nil
+		for i := range r.Pulls {
+			r.Pulls[i] = math.NaN()
+		}
 	}
 	r.sources(s, opt, shares)
 	if cov {
@@ -426,6 +439,8 @@ func (r *Result) pulls(s *sides, opt *Options, lo, hi int, ownErrs bool) binsOut
 			if d != 0 {
 				out.bad = append(out.bad, i)
 				r.Pulls[i] = math.Copysign(math.Inf(1), d)
+			} else {
+				r.Pulls[i] = math.NaN() // 0/0: no pull
 			}
 			continue
 		}
@@ -447,7 +462,7 @@ func (r *Result) sources(s *sides, opt *Options, shares []float64) {
 	used := float64(r.Bins - len(r.ZeroSigma))
 	frac := func(x float64) float64 {
 		if used == 0 {
-			return 0
+			return math.NaN() // no bin carries a pull: no share
 		}
 		return x / used
 	}
@@ -476,7 +491,7 @@ func (r *Result) sources(s *sides, opt *Options, shares []float64) {
 				}
 				sum, cnt = sum+v, cnt+1
 			}
-			so.Rho = 0
+			so.Rho = math.NaN()
 			if cnt > 0 {
 				so.Rho = sum / float64(cnt)
 			}
@@ -593,18 +608,24 @@ func minEigen(v *mat.SymDense) float64 {
 	return math.NaN()
 }
 
-// shape fills the pull-distribution statistics from the used pulls.
+// shape fills the pull-distribution statistics from the used pulls. What
+// is undefined is NaN: every statistic when no bin carries a pull (the
+// p-values would otherwise read 1, like a pass), the width and the errors
+// of the mean and width with one pull, the largest |pull| when no bin has
+// one (a d ≠ 0, σ_d = 0 bin has an infinite pull, which counts).
 func shape(r *Result, used []float64) {
 	n := len(used)
-	r.PValue = 1
-	r.KSP, r.RunsP, r.MaxPullP = 1, 1, 1
-	r.MaxPullBin = -1
+	nan := math.NaN()
+	r.PullWidth, r.PullMeanErr, r.PullWidthEr = nan, nan, nan
+	r.MaxAbsPull, r.MaxPullBin = nan, -1
 	for i, p := range r.Pulls {
-		if a := math.Abs(p); a > r.MaxAbsPull || r.MaxPullBin < 0 {
+		if a := math.Abs(p); !math.IsNaN(a) && (r.MaxPullBin < 0 || a > r.MaxAbsPull) {
 			r.MaxAbsPull, r.MaxPullBin = a, i
 		}
 	}
 	if n == 0 {
+		r.Chi2, r.PValue, r.PullMean = nan, nan, nan
+		r.KSStat, r.KSP, r.RunsP, r.MaxPullP = nan, nan, nan, nan
 		return
 	}
 	// The KS test is the costliest; it runs beside the other statistics.
@@ -615,9 +636,7 @@ func shape(r *Result, used []float64) {
 		r.KSP = stats.KSPValue(n, r.KSStat)
 	}()
 	defer func() { <-ksDone }()
-	if r.NDF > 0 {
-		r.PValue = distuv.ChiSquared{K: float64(r.NDF)}.Survival(r.Chi2)
-	}
+	r.PValue = distuv.ChiSquared{K: float64(r.NDF)}.Survival(r.Chi2)
 	sum := 0.0
 	for _, p := range used {
 		sum += p

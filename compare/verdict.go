@@ -73,7 +73,10 @@ func (r *Result) judge(e Options, statistical bool) {
 					c.Bins = append(c.Bins, i+1)
 				}
 			}
-			c.Detail = fmt.Sprintf("bin %d has pull %s", r.MaxPullBin+1, fmtG(r.Pulls[max(r.MaxPullBin, 0)]))
+			c.Detail = "no bin carries a pull"
+			if r.MaxPullBin >= 0 {
+				c.Detail = fmt.Sprintf("bin %d has pull %s", r.MaxPullBin+1, fmtG(r.Pulls[r.MaxPullBin]))
+			}
 		}
 		cs = append(cs, c)
 	}

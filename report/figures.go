@@ -609,8 +609,12 @@ func histSVG(w io.Writer, id string, e compare.Entry, logY bool) {
 	fmt.Fprintln(w, "</svg>")
 }
 
-// pullsUsed returns the pulls of the bins that carry one.
+// pullsUsed returns the pulls of the bins that carry one (none without
+// uncertainties, when every pull is NaN).
 func pullsUsed(e compare.Entry) []float64 {
+	if e.NDF == 0 {
+		return nil
+	}
 	if len(e.ZeroSigma) == 0 {
 		return e.Pulls
 	}

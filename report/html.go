@@ -122,7 +122,7 @@ func entryHTML(w io.Writer, id string, e compare.Entry, accepted []compare.Accep
 	if e.Blinded {
 		fmt.Fprintln(w, `<p><span class="badge">blinded values</span> the numbers shown are blinded; pulls and p-values equal the true ones</p>`)
 	}
-	if e.Files[0] != "" || e.Files[1] != "" {
+	if filesShown(e) {
 		a, b := e.Sides()
 		fmt.Fprintf(w, "<p>%s: <code>%s</code>; %s: <code>%s</code></p>\n", esc(a), esc(e.Files[0]), esc(b), esc(e.Files[1]))
 	}

@@ -1,10 +1,11 @@
 package report
 
 import (
+	"bytes"
 	"encoding/json"
 	"io"
 	"math"
-	"slices"
+	"strconv"
 
 	"tandem/compare"
 )
@@ -26,64 +27,90 @@ type jsonSummary struct {
 // the adjusted p-values, the raw largest-|pull| tolerance when declared,
 // and whether a numerical tolerance applies.
 type jsonLimits struct {
-	Alpha     float64  `json:"alpha"`
-	MaxPull   *float64 `json:"max_pull,omitempty"`
-	Numerical bool     `json:"numerical_tolerance"`
+	Alpha     jnum  `json:"alpha"`
+	MaxPull   *jnum `json:"max_pull,omitempty"`
+	Numerical bool  `json:"numerical_tolerance"`
 }
 
 // jsonBins are the per-bin inputs and results, one value per bin each.
+// Each is a list of numbers in the form of [jnum] (see [numList]).
 type jsonBins struct {
-	Lo     []float64 `json:"lo"`
-	Hi     []float64 `json:"hi"`
-	A      []float64 `json:"a"`
-	ErrA   []float64 `json:"error_a"`
-	B      []float64 `json:"b"`
-	ErrB   []float64 `json:"error_b"`
-	Diff   []float64 `json:"difference"`
-	SigmaD []float64 `json:"sigma_difference"`
+	Lo     any `json:"lo"`
+	Hi     any `json:"hi"`
+	A      any `json:"a"`
+	ErrA   any `json:"error_a"`
+	B      any `json:"b"`
+	ErrB   any `json:"error_b"`
+	Diff   any `json:"difference"`
+	SigmaD any `json:"sigma_difference"`
+}
+
+// jsonCriterion is a [compare.Criterion] with its numbers in the JSON
+// contract's form (see [jnum]).
+type jsonCriterion struct {
+	Name     string `json:"name"`
+	Kind     string `json:"kind"`
+	Value    jnum   `json:"value"`
+	Adjusted *jnum  `json:"adjusted_p_value,omitempty"`
+	Limit    jnum   `json:"limit"`
+	Op       string `json:"op"`
+	Pass     bool   `json:"pass"`
+	Detail   string `json:"detail,omitempty"`
+	Note     string `json:"note,omitempty"`
+	Bins     []int  `json:"bins,omitempty"`
+}
+
+// jsonSource is a [compare.Source] with its numbers in the JSON
+// contract's form.
+type jsonSource struct {
+	Name     string `json:"name"`
+	Rho      jnum   `json:"rho"`
+	PerBin   string `json:"per_bin,omitempty"`
+	Declared bool   `json:"declared"`
+	Share    jnum   `json:"share"`
 }
 
 type jsonEntry struct {
-	Name         string              `json:"name"`
-	Title        string              `json:"title,omitempty"`
-	Column       string              `json:"column"`
-	Teams        []string            `json:"teams,omitempty"`
-	Labels       []string            `json:"labels"`
-	Files        []string            `json:"files,omitempty"`
-	Blinded      bool                `json:"blinded"`
-	Bins         int                 `json:"bins"`
-	Chi2         float64             `json:"chi2"`
-	NDF          int                 `json:"ndf"`
-	PValue       float64             `json:"p_value"`
-	PullMean     float64             `json:"pull_mean"`
-	PullMeanErr  float64             `json:"pull_mean_error"`
-	PullWidth    float64             `json:"pull_width"`
-	PullWidthErr float64             `json:"pull_width_error"`
-	MaxAbsPull   float64             `json:"max_abs_pull"`
-	MaxPullBin   int                 `json:"max_pull_bin"`
-	MaxPullP     float64             `json:"max_pull_p_value"`
-	KSStatistic  float64             `json:"ks_statistic"`
-	KSP          float64             `json:"ks_p_value"`
-	Runs         int                 `json:"runs"`
-	RunsP        float64             `json:"runs_p_value"`
-	Verdict      string              `json:"verdict"`
-	Failures     []string            `json:"failures"`
-	Criteria     []compare.Criterion `json:"criteria"`
-	Limits       jsonLimits          `json:"limits"`
-	Family       int                 `json:"family_size"`
-	Sources      []compare.Source    `json:"sources"`
-	Incomparable []int               `json:"incomparable_bins,omitempty"`
-	Condition    float64             `json:"condition_number,omitempty"`
+	Name         string          `json:"name"`
+	Title        string          `json:"title,omitempty"`
+	Column       string          `json:"column"`
+	Teams        []string        `json:"teams,omitempty"`
+	Labels       []string        `json:"labels"`
+	Files        []string        `json:"files,omitempty"`
+	Blinded      bool            `json:"blinded"`
+	Bins         int             `json:"bins"`
+	Chi2         jnum            `json:"chi2"`
+	NDF          int             `json:"ndf"`
+	PValue       jnum            `json:"p_value"`
+	PullMean     jnum            `json:"pull_mean"`
+	PullMeanErr  jnum            `json:"pull_mean_error"`
+	PullWidth    jnum            `json:"pull_width"`
+	PullWidthErr jnum            `json:"pull_width_error"`
+	MaxAbsPull   jnum            `json:"max_abs_pull"`
+	MaxPullBin   *int            `json:"max_pull_bin"`
+	MaxPullP     jnum            `json:"max_pull_p_value"`
+	KSStatistic  jnum            `json:"ks_statistic"`
+	KSP          jnum            `json:"ks_p_value"`
+	Runs         int             `json:"runs"`
+	RunsP        jnum            `json:"runs_p_value"`
+	Verdict      string          `json:"verdict"`
+	Failures     []string        `json:"failures"`
+	Criteria     []jsonCriterion `json:"criteria"`
+	Limits       jsonLimits      `json:"limits"`
+	Family       int             `json:"family_size"`
+	Sources      []jsonSource    `json:"sources"`
+	Incomparable []int           `json:"incomparable_bins,omitempty"`
+	Condition    jnum            `json:"condition_number,omitempty"`
 	// AcceptedDisagreement says that this comparison fails and the
 	// signing parties accepted the disagreement (see
 	// accepted_disagreements).
-	AcceptedDisagreement bool      `json:"accepted_disagreement"`
-	Warnings             []string  `json:"warnings"`
-	ZeroSigmaBins        []int     `json:"zero_sigma_bins,omitempty"`
-	Covariance           bool      `json:"covariance"`
-	AsymmetricErrs       bool      `json:"asymmetric_errors"`
-	Pulls                []float64 `json:"pulls"`
-	PerBin               jsonBins  `json:"per_bin"`
+	AcceptedDisagreement bool     `json:"accepted_disagreement"`
+	Warnings             []string `json:"warnings"`
+	ZeroSigmaBins        []int    `json:"zero_sigma_bins,omitempty"`
+	Covariance           bool     `json:"covariance"`
+	AsymmetricErrs       bool     `json:"asymmetric_errors"`
+	Pulls                any      `json:"pulls"`
+	PerBin               jsonBins `json:"per_bin"`
 }
 
 // JSONValue builds the JSON document of s as a value, for callers that
@@ -99,32 +126,42 @@ func JSONValue(s *compare.Summary) any {
 		je := jsonEntry{
 			Name: e.Observable, Title: e.Title, Column: e.Column, Labels: []string{a, b},
 			Blinded: e.Blinded, Bins: e.Bins, AcceptedDisagreement: !e.Pass && len(s.Accepted) > 0,
-			Chi2: e.Chi2, NDF: e.NDF, PValue: e.PValue,
-			PullMean: e.PullMean, PullMeanErr: e.PullMeanErr, PullWidth: e.PullWidth, PullWidthErr: e.PullWidthEr,
-			MaxAbsPull: e.MaxAbsPull, MaxPullBin: e.MaxPullBin + 1, MaxPullP: e.MaxPullP,
-			KSStatistic: e.KSStat, KSP: e.KSP, Runs: e.Runs, RunsP: e.RunsP,
-			Verdict: e.Verdict(), Failures: e.Failures(), Criteria: slices.Clone(e.Criteria), Warnings: e.Warnings,
-			Covariance: e.Covariance, AsymmetricErrs: e.Asymmetric, Pulls: e.Pulls,
-			PerBin: jsonBins{Lo: e.Lo, Hi: e.Hi, A: e.A, ErrA: e.ErrA, B: e.B, ErrB: e.ErrB, Diff: e.Diff, SigmaD: e.SigmaDiff},
+			Chi2: jnum(e.Chi2), NDF: e.NDF, PValue: jnum(e.PValue),
+			PullMean: jnum(e.PullMean), PullMeanErr: jnum(e.PullMeanErr), PullWidth: jnum(e.PullWidth), PullWidthErr: jnum(e.PullWidthEr),
+			MaxAbsPull: jnum(e.MaxAbsPull), MaxPullP: jnum(e.MaxPullP),
+			KSStatistic: jnum(e.KSStat), KSP: jnum(e.KSP), Runs: e.Runs, RunsP: jnum(e.RunsP),
+			Verdict: e.Verdict(), Failures: e.Failures(), Warnings: e.Warnings,
+			Covariance: e.Covariance, AsymmetricErrs: e.Asymmetric, Pulls: numList(e.Pulls),
+			PerBin: jsonBins{Lo: numList(e.Lo), Hi: numList(e.Hi), A: numList(e.A), ErrA: numList(e.ErrA), B: numList(e.B),
+				ErrB: numList(e.ErrB), Diff: numList(e.Diff), SigmaD: numList(e.SigmaDiff)},
+			Family: e.Family, Condition: jnum(e.Condition),
+			Criteria: []jsonCriterion{}, Sources: []jsonSource{},
+		}
+		if e.MaxPullBin >= 0 {
+			bin := e.MaxPullBin + 1
+			je.MaxPullBin = &bin
 		}
 		if e.Files[0] != "" || e.Files[1] != "" {
 			je.Files = []string{e.Files[0], e.Files[1]}
 		}
-		je.Limits.Alpha, je.Family, je.Condition = e.Alpha, e.Family, jsonNumber(e.Condition)
-		je.Sources = slices.Clone(e.Sources)
-		if je.Sources == nil {
-			je.Sources = []compare.Source{}
-		}
-		for i := range je.Sources {
-			je.Sources[i].Rho, je.Sources[i].Share = jsonNumber(je.Sources[i].Rho), jsonNumber(je.Sources[i].Share)
+		je.Limits.Alpha = jnum(e.Alpha)
+		for _, so := range e.Sources {
+			je.Sources = append(je.Sources, jsonSource{Name: so.Name, Rho: jnum(so.Rho), PerBin: so.PerBin, Declared: so.Declared, Share: jnum(so.Share)})
 		}
 		for _, z := range e.Incomparable {
 			je.Incomparable = append(je.Incomparable, z+1)
 		}
 		for _, c := range e.Criteria {
-			l := c.Limit
+			jc := jsonCriterion{Name: c.Name, Kind: c.Kind, Value: jnum(c.Value), Limit: jnum(c.Limit), Op: c.Op,
+				Pass: c.Pass, Detail: c.Detail, Note: c.Note, Bins: c.Bins}
+			if c.Adjusted != nil {
+				v := jnum(*c.Adjusted)
+				jc.Adjusted = &v
+			}
+			je.Criteria = append(je.Criteria, jc)
 			switch c.Name {
 			case compare.CritMaxPull:
+				l := jnum(c.Limit)
 				je.Limits.MaxPull = &l
 			case compare.CritNumerical:
 				je.Limits.Numerical = true
@@ -139,29 +176,92 @@ func JSONValue(s *compare.Summary) any {
 		if e.Teams[0] != "" {
 			je.Teams = []string{e.Teams[0], e.Teams[1]}
 		}
-		for i := range je.Criteria {
-			je.Criteria[i].Value = jsonNumber(je.Criteria[i].Value)
-			if a := je.Criteria[i].Adjusted; a != nil {
-				v := jsonNumber(*a)
-				je.Criteria[i].Adjusted = &v
-			}
-		}
-		for _, f := range []*float64{&je.Chi2, &je.PValue, &je.PullMean, &je.PullMeanErr, &je.PullWidth,
-			&je.PullWidthErr, &je.MaxAbsPull, &je.MaxPullP, &je.KSStatistic, &je.KSP, &je.RunsP} {
-			*f = jsonNumber(*f)
-		}
-		for _, xs := range []*[]float64{&je.Pulls, &je.PerBin.Lo, &je.PerBin.Hi, &je.PerBin.A, &je.PerBin.ErrA,
-			&je.PerBin.B, &je.PerBin.ErrB, &je.PerBin.Diff, &je.PerBin.SigmaD} {
-			*xs = jsonNumbers(*xs)
-		}
 		out.Observables = append(out.Observables, je)
 	}
 	return out
 }
 
-// jsonNumber keeps a value representable in JSON: an overflow to ±Inf
-// (a pull of a huge difference over a tiny uncertainty) becomes
-// ±MaxFloat64, and NaN becomes 0.
+// jnum is a number of the JSON contract. JSON has no infinities and no
+// NaN, so an infinite value (the pull of a bin with d ≠ 0 and σ_d = 0) is
+// the string "+Inf" or "-Inf", which Python's float() and JavaScript's
+// Number() both read back as an infinity, and an undefined one (NaN: a
+// pull width of one pull, the p-values when no bin carries a pull, the
+// pull of a bin with d = 0 and σ_d = 0) is null. Finite values are written
+// as encoding/json writes a float64.
+type jnum float64
+
+func (v jnum) MarshalJSON() ([]byte, error) { return appendJSONNumber(nil, float64(v)), nil }
+
+// jnums is a list of numbers of the JSON contract (see [jnum]); nil is
+// the empty list.
+type jnums []float64
+
+func (xs jnums) MarshalJSON() ([]byte, error) {
+	b := make([]byte, 0, 2+len(xs)*12)
+	b = append(b, '[')
+	for i, x := range xs {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = appendJSONNumber(b, x)
+	}
+	return append(b, ']'), nil
+}
+
+// numList is xs as a JSON list in the form of [jnum]: the []float64
+// itself when every value is finite (encoding/json writes it fastest), else
+// a [jnums]; nil is the empty list.
+func numList(xs []float64) any {
+	if xs == nil {
+		return []float64{}
+	}
+	for _, x := range xs {
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return jnums(xs)
+		}
+	}
+	return xs
+}
+
+// appendJSONNumber appends v in the form of [jnum]. Finite values are in
+// the shortest form that reads back exactly, in exponent notation below
+// 1e-6 and from 1e21 on (with no leading zero in a negative exponent), as
+// encoding/json writes them.
+func appendJSONNumber(b []byte, v float64) []byte {
+	switch {
+	case math.IsNaN(v):
+		return append(b, "null"...)
+	case math.IsInf(v, 1):
+		return append(b, `"+Inf"`...)
+	case math.IsInf(v, -1):
+		return append(b, `"-Inf"`...)
+	}
+	if a := math.Abs(v); a != 0 && (a < 1e-6 || a >= 1e21) {
+		start := len(b)
+		b = strconv.AppendFloat(b, v, 'e', -1, 64)
+		// "1e-07" → "1e-7"
+		if e := bytes.LastIndexByte(b[start:], 'e'); e >= 0 {
+			e += start
+			if len(b) == e+4 && b[e+1] == '-' && b[e+2] == '0' {
+				b[e+2] = b[e+3]
+				b = b[:e+3]
+			}
+		}
+		return b
+	}
+	return strconv.AppendFloat(b, v, 'f', -1, 64)
+}
+
+// JSON writes s as one indented JSON object followed by a newline.
+func JSON(w io.Writer, s *compare.Summary) error {
+	enc := json.NewEncoder(jsonEscaper{w})
+	enc.SetIndent("", "  ")
+	return enc.Encode(JSONValue(s))
+}
+
+// jsonNumber keeps a float64 field representable in encoding/json: NaN
+// becomes 0 and ±Inf becomes ±MaxFloat64. Only the event-level report
+// still uses it; comparison reports write [jnum] (null, "+Inf", "-Inf").
 func jsonNumber(v float64) float64 {
 	switch {
 	case math.IsNaN(v):
@@ -172,27 +272,4 @@ func jsonNumber(v float64) float64 {
 		return -math.MaxFloat64
 	}
 	return v
-}
-
-// jsonNumbers returns xs with every value representable in JSON (a copy
-// only when some is not); a nil slice becomes empty.
-func jsonNumbers(xs []float64) []float64 {
-	if xs == nil {
-		return []float64{}
-	}
-	if !slices.ContainsFunc(xs, func(p float64) bool { return math.IsInf(p, 0) || math.IsNaN(p) }) {
-		return xs
-	}
-	out := slices.Clone(xs)
-	for i := range out {
-		out[i] = jsonNumber(out[i])
-	}
-	return out
-}
-
-// JSON writes s as one indented JSON object followed by a newline.
-func JSON(w io.Writer, s *compare.Summary) error {
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(JSONValue(s))
 }

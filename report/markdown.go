@@ -33,8 +33,8 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	fmt.Fprintln(ew, "| comparison | verdict | χ²/ndf | p-value | max \\|pull\\| |")
 	fmt.Fprintln(ew, "| --- | --- | ---: | ---: | ---: |")
 	for _, e := range ordered(s) {
-		fmt.Fprintf(ew, "| %s | %s | %s/%d | %s | %s |\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass),
-			num(e.Chi2), e.NDF, pval(e.PValue), num(e.MaxAbsPull))
+		fmt.Fprintf(ew, "| %s | %s | %s | %s | %s |\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass),
+			chi2NDF(e), pval(e.PValue), num(e.MaxAbsPull))
 	}
 	for _, e := range ordered(s) {
 		fmt.Fprintf(ew, "\n### %s: %s\n\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass))

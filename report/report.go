@@ -42,8 +42,13 @@ type Style struct {
 	MaxRows int
 }
 
-// Render writes s in the named format.
+// Render writes s in the named format. Free text (names, labels, files,
+// reasons) is shown with its control characters and bidirectional
+// overrides escaped (\x1b, \u202e), in every format.
 func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
+	if format != "json" {
+		s = cleanSummary(s)
+	}
 	switch format {
 	case "text", "":
 		return Text(w, s, st)
@@ -73,8 +78,11 @@ func num(v float64) string {
 }
 
 // pval formats a p-value: four decimals, or three significant digits
-// below 0.01.
+// below 0.01; n/a when it is undefined (NaN).
 func pval(p float64) string {
+	if math.IsNaN(p) {
+		return "n/a"
+	}
 	if p < 1e-2 && p > 0 {
 		return strconv.FormatFloat(p, 'e', 2, 64)
 	}
@@ -103,7 +111,7 @@ func rows(r *compare.Result, st Style) ([]int, bool) {
 	for _, i := range idx {
 		if h.Len() < limit {
 			heap.Push(h, i)
-		} else if math.Abs(r.Pulls[i]) > math.Abs(r.Pulls[h.idx[0]]) {
+		} else if absPull(r.Pulls[i]) > absPull(r.Pulls[h.idx[0]]) {
 			h.idx[0] = i
 			heap.Fix(h, 0)
 		}
@@ -121,7 +129,15 @@ type pullHeap struct {
 
 func (h *pullHeap) Len() int { return len(h.idx) }
 func (h *pullHeap) Less(i, j int) bool {
-	return math.Abs(h.pulls[h.idx[i]]) < math.Abs(h.pulls[h.idx[j]])
+	return absPull(h.pulls[h.idx[i]]) < absPull(h.pulls[h.idx[j]])
+}
+
+// absPull is |p|, with an undefined pull (NaN) below every other.
+func absPull(p float64) float64 {
+	if math.IsNaN(p) {
+		return -1
+	}
+	return math.Abs(p)
 }
 func (h *pullHeap) Swap(i, j int) { h.idx[i], h.idx[j] = h.idx[j], h.idx[i] }
 func (h *pullHeap) Push(x any)    { h.idx = append(h.idx, x.(int)) }
@@ -170,7 +186,11 @@ func sourcesLine(e compare.Entry) string {
 		case !s.Declared:
 			rho += " (not declared)"
 		}
-		parts = append(parts, fmt.Sprintf("%s ρ = %s, %s%% of σ_d²", s.Name, rho, strconv.FormatFloat(100*s.Share, 'f', 0, 64)))
+		share := "share of σ_d² n/a"
+		if !math.IsNaN(s.Share) {
+			share = strconv.FormatFloat(100*s.Share, 'f', 0, 64) + "% of σ_d²"
+		}
+		parts = append(parts, fmt.Sprintf("%s ρ = %s, %s", s.Name, rho, share))
 	}
 	if len(parts) == 0 {
 		return ""
@@ -200,8 +220,28 @@ func shapeLine(e compare.Entry) string {
 		mean += " ± " + num(e.PullMeanErr)
 		width = num(e.PullWidth) + " ± " + num(e.PullWidthEr)
 	}
-	return fmt.Sprintf("pulls: mean %s, width %s; KS D = %s (p = %s); %d runs (p = %s); χ²/ndf = %s/%d",
-		mean, width, num(e.KSStat), pval(e.KSP), e.Runs, pval(e.RunsP), num(e.Chi2), e.NDF)
+	runs := fmt.Sprintf("%d runs", e.Runs)
+	if e.Runs == 1 {
+		runs = "1 run"
+	}
+	return fmt.Sprintf("pulls: mean %s, width %s; KS D = %s (p = %s); %s (p = %s); χ²/ndf = %s",
+		mean, width, num(e.KSStat), pval(e.KSP), runs, pval(e.RunsP), chi2NDF(e))
+}
+
+// chi2NDF writes χ²/ndf as "12.3/10", or "n/a (ndf 0)" when no bin
+// carries a pull.
+func chi2NDF(e compare.Entry) string {
+	if e.NDF == 0 || math.IsNaN(e.Chi2) {
+		return fmt.Sprintf("n/a (ndf %d)", e.NDF)
+	}
+	return fmt.Sprintf("%s/%d", num(e.Chi2), e.NDF)
+}
+
+// filesShown says whether a report names the input files beside the
+// sides' names: when they are known and differ from the names.
+func filesShown(e compare.Entry) bool {
+	a, b := e.Sides()
+	return (e.Files[0] != "" || e.Files[1] != "") && (a != e.Files[0] || b != e.Files[1])
 }
 
 // binCells formats one row of a per-bin table: bin number, edges, each
@@ -212,10 +252,7 @@ func binCells(e compare.Entry, i int) []string {
 	va, ea := withError(e.A[i], e.ErrA[i])
 	vb, eb := withError(e.B[i], e.ErrB[i])
 	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
-	p := pullText(e.Pulls[i])
-	if slices.Contains(e.ZeroSigma, i) {
-		p = "n/a"
-	}
+	p := pullText(e.Pulls[i]) // n/a when undefined, ±Inf when infinite
 	return []string{strconv.Itoa(i + 1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p}
 }
 

@@ -505,9 +505,18 @@ func BenchmarkHTML500(b *testing.B) {
 	b.ReportMetric(float64(size), "html-bytes")
 }
 
-func TestJSONSurvivesOverflow(t *testing.T) {
-	a := &table.Series{Column: "y", Lo: []float64{0, 1}, Hi: []float64{1, 2}, V: []float64{1e300, 1}, Down: []float64{1e-10, 1}}
-	b := &table.Series{Column: "y", Lo: a.Lo, Hi: a.Hi, V: []float64{-1e300, 1}, Down: []float64{1e-10, 1}}
+// TestJSONHonestInfinities: an infinite pull is the string "+Inf" or
+// "-Inf" (JSON has no infinity), never ±MaxFloat64, and an undefined value
+// (the 0/0 pull of a bin with d = 0 and σ_d = 0) is null. Python's json
+// module and float() (the outside reader scripts use) read them back as
+// ±inf and None.
+func TestJSONHonestInfinities(t *testing.T) {
+	// bin 1: d = 2e300 over σ_d = 1.4e-10 overflows to +Inf; bin 2: an
+	// ordinary pull; bin 3: d = -1 with σ_d = 0 is -Inf; bin 4: d = 0 with
+	// σ_d = 0 has no pull.
+	a := &table.Series{Column: "y", Lo: []float64{0, 1, 2, 3}, Hi: []float64{1, 2, 3, 4},
+		V: []float64{1e300, 1, 1, 2}, Down: []float64{1e-10, 1, 0, 0}}
+	b := &table.Series{Column: "y", Lo: a.Lo, Hi: a.Hi, V: []float64{-1e300, 1.5, 2, 2}, Down: []float64{1e-10, 1, 0, 0}}
 	a.Up, b.Up = a.Down, b.Down
 	r, err := compare.Series(a, b, compare.Options{Limits: compare.DefaultLimits})
 	if err != nil {
@@ -517,8 +526,112 @@ func TestJSONSurvivesOverflow(t *testing.T) {
 	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "o", Result: r}}}); err != nil {
 		t.Fatalf("JSON with an infinite pull: %v", err)
 	}
-	if !strings.Contains(buf.String(), `"verdict": "fail"`) {
-		t.Errorf("verdict lost:\n%s", buf.String())
+	out := buf.String()
+	if strings.Contains(out, "1.7976931348623157e+308") {
+		t.Error("an infinity is written as the largest float64")
+	}
+	for _, want := range []string{`"verdict": "fail"`, `"max_abs_pull": "+Inf"`, `"pulls": [
+        "+Inf",
+        -0.35355339059327373,
+        "-Inf",
+        null
+      ]`} {
+		if !strings.Contains(out, want) {
+			t.Errorf("JSON lacks %s:\n%s", want, out)
+		}
+	}
+	py, err := exec.LookPath("python3")
+	if err != nil {
+		if os.Getenv("TANDEM_REQUIRE_TOOLS") != "" {
+			t.Fatal("python3 is required in CI but not installed")
+		}
+		t.Skip("skipping the Python read-back: python3 is not installed")
+	}
+	cmd := exec.Command(py, "-c", `import json, sys
+d = json.load(sys.stdin)["observables"][0]
+print(repr([None if p is None else float(p) for p in d["pulls"]]), repr(float(d["max_abs_pull"])))`)
+	cmd.Stdin = strings.NewReader(out)
+	got, err := cmd.CombinedOutput()
+	if err != nil {
+		t.Fatalf("python3: %v\n%s", err, got)
+	}
+	if want := "[inf, -0.35355339059327373, -inf, None] inf\n"; string(got) != want {
+		t.Errorf("Python reads %q, want %q", got, want)
+	}
+}
+
+// TestUndefinedSaysNA: what is undefined is null in JSON and n/a in text,
+// Markdown and HTML, never a number that reads like a pass: every
+// statistic when no bin carries a pull (ndf = 0; such a comparison fails
+// its "comparable bins" check), the pull width with one pull.
+func TestUndefinedSaysNA(t *testing.T) {
+	series := func(v, e []float64) *table.Series {
+		s := &table.Series{Column: "y", V: v, Down: e, Up: e}
+		for i := range v {
+			s.Lo, s.Hi = append(s.Lo, float64(i)), append(s.Hi, float64(i+1))
+		}
+		return s
+	}
+	// equal values and errors with ρ = 1: σ_d = 0 and d = 0 in every bin
+	zero, err := compare.Series(series([]float64{5, 6}, []float64{0.5, 0.5}), series([]float64{5, 6}, []float64{0.5, 0.5}),
+		compare.Options{Correlation: 1, Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	one, err := compare.Series(series([]float64{10}, []float64{1}), series([]float64{11}, []float64{1}), compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if zero.Pass || zero.NDF != 0 {
+		t.Fatalf("ndf-0 comparison: pass %v, ndf %d", zero.Pass, zero.NDF)
+	}
+	s := &compare.Summary{Entries: []compare.Entry{{Observable: "zero", Result: zero}}}
+	for _, f := range []string{"text", "markdown", "html"} {
+		var buf bytes.Buffer
+		if err := Render(&buf, f, s, Style{}); err != nil {
+			t.Fatal(err)
+		}
+		out := buf.String()
+		for _, bad := range []string{"1.0000", "0/0", "NaN", "KS D = 0 "} {
+			if strings.Contains(out, bad) {
+				t.Errorf("%s: an ndf-0 comparison shows %q", f, bad)
+			}
+		}
+		for _, want := range []string{"KS D = n/a (p = n/a)", "0 runs (p = n/a)", "χ²/ndf = n/a (ndf 0)"} {
+			if !strings.Contains(out, want) {
+				t.Errorf("%s: an ndf-0 comparison does not say %q", f, want)
+			}
+		}
+	}
+	var buf bytes.Buffer
+	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "zero", Result: zero}, {Observable: "one", Result: one}}}); err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Observables []map[string]any `json:"observables"`
+	}
+	if err := json.Unmarshal(buf.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	z, o := doc.Observables[0], doc.Observables[1]
+	for _, k := range []string{"chi2", "p_value", "pull_mean", "pull_width", "pull_width_error", "max_abs_pull", "max_pull_bin",
+		"max_pull_p_value", "ks_statistic", "ks_p_value", "runs_p_value"} {
+		if v, ok := z[k]; !ok || v != nil {
+			t.Errorf("ndf 0: %s = %v, want null", k, v)
+		}
+	}
+	if ps := z["pulls"].([]any); len(ps) != 2 || ps[0] != nil || ps[1] != nil {
+		t.Errorf("ndf 0: pulls %v, want [null, null]", ps)
+	}
+	for _, k := range []string{"pull_width", "pull_width_error", "pull_mean_error"} {
+		if v, ok := o[k]; !ok || v != nil {
+			t.Errorf("one bin: %s = %v, want null", k, v)
+		}
+	}
+	for _, k := range []string{"chi2", "p_value", "ks_p_value", "pull_mean"} {
+		if _, ok := o[k].(float64); !ok {
+			t.Errorf("one bin: %s = %v, want a number", k, o[k])
+		}
 	}
 }
 
@@ -731,5 +844,88 @@ func TestRenderOddInputs(t *testing.T) {
 				t.Errorf("%s: invalid JSON", c.name)
 			}
 		}
+	}
+}
+
+// BenchmarkJSON1e6 writes the JSON report of one 10⁶-bin comparison (a
+// pull and eight per-bin values for each bin); it reports the size.
+//
+//	go test -run '^$' -bench JSON1e6 -benchtime 5x ./report
+func BenchmarkJSON1e6(b *testing.B) {
+	const n = 1_000_000
+	rng := rand.New(rand.NewPCG(3, 4))
+	mk := func() *table.Series {
+		s := &table.Series{Column: "y", Lo: make([]float64, n), Hi: make([]float64, n), V: make([]float64, n), Down: make([]float64, n)}
+		for i := range s.V {
+			s.Lo[i], s.Hi[i] = float64(i), float64(i+1)
+			s.V[i], s.Down[i] = 1000+30*rng.NormFloat64(), 30
+		}
+		s.Up = s.Down
+		return s
+	}
+	r, err := compare.Series(mk(), mk(), compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		b.Fatal(err)
+	}
+	s := &compare.Summary{Entries: []compare.Entry{{Observable: "big", Result: r}}}
+	var size int
+	for b.Loop() {
+		var buf bytes.Buffer
+		if err := JSON(&buf, s); err != nil {
+			b.Fatal(err)
+		}
+		size = buf.Len()
+	}
+	b.ReportMetric(float64(size), "json-bytes")
+}
+
+// TestFreeTextEscaped: names, labels, reasons and notes with an ANSI
+// escape, a C1 control or a bidirectional override (Unicode Standard
+// Annex #9: U+202E reverses what follows) reach no report raw. Text,
+// Markdown, JUnit and HTML show them as \x1b, \u202e; JSON writes the \u
+// escape, which decodes to the same string.
+func TestFreeTextEscaped(t *testing.T) {
+	s := fixture(t)
+	s.Title = "ti\x1b[2Jtle"
+	s.Notes = []string{"no\u202ete"}
+	s.Accepted = []compare.Acceptance{{By: []string{"he\u0085ron"}, Reason: "re\u2066ason\x07"}}
+	s.Entries[1].Files = [2]string{"a\u202e.csv", "b.csv"}
+	r := *s.Entries[1].Result
+	r.Column, r.LabelA = "co\x1blumn", "x\u200fy"
+	s.Entries[1].Result = &r
+	bad := regexp.MustCompile("[\x00-\x08\x0b-\x1f\x7f\u0080-\u009f\u061c\u200e\u200f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+	for _, f := range Formats {
+		var buf bytes.Buffer
+		if err := Render(&buf, f, s, Style{}); err != nil {
+			t.Fatal(err)
+		}
+		out := buf.String()
+		if m := bad.FindString(out); m != "" {
+			t.Errorf("%s: raw %q in the report", f, m)
+		}
+		want := []string{`re\u2066ason\x07`}
+		if f == "json" {
+			want = []string{`re\u2066ason\u0007`, `no\u202ete`}
+		}
+		for _, w := range want {
+			if !strings.Contains(out, w) {
+				t.Errorf("%s: %s not shown escaped", f, w)
+			}
+		}
+		if f == "json" {
+			var doc struct {
+				Notes []string `json:"notes"`
+			}
+			if err := json.Unmarshal(buf.Bytes(), &doc); err != nil || doc.Notes[0] != "no\u202ete" {
+				t.Errorf("json: notes read back as %q (%v)", doc.Notes, err)
+			}
+		}
+	}
+	// the fixture itself is unchanged: the renderers work on a copy
+	if s.Entries[1].Column != "co\x1blumn" || s.Title != "ti\x1b[2Jtle" {
+		t.Error("rendering changed the summary")
+	}
+	if got := EscapeText("ok \xff \x1b \u202e é"); got != `ok \xff \x1b \u202e é` {
+		t.Errorf("EscapeText = %q", got)
 	}
 }

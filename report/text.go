@@ -55,8 +55,8 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		if !e.Pass {
 			mark = paint(st, ansiRed, "FAIL")
 		}
-		fmt.Fprintf(ew, "  %s %s: χ²/ndf = %s/%d, p = %s, max |pull| = %s\n",
-			mark, entryTitle(e), num(e.Chi2), e.NDF, pval(e.PValue), num(e.MaxAbsPull))
+		fmt.Fprintf(ew, "  %s %s: χ²/ndf = %s, p = %s, max |pull| = %s\n",
+			mark, entryTitle(e), chi2NDF(e), pval(e.PValue), num(e.MaxAbsPull))
 	}
 	for _, e := range ordered(s) {
 		fmt.Fprintf(ew, "\n== %s", entryTitle(e))
@@ -67,7 +67,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		if e.Title != "" {
 			fmt.Fprintf(ew, "  %s\n", e.Title)
 		}
-		if e.Files[0] != "" || e.Files[1] != "" {
+		if filesShown(e) {
 			a, b := e.Sides()
 			fmt.Fprintf(ew, "  %s: %s; %s: %s\n", a, e.Files[0], b, e.Files[1])
 		}

@@ -13,6 +13,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"tandem/blind/protocol"
 	"tandem/blind/safefile"
 	"tandem/compare"
 	"tandem/compare/input"
@@ -101,7 +102,7 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&cf.relTol, "rel-tol", 0, "relative numerical tolerance `X` per bin")
 	fs.Float64Var(&cf.edgeTol, "edge-tol", d.EdgeTol, "relative tolerance `X` on bin edges")
 	fs.StringVar(&cf.format, "format", "text", "output `FORMAT`: text, json, markdown, junit or html")
-	stringVar(fs, &cf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout; its extension chooses the format when --format is not given")
+	stringVar(fs, &cf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically; - is stdout) instead of stdout; its extension chooses the format when --format is not given")
 	fs.StringVar(&cf.name, "name", "", "observable `NAME` in the report (default: the first file's name)")
 	fs.StringVar(&cf.labelA, "label-a", "", "`LABEL` of the first table in the report (default: its file name)")
 	fs.StringVar(&cf.labelB, "label-b", "", "`LABEL` of the second table in the report (default: its file name)")
@@ -139,6 +140,12 @@ func csvOptions(lo, hi, delim string, lim table.Limits) (table.CSVOptions, error
 func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	cf.set = map[string]bool{}
 	fs.Visit(func(f *flag.Flag) { cf.set[f.Name] = true })
+	if cf.output == "-" {
+		cf.output = "" // -o - is the standard output
+	}
+	if err := checkOutput(cf.output); err != nil {
+		return err
+	}
 	if cf.output != "" && !cf.set["format"] {
 		f, ok := formatFromPath(cf.output)
 		if !ok {
@@ -149,6 +156,11 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	}
 	if !slices.Contains(report.Formats, cf.format) {
 		return usageErr("--format %q is not one of %s", cf.format, strings.Join(report.Formats, ", "))
+	}
+	for _, f := range []struct{ name, v string }{{"label-a", cf.labelA}, {"label-b", cf.labelB}, {"name", cf.name}} {
+		if err := protocol.CleanText(f.v); err != nil {
+			return withHint(usageErr("--%s: %v", f.name, err), "labels and names are shown in reports: use printable text")
+		}
 	}
 	if cf.tables != "blinded" && cf.tables != "unblinded" {
 		return usageErr("--tables must be blinded or unblinded, got %q", cf.tables)
@@ -409,6 +421,32 @@ func colorOK(w io.Writer) bool {
 	}
 	fi, err := f.Stat()
 	return err == nil && fi.Mode()&os.ModeCharDevice != 0
+}
+
+// checkOutput refuses an -o path that exists and is not a regular file:
+// the report replaces the path atomically, which would replace a symlink
+// or a device node (-o /dev/stdout) rather than write through it.
+func checkOutput(path string) error {
+	if path == "" {
+		return nil
+	}
+	fi, err := os.Lstat(path)
+	if err != nil || fi.Mode().IsRegular() {
+		return nil
+	}
+	kind := "not a regular file"
+	switch m := fi.Mode(); {
+	case m&os.ModeSymlink != 0:
+		kind = "a symbolic link"
+	case m.IsDir():
+		kind = "a directory"
+	case m&(os.ModeDevice|os.ModeCharDevice) != 0:
+		kind = "a device"
+	case m&os.ModeNamedPipe != 0:
+		kind = "a named pipe"
+	}
+	return withHint(usageErr("output %s is %s; -o writes a new file or replaces a regular one", path, kind),
+		"leave out -o (or give -o -) to write the report to the standard output")
 }
 
 func isDir(p string) bool {

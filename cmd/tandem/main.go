@@ -25,6 +25,7 @@ import (
 	"strings"
 
 	"tandem/compare/table"
+	"tandem/report"
 )
 
 // Version is set at link time with -ldflags "-X main.Version=v1.2.3".
@@ -193,16 +194,28 @@ func finish(e *env, err error) int {
 		fmt.Fprintf(e.stderr, "tandem: internal error: %v\n", err)
 		return 2
 	}
-	msg := err.Error()
+	// messages quote names from files and flags: their control
+	// characters and bidirectional overrides are shown escaped
+	msg := escapeLines(err.Error())
 	if msg != "" {
 		fmt.Fprintf(e.stderr, "tandem: error: %s\n", msg)
 	}
 	if ee != nil {
 		for _, h := range ee.hints {
-			fmt.Fprintf(e.stderr, "tandem: hint: %s\n", h)
+			fmt.Fprintf(e.stderr, "tandem: hint: %s\n", escapeLines(h))
 		}
 	}
 	return code
+}
+
+// escapeLines is [report.EscapeText] line by line: a message may span
+// lines, but nothing in it can repaint the terminal or reorder the text.
+func escapeLines(s string) string {
+	lines := strings.Split(s, "\n")
+	for i, l := range lines {
+		lines[i] = report.EscapeText(l)
+	}
+	return strings.Join(lines, "\n")
 }
 
 // version is the link-time Version, else the module version and the VCS

@@ -1,0 +1,176 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+	"strings"
+	"unicode/utf8"
+
+	"tandem/compare"
+)
+
+// unsafeRune reports whether r must not reach a terminal, a page or a
+// log raw: C0 and C1 control characters and DEL (an ANSI escape can
+// repaint a terminal), the line and paragraph separators, and the Unicode
+// bidirectional controls (an
+// override such as U+202E reorders the text that follows, so what a
+// reader sees is not what was written; see Unicode Standard Annex #9).
+func unsafeRune(r rune) bool {
+	switch {
+	case r < 0x20, r >= 0x7f && r <= 0x9f, r == 0x2028, r == 0x2029:
+		return true
+	case r == 0x061c, r == 0x200e, r == 0x200f, r >= 0x202a && r <= 0x202e, r >= 0x2066 && r <= 0x2069:
+		return true
+	}
+	return false
+}
+
+// EscapeText returns s with every control character, line separator and
+// bidirectional control written as a visible escape (\x1b, \u202e), and
+// every byte that is not UTF-8 as \xNN; printable text is unchanged. The
+// reports show free text through it; commands can pass messages through
+// it too.
+func EscapeText(s string) string { return cleanText(s) }
+
+// cleanText is [EscapeText].
+func cleanText(s string) string {
+	if !strings.ContainsFunc(s, unsafeRune) && utf8.ValidString(s) {
+		return s
+	}
+	var b strings.Builder
+	for i := 0; i < len(s); {
+		r, n := utf8.DecodeRuneInString(s[i:])
+		switch {
+		case r == utf8.RuneError && n <= 1:
+			fmt.Fprintf(&b, `\x%02x`, s[i])
+		case unsafeRune(r) && r < 0x100:
+			fmt.Fprintf(&b, `\x%02x`, r)
+		case unsafeRune(r):
+			fmt.Fprintf(&b, `\u%04x`, r)
+		default:
+			b.WriteString(s[i : i+n])
+		}
+		i += n
+	}
+	return b.String()
+}
+
+func cleanList(xs []string) []string {
+	if !needsCleaning(xs...) {
+		return xs
+	}
+	out := make([]string, len(xs))
+	for i, x := range xs {
+		out[i] = cleanText(x)
+	}
+	return out
+}
+
+func needsCleaning(xs ...string) bool {
+	for _, x := range xs {
+		if cleanText(x) != x {
+			return true
+		}
+	}
+	return false
+}
+
+// cleanSummary returns s with every free text (titles, notes, names,
+// labels, files, columns, reasons, warnings and details) safe to show:
+// s itself when nothing needs cleaning, else a copy that shares the
+// numbers with s.
+func cleanSummary(s *compare.Summary) *compare.Summary {
+	if !summaryNeedsCleaning(s) {
+		return s
+	}
+	c := *s
+	c.Title, c.Campaign, c.Notes = cleanText(s.Title), cleanText(s.Campaign), cleanList(s.Notes)
+	c.Accepted = make([]compare.Acceptance, len(s.Accepted))
+	for i, a := range s.Accepted {
+		c.Accepted[i] = compare.Acceptance{By: cleanList(a.By), Reason: cleanText(a.Reason)}
+	}
+	c.Entries = make([]compare.Entry, len(s.Entries))
+	for i, e := range s.Entries {
+		e.Observable, e.Title, e.XLabel, e.YLabel = cleanText(e.Observable), cleanText(e.Title), cleanText(e.XLabel), cleanText(e.YLabel)
+		e.Teams = [2]string{cleanText(e.Teams[0]), cleanText(e.Teams[1])}
+		e.Files = [2]string{cleanText(e.Files[0]), cleanText(e.Files[1])}
+		if e.Result != nil {
+			r := *e.Result
+			r.Column, r.LabelA, r.LabelB = cleanText(r.Column), cleanText(r.LabelA), cleanText(r.LabelB)
+			r.Warnings = cleanList(r.Warnings)
+			r.Criteria = append([]compare.Criterion(nil), r.Criteria...)
+			for k := range r.Criteria {
+				cr := &r.Criteria[k]
+				cr.Name, cr.Detail, cr.Note = cleanText(cr.Name), cleanText(cr.Detail), cleanText(cr.Note)
+			}
+			r.Sources = append([]compare.Source(nil), r.Sources...)
+			for k := range r.Sources {
+				r.Sources[k].Name, r.Sources[k].PerBin = cleanText(r.Sources[k].Name), cleanText(r.Sources[k].PerBin)
+			}
+			e.Result = &r
+		}
+		c.Entries[i] = e
+	}
+	return &c
+}
+
+func summaryNeedsCleaning(s *compare.Summary) bool {
+	if needsCleaning(s.Title, s.Campaign) || needsCleaning(s.Notes...) {
+		return true
+	}
+	for _, a := range s.Accepted {
+		if needsCleaning(a.Reason) || needsCleaning(a.By...) {
+			return true
+		}
+	}
+	for _, e := range s.Entries {
+		if needsCleaning(e.Observable, e.Title, e.XLabel, e.YLabel, e.Teams[0], e.Teams[1], e.Files[0], e.Files[1]) {
+			return true
+		}
+		if e.Result == nil {
+			continue
+		}
+		if needsCleaning(e.Column, e.LabelA, e.LabelB) || needsCleaning(e.Warnings...) {
+			return true
+		}
+		for _, c := range e.Criteria {
+			if needsCleaning(c.Name, c.Detail, c.Note) {
+				return true
+			}
+		}
+		for _, so := range e.Sources {
+			if needsCleaning(so.Name, so.PerBin) {
+				return true
+			}
+		}
+	}
+	return false
+}
+
+// jsonEscaper writes JSON text with the characters that encoding/json
+// leaves raw but that must not reach a terminal (C1 controls, the
+// bidirectional controls) as \uXXXX escapes. They can only stand inside
+// JSON strings, where the escape means the same character, so the
+// document decodes to the same values.
+type jsonEscaper struct{ w io.Writer }
+
+func (j jsonEscaper) Write(p []byte) (int, error) {
+	if bytes.IndexByte(p, 0xc2) < 0 && bytes.IndexByte(p, 0xd8) < 0 && bytes.IndexByte(p, 0xe2) < 0 {
+		return j.w.Write(p)
+	}
+	out := make([]byte, 0, len(p)+64)
+	for i := 0; i < len(p); {
+		r, n := utf8.DecodeRune(p[i:])
+		if r >= 0x80 && unsafeRune(r) {
+			out = fmt.Appendf(out, `\u%04x`, r)
+		} else {
+			out = append(out, p[i:i+n]...)
+		}
+		i += n
+	}
+	if _, err := j.w.Write(out); err != nil {
+		return 0, err
+	}
+	return len(p), nil
+}
