@@ -54,6 +54,8 @@ type Protocol struct {
 	Quorum       []string     `toml:"quorum"`
 	Parties      []Party      `toml:"party"`
 	Observables  []Observable `toml:"observable"`
+	// Events holds the event-level sync settings (see events.go).
+	Events *Events `toml:"events"`
 
 	custodianPub ssh.PublicKey
 }
@@ -394,7 +396,7 @@ func (p *Protocol) validate() error {
 			return err
 		}
 	}
-	return nil
+	return p.Events.validate()
 }
 
 func (o *Observable) validate(seen map[string]bool, alpha float64) error {

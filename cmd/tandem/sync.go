@@ -11,6 +11,7 @@ import (
 	"strconv"
 	"strings"
 
+	"tandem/blind/protocol"
 	"tandem/blind/safefile"
 	"tandem/compare/events"
 	"tandem/compare/table"
@@ -32,6 +33,16 @@ both tables have that is not a key or a cut. Tolerance per variable:
 --tol NAME=ABS[,REL] means |a-b| <= max(ABS, REL*max(|a|,|b|)); the default
 is ABS 0, REL 1e-9.
 
+In a campaign: --campaign DIR applies the map of every event-level
+variable the protocol's [events] table names blinded to both tables
+(one factor and one offset per variable, derived from the campaign key).
+Tolerances are judged on the true values, so which events agree and the
+cut flow do not depend on the map; the report shows only blinded values,
+marks each blinded variable, and hides the per-bin counts when the binning
+variable is blinded. Opening the key needs the custodian identity:
+--identity FILE, or TANDEM_CUSTODIAN_IDENTITY (the identity itself) or
+TANDEM_CUSTODIAN_IDENTITY_FILE (its path).
+
 For batch systems: run sync on each partition of the data (for example a
 run range) with --summary-out, then "tandem sync merge" the summaries: every
 count, discordant count and histogram adds exactly.
@@ -48,6 +59,7 @@ type syncFlags struct {
 	overlapOut, unmatchedOut  string
 	summaryOut, tempDir       string
 	labelA, labelB            string
+	campaign, identity        string
 	alpha, cl                 float64
 	memMB                     int
 }
@@ -75,6 +87,8 @@ func runSync(e *env, args []string) error {
 	fs.StringVar(&sf.labelB, "label-b", "", "name of chain B in the report")
 	fs.StringVar(&sf.tempDir, "temp-dir", "", "`DIR` for spilling unsorted inputs (default the system's)")
 	fs.IntVar(&sf.memMB, "mem", 256, "`MB` of rows held in memory before spilling unsorted inputs")
+	fs.StringVar(&sf.campaign, "campaign", "", "campaign `DIR` whose protocol names the blinded variables")
+	stringVar(fs, &sf.identity, []string{"identity", "i"}, "", "custodian identity `FILE` (age or SSH) that opens the campaign key")
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
@@ -98,6 +112,9 @@ func runSync(e *env, args []string) error {
 			return inputErr(err)
 		}
 		tabs[i] = t
+	}
+	if err := sf.campaignBlind(e, tabs, &opt); err != nil {
+		return err
 	}
 	var unmatched bytes.Buffer
 	if sf.unmatchedOut != "" {
@@ -123,6 +140,65 @@ func runSync(e *env, args []string) error {
 		}
 	}
 	return finishSync(e, r, sf.format, sf.output, sf.overlapOut)
+}
+
+// campaignBlind fills opt.Blind from the campaign's protocol: the map of
+// every blinded variable that sync compares or bins by. A blinded name
+// used as a key or a cut is refused: keys and cut decisions are shown as
+// they are.
+func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Table, opt *events.Options) error {
+	if sf.campaign == "" {
+		if sf.identity != "" {
+			return usageErr("--identity goes with --campaign")
+		}
+		return nil
+	}
+	c, err := openCampaign(sf.campaign)
+	if err != nil {
+		return err
+	}
+	vars := c.Protocol.BlindedVars()
+	if len(vars) == 0 {
+		e.warnf("%s names no blinded event-level variables ([events] blinded): nothing is blinded", c.Path(protocol.File))
+		return nil
+	}
+	var cols [2][]events.ColumnInfo
+	for i, t := range tabs {
+		if cols[i], err = t.Columns(); err != nil {
+			return inputErr(err)
+		}
+	}
+	l := opt.Layout
+	l, err = events.ResolveLayout(cols[0], cols[1], tabs[0].Name(), tabs[1].Name(), l.Keys, l.Vars, l.Cuts)
+	if err != nil {
+		return withHint(inputErr(err), "tandem sync -h lists the flags")
+	}
+	var use []string
+	for _, v := range vars {
+		if slices.Contains(l.Keys, v.Name) || slices.Contains(l.Cuts, v.Name) {
+			return usageErr("%s names %q blinded, which is a key or cut column here: sync shows keys and cut decisions as they are", c.Path(protocol.File), v.Name)
+		}
+		if slices.Contains(l.Vars, v.Name) || (opt.Binning != nil && opt.Binning.Var == v.Name) {
+			use = append(use, v.Name)
+		}
+	}
+	if len(use) == 0 {
+		return nil
+	}
+	ids, _, err := readIdentity(e, sf.identity)
+	if err != nil {
+		return err
+	}
+	maps, err := c.EventMaps(ids)
+	if err != nil {
+		return campaignErr(err)
+	}
+	opt.Blind = map[string]events.Affine{}
+	for _, n := range use {
+		opt.Blind[n] = maps[n]
+	}
+	e.infof("blinded with the map of campaign %s: %s", c.Protocol.Campaign, strings.Join(use, ", "))
+	return nil
 }
 
 // checkOutputs refuses an output that is also an input or another output.
