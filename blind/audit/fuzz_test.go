@@ -3,8 +3,7 @@ package audit
 import (
 	"encoding/binary"
 	"math"
-	"os"
-	"path/filepath"
+	"tandem/compare/fuzzseed"
 	"testing"
 )
 
@@ -12,19 +11,7 @@ import (
 // none, so a moved folder cannot silently empty the corpus.
 func seeds(f *testing.F, pattern string) [][]byte {
 	f.Helper()
-	files, _ := filepath.Glob(filepath.Join("testdata", "seeds", pattern))
-	if len(files) == 0 {
-		f.Fatalf("no seed files match testdata/seeds/%s", pattern)
-	}
-	var out [][]byte
-	for _, p := range files {
-		b, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
-		out = append(out, b)
-	}
-	return out
+	return fuzzseed.Load(f, pattern)
 }
 
 // decodeColumns reads the fuzz encoding: a byte n (bins), a byte k

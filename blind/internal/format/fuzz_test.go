@@ -1,8 +1,7 @@
 package format
 
 import (
-	"os"
-	"path/filepath"
+	"tandem/compare/fuzzseed"
 	"testing"
 )
 
@@ -10,19 +9,7 @@ import (
 // none, so a moved folder cannot silently empty the corpus.
 func seeds(f *testing.F, pattern string) [][]byte {
 	f.Helper()
-	files, _ := filepath.Glob(filepath.Join("testdata", "seeds", pattern))
-	if len(files) == 0 {
-		f.Fatalf("no seed files match testdata/seeds/%s", pattern)
-	}
-	var out [][]byte
-	for _, p := range files {
-		b, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
-		out = append(out, b)
-	}
-	return out
+	return fuzzseed.Load(f, pattern)
 }
 
 // FuzzLedger: the ledger parser never panics, and an accepted ledger

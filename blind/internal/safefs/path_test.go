@@ -2,9 +2,9 @@ package safefs
 
 import (
 	"errors"
-	"os"
 	"path/filepath"
 	"strings"
+	"tandem/compare/fuzzseed"
 	"testing"
 )
 
@@ -55,19 +55,7 @@ func TestSplit(t *testing.T) {
 // none, so a moved folder cannot silently empty the corpus.
 func seeds(f *testing.F, pattern string) [][]byte {
 	f.Helper()
-	files, _ := filepath.Glob(filepath.Join("testdata", "seeds", pattern))
-	if len(files) == 0 {
-		f.Fatalf("no seed files match testdata/seeds/%s", pattern)
-	}
-	var out [][]byte
-	for _, p := range files {
-		b, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
-		out = append(out, b)
-	}
-	return out
+	return fuzzseed.Load(f, pattern)
 }
 
 // FuzzRelPath: an accepted relative path is local by the standard
