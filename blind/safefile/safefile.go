@@ -21,9 +21,19 @@ func Write(path string, data []byte, perm os.FileMode) error {
 	})
 }
 
+// ErrNotRegular is returned when the path to replace exists and is not a
+// regular file (a symbolic link, a directory, a device): renaming over it
+// would replace the link itself, or write where the user did not mean.
+var ErrNotRegular = errors.New("exists and is not a regular file")
+
 // WriteFrom atomically replaces path with what fill writes. If fill returns
-// an error, nothing is written and the temporary file is removed.
+// an error, nothing is written and the temporary file is removed. A path
+// that exists and is not a regular file is refused before anything is
+// written.
 func WriteFrom(path string, perm os.FileMode, fill func(io.Writer) error) error {
+	if err := checkRegular(path); err != nil {
+		return err
+	}
 	tmp, err := writeTemp(path, perm, fill)
 	if err != nil {
 		return err
@@ -100,5 +110,20 @@ func syncDir(dir string) error {
 	}
 	defer d.Close()
 	d.Sync()
+	return nil
+}
+
+// checkRegular refuses an existing path that is not a regular file.
+func checkRegular(path string) error {
+	fi, err := os.Lstat(path)
+	if errors.Is(err, os.ErrNotExist) {
+		return nil
+	}
+	if err != nil {
+		return err
+	}
+	if !fi.Mode().IsRegular() {
+		return &os.PathError{Op: "write", Path: path, Err: ErrNotRegular}
+	}
 	return nil
 }

@@ -51,3 +51,30 @@ func TestCreateNeverOverwrites(t *testing.T) {
 		t.Errorf("temporary files left: %v", entries)
 	}
 }
+
+// TestWriteRefusesLink: replacing a symbolic link (or a directory) would
+// replace the link itself; it is refused and the link stays.
+func TestWriteRefusesLink(t *testing.T) {
+	dir := t.TempDir()
+	target := filepath.Join(dir, "target")
+	if err := os.WriteFile(target, []byte("old"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	link := filepath.Join(dir, "link.json")
+	if err := os.Symlink(target, link); err != nil {
+		t.Skip("no symbolic links here:", err)
+	}
+	err := Write(link, []byte("new"), 0o644)
+	if !errors.Is(err, ErrNotRegular) {
+		t.Fatalf("Write over a link: got %v, want ErrNotRegular", err)
+	}
+	if fi, err := os.Lstat(link); err != nil || fi.Mode()&os.ModeSymlink == 0 {
+		t.Fatalf("the link was replaced: %v", err)
+	}
+	if b, _ := os.ReadFile(target); string(b) != "old" {
+		t.Fatalf("the target changed: %q", b)
+	}
+	if err := Write(dir, []byte("x"), 0o644); !errors.Is(err, ErrNotRegular) {
+		t.Fatalf("Write over a directory: got %v", err)
+	}
+}

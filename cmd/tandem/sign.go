@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"strings"
 
@@ -91,7 +92,12 @@ func describeSignoff(w io.Writer, party string, st *campaign.Statement, cmp *cam
 	}
 }
 
-func fmtNum(v float64) string { return strings.TrimSpace(fmt.Sprintf("%.4g", v)) }
+func fmtNum(v float64) string {
+	if math.IsNaN(v) {
+		return "n/a"
+	}
+	return strings.TrimSpace(fmt.Sprintf("%.4g", v))
+}
 
 // confirm asks on the terminal, never on stdin.
 func confirm(question string) (bool, error) {
