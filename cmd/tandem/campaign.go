@@ -266,7 +266,7 @@ func readSealInput(e *env, o *protocol.Observable, pos []string) (*table.Table, 
 		t, err = input.Read(pos[1], opt)
 	default:
 		if f, ok := e.stdin.(*os.File); ok {
-			if fi, err := f.Stat(); err == nil && fi.Mode()&os.ModeCharDevice != 0 {
+			if isTerminal(f) {
 				return nil, withHint(usageErr("seal reads the table from standard input, which is a terminal"), "pipe the table in, or name the file")
 			}
 		}

@@ -419,8 +419,7 @@ func colorOK(w io.Writer) bool {
 	if !ok {
 		return false
 	}
-	fi, err := f.Stat()
-	return err == nil && fi.Mode()&os.ModeCharDevice != 0
+	return isTerminal(f)
 }
 
 // checkOutput refuses an -o path that exists and is not a regular file:

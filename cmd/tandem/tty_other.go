@@ -1,0 +1,12 @@
+//go:build !(linux || darwin || freebsd || netbsd || openbsd || dragonfly)
+
+package main
+
+import "os"
+
+// isTerminal reports whether f is a character device: the best this
+// platform tells without a console API.
+func isTerminal(f *os.File) bool {
+	fi, err := f.Stat()
+	return err == nil && fi.Mode()&os.ModeCharDevice != 0
+}
