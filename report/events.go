@@ -169,26 +169,26 @@ func SyncText(w io.Writer, r *events.Result, st Style) error {
 }
 
 type jsonSyncVar struct {
-	Name      string             `json:"name"`
-	Compared  int64              `json:"compared"`
-	Outside   int64              `json:"outside_tolerance"`
-	Fraction  float64            `json:"fraction_outside"`
-	MaxAbs    float64            `json:"max_abs_diff"`
-	MaxAbsKey []int64            `json:"max_abs_diff_key"`
-	MaxRel    float64            `json:"max_rel_diff"`
-	MaxRelKey []int64            `json:"max_rel_diff_key"`
-	NonFinite int64              `json:"non_finite"`
-	AAboveB   int64              `json:"a_above_b"`
-	ABelowB   int64              `json:"a_below_b"`
-	Tolerance events.Tolerance   `json:"tolerance"`
-	Blinded   bool               `json:"blinded"`
-	Quantiles map[string]float64 `json:"rel_diff_quantiles"`
-	Histogram []int64            `json:"rel_diff_histogram"`
-	Pass      bool               `json:"pass"`
+	Name      string           `json:"name"`
+	Compared  int64            `json:"compared"`
+	Outside   int64            `json:"outside_tolerance"`
+	Fraction  jnum             `json:"fraction_outside"`
+	MaxAbs    float64          `json:"max_abs_diff"`
+	MaxAbsKey []int64          `json:"max_abs_diff_key"`
+	MaxRel    float64          `json:"max_rel_diff"`
+	MaxRelKey []int64          `json:"max_rel_diff_key"`
+	NonFinite int64            `json:"non_finite"`
+	AAboveB   int64            `json:"a_above_b"`
+	ABelowB   int64            `json:"a_below_b"`
+	Tolerance events.Tolerance `json:"tolerance"`
+	Blinded   bool             `json:"blinded"`
+	Quantiles map[string]jnum  `json:"rel_diff_quantiles"`
+	Histogram []int64          `json:"rel_diff_histogram"`
+	Pass      bool             `json:"pass"`
 }
 
 type jsonEff struct {
-	Value float64 `json:"value"`
+	Value jnum    `json:"value"`
 	Lo    float64 `json:"lo"`
 	Hi    float64 `json:"hi"`
 }
@@ -253,12 +253,12 @@ func SyncJSONValue(r *events.Result) any {
 	m.Common, m.OnlyA, m.OnlyB, m.RowsA, m.RowsB, m.PValue = r.Common, r.OnlyA, r.OnlyB, r.RowsA, r.RowsB, r.PValue
 	m.SampleA, m.SampleB = nonNil(r.SampleA), nonNil(r.SampleB)
 	for _, v := range r.Variables {
-		jv := jsonSyncVar{Name: v.Name, Compared: v.Compared, Outside: v.Outside, Fraction: jsonNumber(v.Fraction),
+		jv := jsonSyncVar{Name: v.Name, Compared: v.Compared, Outside: v.Outside, Fraction: jnum(v.Fraction),
 			MaxAbs: v.MaxAbs.Value, MaxAbsKey: v.MaxAbs.Key, MaxRel: v.MaxRel.Value, MaxRelKey: v.MaxRel.Key,
 			NonFinite: v.NonFinite, AAboveB: v.Above, ABelowB: v.Below, Tolerance: v.Tol, Blinded: v.Blinded,
-			Quantiles: map[string]float64{}, Histogram: v.Hist, Pass: v.Pass}
+			Quantiles: map[string]jnum{}, Histogram: v.Hist, Pass: v.Pass}
 		for i, q := range events.QuantileLevels {
-			jv.Quantiles[strconv.FormatFloat(q, 'g', -1, 64)] = jsonNumber(v.Quantiles[i])
+			jv.Quantiles[strconv.FormatFloat(q, 'g', -1, 64)] = jnum(v.Quantiles[i])
 		}
 		out.Variables = append(out.Variables, jv)
 	}
@@ -267,8 +267,8 @@ func SyncJSONValue(r *events.Result) any {
 	}
 	for _, s := range r.Steps {
 		out.Cutflow = append(out.Cutflow, jsonStep{Step: s,
-			EffA: jsonEff{jsonNumber(s.EffA.Value), s.EffA.Lo, s.EffA.Hi},
-			EffB: jsonEff{jsonNumber(s.EffB.Value), s.EffB.Lo, s.EffB.Hi}})
+			EffA: jsonEff{jnum(s.EffA.Value), s.EffA.Lo, s.EffA.Hi},
+			EffB: jsonEff{jnum(s.EffB.Value), s.EffB.Lo, s.EffB.Hi}})
 	}
 	if r.FirstSplit >= 0 {
 		out.FirstSplit = &r.Steps[r.FirstSplit].Cut
