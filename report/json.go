@@ -258,18 +258,3 @@ func JSON(w io.Writer, s *compare.Summary) error {
 	enc.SetIndent("", "  ")
 	return enc.Encode(JSONValue(s))
 }
-
-// jsonNumber keeps a float64 field representable in encoding/json: NaN
-// becomes 0 and ±Inf becomes ±MaxFloat64. Only the event-level report
-// still uses it; comparison reports write [jnum] (null, "+Inf", "-Inf").
-func jsonNumber(v float64) float64 {
-	switch {
-	case math.IsNaN(v):
-		return 0
-	case math.IsInf(v, 1):
-		return math.MaxFloat64
-	case math.IsInf(v, -1):
-		return -math.MaxFloat64
-	}
-	return v
-}
