@@ -38,6 +38,8 @@ Usage:
                                            TOML or a ROOT object), no campaign
     tandem sync A B --key COL[,COL…]       match two event tables event by event
                                            and compare their cut flows
+    tandem sync A B --campaign DIR         the same, blinding the variables the
+                                           protocol names (custodian identity)
     tandem sync merge SUMMARY…             merge the summaries of partitions
     tandem demo DIR [--stop-before STEP]   build a complete demo campaign in DIR
 
