@@ -40,17 +40,19 @@ func TestDemoVerifies(t *testing.T) {
 	// Pulls, χ² and p-values are the same on blinded and true tables: the
 	// per-bin factors and offsets cancel in d_i/σ_d,i. Offsets as wide as
 	// the values cost digits in d'_i = v'_a − v'_b (the demo's energy
-	// spectrum shifts values of ~40 by up to 1e5, about 3.5 digits), so the
-	// check holds to 1e-10 relative rather than to the last bits.
+	// spectrum shifts values of ~40 by up to 4e5, about 4 digits, and a
+	// p-value can amplify the pulls' rounding further: one drawn key gave
+	// 3.5e-10 relative on a KS p-value), so the check holds to 1e-8
+	// relative rather than to the last bits.
 	for i := range cmp.Summary.Entries {
 		b, u := cmp.Summary.Entries[i], truth.Entries[i]
 		for _, k := range [][2]float64{{b.Chi2, u.Chi2}, {b.PValue, u.PValue}, {b.KSP, u.KSP}, {b.RunsP, u.RunsP}, {b.MaxPullP, u.MaxPullP}} {
-			if math.Abs(k[0]-k[1]) > 1e-10*math.Max(math.Abs(k[1]), 1e-300) {
+			if math.Abs(k[0]-k[1]) > 1e-8*math.Max(math.Abs(k[1]), 1e-300) {
 				t.Errorf("%s: blinded %v vs true %v", b.Observable, k[0], k[1])
 			}
 		}
 		for j := range b.Pulls {
-			if math.Abs(b.Pulls[j]-u.Pulls[j]) > 1e-9*math.Max(1, math.Abs(u.Pulls[j])) {
+			if math.Abs(b.Pulls[j]-u.Pulls[j]) > 1e-8*math.Max(1, math.Abs(u.Pulls[j])) {
 				t.Errorf("%s bin %d: pull %v vs %v", b.Observable, j, b.Pulls[j], u.Pulls[j])
 			}
 		}
