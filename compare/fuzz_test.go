@@ -2,8 +2,7 @@ package compare
 
 import (
 	"math"
-	"os"
-	"path/filepath"
+	"tandem/compare/fuzzseed"
 	"testing"
 
 	"github.com/BurntSushi/toml"
@@ -14,15 +13,7 @@ import (
 // and survives a TOML round trip of its correlations. The command-line
 // form of a correlation (ParseRho) is fuzzed on the same inputs.
 func FuzzOptionsTOML(f *testing.F) {
-	files, _ := filepath.Glob(filepath.Join("testdata", "seeds", "options-*.toml"))
-	if len(files) == 0 {
-		f.Fatal("no seed files match testdata/seeds/options-*.toml")
-	}
-	for _, p := range files {
-		b, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
+	for _, b := range fuzzseed.Load(f, "options-*.toml") {
 		f.Add(string(b))
 	}
 	f.Add("0.5")

@@ -1,21 +1,12 @@
 package protocol
 
 import (
-	"os"
-	"path/filepath"
+	"tandem/compare/fuzzseed"
 	"testing"
 )
 
 func FuzzProtocol(f *testing.F) {
-	files, _ := filepath.Glob(filepath.Join("testdata", "seeds", "*.toml"))
-	if len(files) == 0 {
-		f.Fatal("no seed files match testdata/seeds/*.toml")
-	}
-	for _, p := range files {
-		b, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
+	for _, b := range fuzzseed.Load(f, "*.toml") {
 		f.Add(b)
 	}
 	f.Add([]byte(Template("x", "", "")))

@@ -1,21 +1,12 @@
 package sshsig
 
 import (
-	"os"
-	"path/filepath"
+	"tandem/compare/fuzzseed"
 	"testing"
 )
 
 func FuzzSSHSig(f *testing.F) {
-	files, _ := filepath.Glob(filepath.Join("testdata", "seeds", "*.sig"))
-	if len(files) == 0 {
-		f.Fatal("no seed files match testdata/seeds/*.sig")
-	}
-	for _, p := range files {
-		b, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
+	for _, b := range fuzzseed.Load(f, "*.sig") {
 		f.Add(b)
 		f.Add([]byte(Flatten(b)))
 	}
