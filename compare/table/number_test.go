@@ -2,6 +2,7 @@ package table
 
 import (
 	"bufio"
+	"encoding/binary"
 	"math"
 	"math/big"
 	"math/rand/v2"
@@ -215,6 +216,38 @@ func TestStrictNumbers(t *testing.T) {
 	for _, s := range []string{"0", "0.0", "-0", "0e5", "0e-99999", "000.000e+7", "2.2250738585072014e-308", "1.7976931348623157e308"} {
 		if _, msg := parseNumber([]byte(s)); msg != "" {
 			t.Errorf("%q refused: %s", s, msg)
+		}
+	}
+}
+
+// TestEightDigits checks the word-at-a-time digit test and value against a
+// byte-by-byte loop: every byte value in every position of an 8-byte word,
+// and random digit strings.
+func TestEightDigits(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 8))
+	for n := 0; n < 300000; n++ {
+		var b [8]byte
+		for k := range b {
+			b[k] = '0' + byte(rng.IntN(10))
+		}
+		if n < 8*256 {
+			b[n/256] = byte(n % 256)
+		} else if n%3 == 0 {
+			b[rng.IntN(8)] = byte(rng.IntN(256))
+		}
+		w := binary.LittleEndian.Uint64(b[:])
+		all, v := true, uint64(0)
+		for _, c := range b {
+			if c < '0' || c > '9' {
+				all = false
+			}
+			v = v*10 + uint64(c-'0')
+		}
+		if eightDigits(w) != all {
+			t.Fatalf("eightDigits(%q) = %v", b[:], !all)
+		}
+		if all && eightDigitsValue(w) != v {
+			t.Fatalf("eightDigitsValue(%q) = %d, want %d", b[:], eightDigitsValue(w), v)
 		}
 	}
 }
