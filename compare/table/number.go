@@ -226,18 +226,7 @@ func scanField(line []byte, pos int, delim byte) (v float64, end int, ok bool) {
 		i++
 	}
 	zeros := i - start
-	for i+8 <= len(line) {
-		w := binary.LittleEndian.Uint64(line[i:])
-		if !eightDigits(w) {
-			break
-		}
-		m = m*100_000_000 + eightDigitsValue(w)
-		i += 8
-	}
-	for i < len(line) && line[i]-'0' <= 9 {
-		m = m*10 + uint64(line[i]-'0')
-		i++
-	}
+	m, i = digitRun(line, i, m)
 	seen := i > start
 	digits, frac := i-start-zeros, 0
 	if i < len(line) && line[i] == '.' {
@@ -249,18 +238,7 @@ func scanField(line []byte, pos int, delim byte) (v float64, end int, ok bool) {
 			}
 		}
 		fzeros := i - fstart
-		for i+8 <= len(line) {
-			w := binary.LittleEndian.Uint64(line[i:])
-			if !eightDigits(w) {
-				break
-			}
-			m = m*100_000_000 + eightDigitsValue(w)
-			i += 8
-		}
-		for i < len(line) && line[i]-'0' <= 9 {
-			m = m*10 + uint64(line[i]-'0')
-			i++
-		}
+		m, i = digitRun(line, i, m)
 		frac = i - fstart
 		digits += frac - fzeros
 		seen = seen || frac > 0
@@ -483,6 +461,26 @@ func bytesContains(b []byte, c byte) bool {
 		}
 	}
 	return false
+}
+
+// digitRun reads the digits at line[i:] into m (m·10 + digit each) and
+// returns m and the position after them, eight digits per step while a
+// word holds eight. m wraps on more than 19 digits, which the callers'
+// digit count rejects.
+func digitRun(line []byte, i int, m uint64) (uint64, int) {
+	for i+8 <= len(line) {
+		w := binary.LittleEndian.Uint64(line[i:])
+		if !eightDigits(w) {
+			break
+		}
+		m = m*100_000_000 + eightDigitsValue(w)
+		i += 8
+	}
+	for i < len(line) && line[i]-'0' <= 9 {
+		m = m*10 + uint64(line[i]-'0')
+		i++
+	}
+	return m, i
 }
 
 // eightDigits reports whether the eight bytes of w (read little-endian)
