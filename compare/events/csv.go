@@ -127,7 +127,7 @@ func (t *csvTable) readHead() error {
 					t.delim = '\t'
 				}
 			}
-			header, starts = splitFields(line, t.delim)
+			header, starts = table.SplitFields(line, t.delim, nil, nil)
 			headerNo = no
 			seen := map[string]int{}
 			for k, h := range header {
@@ -142,7 +142,7 @@ func (t *csvTable) readHead() error {
 			}
 			return nil
 		}
-		fields, fstarts := splitFields(line, t.delim)
+		fields, fstarts := table.SplitFields(line, t.delim, nil, nil)
 		if len(fields) != len(header) {
 			return raggedErr(t.path, no, line, fields, fstarts, len(header))
 		}
@@ -215,7 +215,7 @@ func (t *csvTable) Scan(l Layout, fn func(*Batch) error) error {
 			if k >= len(t.cols) {
 				return t.rowErr(no, line)
 			}
-			start, stop, end := nextField(line, pos, t.delim)
+			start, stop, end := table.NextField(line, pos, t.delim)
 			f := line[start:stop]
 			switch role[k] {
 			case asKey:
@@ -276,7 +276,7 @@ func (t *csvTable) fieldErr(no int64, line []byte, start, k int, format string, 
 	if err := checkText(t.path, no, line); err != nil {
 		return err
 	}
-	if fields, _ := splitFields(line, t.delim); len(fields) != len(t.cols) {
+	if fields, _ := table.SplitFields(line, t.delim, nil, nil); len(fields) != len(t.cols) {
 		return t.rowErr(no, line)
 	}
 	return table.Errorf(t.path, int(no), start+1, format, t.cols[k].Name, strconv.Quote(string(f)))
@@ -286,7 +286,7 @@ func (t *csvTable) rowErr(no int64, line []byte) error {
 	if err := checkText(t.path, no, line); err != nil {
 		return err
 	}
-	fields, starts := splitFields(line, t.delim)
+	fields, starts := table.SplitFields(line, t.delim, nil, nil)
 	return raggedErr(t.path, no, line, fields, starts, len(t.cols))
 }
 
@@ -315,38 +315,6 @@ func checkText(name string, no int64, line []byte) error {
 		return table.Errorf(name, int(no), col, "invalid UTF-8; expected a text table")
 	}
 	return nil
-}
-
-// nextField finds the field that begins at pos: its extent [start, stop)
-// without surrounding blanks and the position end of the delimiter after
-// it (len(line) for the last field).
-func nextField(line []byte, pos int, delim byte) (start, stop, end int) {
-	if i := bytes.IndexByte(line[pos:], delim); i >= 0 {
-		end = pos + i
-	} else {
-		end = len(line)
-	}
-	start, stop = pos, end
-	for start < stop && (line[start] == ' ' || line[start] == '\t') {
-		start++
-	}
-	for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
-		stop--
-	}
-	return start, stop, end
-}
-
-func splitFields(line []byte, delim byte) (fields [][]byte, starts []int) {
-	pos := 0
-	for {
-		start, stop, end := nextField(line, pos, delim)
-		fields = append(fields, line[start:stop])
-		starts = append(starts, start)
-		if end >= len(line) {
-			return fields, starts
-		}
-		pos = end + 1
-	}
 }
 
 // parseInt parses a decimal integer that fits in int64.
@@ -392,67 +360,12 @@ func parseBool(f []byte) (bool, bool) {
 	return false, false
 }
 
-// exact10 holds the powers of ten that float64 represents exactly.
-var exact10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
-	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
-
-// parseFloat parses a number. Plain decimals with an optional exponent,
-// m·10^e with an integer m < 2⁵³ and |e| <= 22, are computed as one
-// correctly rounded multiplication or division of two exact float64s
-// (Clinger's fast path: W. D. Clinger, "How to read floating point numbers
-// accurately", PLDI 1990); everything else, including "nan" and "inf",
-// goes to strconv.ParseFloat.
+// parseFloat parses a number: the strict grammar of compare/table, with its
+// exact fast paths, and strconv.ParseFloat for what that refuses (event
+// tables may hold "nan" and "inf", and values that overflow or fall into
+// the subnormal range are kept as strconv rounds them).
 func parseFloat(f []byte) (float64, bool) {
-	i, neg := 0, false
-	if len(f) > 0 && (f[0] == '-' || f[0] == '+') {
-		neg, i = f[0] == '-', 1
-	}
-	var m uint64
-	digits, exp := 0, 0
-	start := i
-	for i < len(f) && f[i]-'0' <= 9 {
-		m = m*10 + uint64(f[i]-'0')
-		i++
-	}
-	digits = i - start
-	if i < len(f) && f[i] == '.' {
-		i++
-		fs := i
-		for i < len(f) && f[i]-'0' <= 9 {
-			m = m*10 + uint64(f[i]-'0')
-			i++
-		}
-		digits += i - fs
-		exp = -(i - fs)
-	}
-	if digits > 0 && i < len(f) && (f[i] == 'e' || f[i] == 'E') {
-		j, eneg := i+1, false
-		if j < len(f) && (f[j] == '-' || f[j] == '+') {
-			eneg, j = f[j] == '-', j+1
-		}
-		e, es := 0, j
-		for j < len(f) && f[j]-'0' <= 9 && j-es < 4 {
-			e = e*10 + int(f[j]-'0')
-			j++
-		}
-		if j > es {
-			if eneg {
-				e = -e
-			}
-			exp += e
-			i = j
-		}
-	}
-	if i == len(f) && digits > 0 && digits <= 19 && m < 1<<53 && exp >= -22 && exp <= 22 {
-		v := float64(m)
-		if exp < 0 {
-			v /= exact10[-exp]
-		} else {
-			v *= exact10[exp]
-		}
-		if neg {
-			v = -v
-		}
+	if v, msg := table.ParseNumber(f); msg == "" {
 		return v, true
 	}
 	if len(f) == 0 {

@@ -2,24 +2,15 @@ package events
 
 import (
 	"bytes"
-	"os"
-	"path/filepath"
 	"strconv"
+	"tandem/compare/fuzzseed"
 	"testing"
 )
 
 // seeds adds every file matching glob to f, failing when none does.
 func seeds(f *testing.F, glob string) {
 	f.Helper()
-	files, err := filepath.Glob(glob)
-	if err != nil || len(files) == 0 {
-		f.Fatalf("no seed files match %s", glob)
-	}
-	for _, p := range files {
-		data, err := os.ReadFile(p)
-		if err != nil {
-			f.Fatal(err)
-		}
+	for _, data := range fuzzseed.Glob(f, glob) {
 		f.Add(data)
 	}
 }

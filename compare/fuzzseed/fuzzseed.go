@@ -15,9 +15,16 @@ import (
 // matches or a file cannot be read.
 func Load(tb testing.TB, pattern string) [][]byte {
 	tb.Helper()
-	files, err := filepath.Glob(filepath.Join("testdata", "seeds", pattern))
+	return Glob(tb, filepath.Join("testdata", "seeds", pattern))
+}
+
+// Glob is [Load] for seeds kept elsewhere, such as test tables that serve
+// as seeds too: glob is a filepath.Glob pattern relative to the package.
+func Glob(tb testing.TB, glob string) [][]byte {
+	tb.Helper()
+	files, err := filepath.Glob(glob)
 	if err != nil || len(files) == 0 {
-		tb.Fatalf("no seed files match testdata/seeds/%s", pattern)
+		tb.Fatalf("no seed files match %s", filepath.ToSlash(glob))
 	}
 	out := make([][]byte, 0, len(files))
 	for _, p := range files {

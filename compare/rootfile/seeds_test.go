@@ -3,8 +3,8 @@ package rootfile
 import (
 	"errors"
 	"flag"
-	"os"
 	"path/filepath"
+	"tandem/compare/fuzzseed"
 	"testing"
 
 	"go-hep.org/x/hep/groot"
@@ -137,19 +137,7 @@ func TestWriteSeeds(t *testing.T) {
 // seedFiles reads the seed ROOT files; a glob that matches nothing fails.
 func seedFiles(tb testing.TB) [][]byte {
 	tb.Helper()
-	paths, err := filepath.Glob(seedGlob)
-	if err != nil || len(paths) == 0 {
-		tb.Fatalf("no seed files match %s (%v)", seedGlob, err)
-	}
-	var out [][]byte
-	for _, p := range paths {
-		data, err := os.ReadFile(p)
-		if err != nil {
-			tb.Fatal(err)
-		}
-		out = append(out, data)
-	}
-	return out
+	return fuzzseed.Glob(tb, seedGlob)
 }
 
 // mustBeInputError fails unless err is a *table.Error naming a file.

@@ -183,7 +183,7 @@ func (t *Table) headerRow(name string, lineNo int, line []byte, delim byte, lim 
 		e.Hint = "raise the limit with " + flagMaxColumns
 		return nil, e
 	}
-	fields, starts := split(line, delim, nil, nil)
+	fields, starts := SplitFields(line, delim, nil, nil)
 	header, idx, err := t.setHeader(name, lineNo, fields, starts)
 	if err != nil {
 		return nil, err
@@ -297,7 +297,7 @@ func (p *rowParser) row(b *block, rel int, line []byte, plain bool) *Error {
 			}
 			var start, stop int
 			var msg string
-			start, stop, end = nextField(line, pos, delim)
+			start, stop, end = NextField(line, pos, delim)
 			v, msg = parseNumber(line[start:stop])
 			if msg != "" {
 				if n := 1 + bytes.Count(line, []byte{delim}); n != len(p.header) {
@@ -373,19 +373,19 @@ func checkText(name string, lineNo int, line []byte) *Error {
 	return Errorf(name, lineNo, col, "invalid UTF-8; expected a text table")
 }
 
-// nextField finds the field that begins at pos: its trimmed extent
+// NextField finds the field that begins at pos: its trimmed extent
 // [start, stop) and the position end of the delimiter after it (len(line)
 // for the last field).
-func nextField(line []byte, pos int, delim byte) (start, stop, end int) {
-	start = pos
-	for start < len(line) && (line[start] == ' ' || line[start] == '\t') && line[start] != delim {
+func NextField(line []byte, pos int, delim byte) (start, stop, end int) {
+	if i := bytes.IndexByte(line[pos:], delim); i >= 0 {
+		end = pos + i
+	} else {
+		end = len(line)
+	}
+	start, stop = pos, end
+	for start < stop && (line[start] == ' ' || line[start] == '\t') {
 		start++
 	}
-	end = start
-	for end < len(line) && line[end] != delim {
-		end++
-	}
-	stop = end
 	for stop > start && (line[stop-1] == ' ' || line[stop-1] == '\t') {
 		stop--
 	}
@@ -408,7 +408,7 @@ func (t *Table) put(d int, v float64) {
 // raggedErr reports a row with the wrong number of fields, pointing at the
 // first extra field or at the end of a short row.
 func raggedErr(name string, lineNo int, line []byte, delim byte, want int) *Error {
-	fields, starts := split(line, delim, nil, nil)
+	fields, starts := SplitFields(line, delim, nil, nil)
 	col := len(line) + 1
 	if len(fields) > want {
 		col = starts[want] + 1
@@ -416,12 +416,13 @@ func raggedErr(name string, lineNo int, line []byte, delim byte, want int) *Erro
 	return Errorf(name, lineNo, col, "row has %d fields, header has %d", len(fields), want)
 }
 
-// split cuts line at delim, trimming blanks, and records where each field
-// starts (0-based byte offset of its first non-blank byte).
-func split(line []byte, delim byte, fields [][]byte, starts []int) ([][]byte, []int) {
+// SplitFields cuts line at delim, trimming blanks, and records where each
+// field starts (0-based byte offset of its first non-blank byte); the
+// results are appended to fields and starts.
+func SplitFields(line []byte, delim byte, fields [][]byte, starts []int) ([][]byte, []int) {
 	pos := 0
 	for {
-		start, stop, end := nextField(line, pos, delim)
+		start, stop, end := NextField(line, pos, delim)
 		fields = append(fields, line[start:stop])
 		starts = append(starts, start)
 		if end >= len(line) {

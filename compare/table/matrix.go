@@ -69,7 +69,7 @@ func parseMatrix(name string, data []byte, n int, symmetric bool, lim Limits) ([
 		if bytes.IndexByte(line, ',') < 0 && bytes.IndexByte(line, '\t') >= 0 {
 			delim = '\t'
 		}
-		fields, starts = split(line, delim, fields[:0], starts[:0])
+		fields, starts = SplitFields(line, delim, fields[:0], starts[:0])
 		want := n
 		if want <= 0 && len(rows) > 0 {
 			want = len(rows[0])

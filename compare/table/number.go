@@ -383,6 +383,10 @@ func splitDecimal(f []byte) (d decimal, ok bool) {
 	return d, i == len(f)
 }
 
+// ParseNumber parses one field as a finite float64 under the strict grammar
+// above: the correctly rounded value, or the reason it is refused.
+func ParseNumber(f []byte) (float64, string) { return parseNumber(f) }
+
 // parseNumber parses a finite float64 under the strict grammar, returning a
 // reason on failure.
 func parseNumber(f []byte) (float64, string) {
