@@ -733,7 +733,7 @@ func katStatement() *format.Statement {
 	fp := func(name string) string { return ssh.FingerprintSHA256(fixedSigner(nil, name).PublicKey()) }
 	st := &format.Statement{Campaign: "vectors-2026", Party: "reviewer", Role: "reviewer", Date: "2026-12-01T10:00:00Z",
 		Protocol: kat.protocolDigest, KeyCommitment: h("kc"), LedgerSeq: 9, LedgerHash: h("head"),
-		Sealed:     []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
+		Sealed:   []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
 		Blinded:  []string{"team-a/flux " + h("b1"), "team-b/flux " + h("b2")},
 		Compared: []string{"flux value team-a team-b pass", "flux width team-a team-b fail"},
 		Verdict:  "fail", Accepted: "the tilt is understood", AcceptedRisks: []string{"flux/value the errors are public anyway"}}

@@ -60,8 +60,9 @@ func parseCount(s string) (int, bool) {
 }
 
 // validUTCTime reports whether s is a utc-time: RFC 3339 in UTC to the
-// second, "2026-12-01T09:30:00Z", naming a real instant (month 01–12, a
-// day the month has, hour 00–23, minute and second 00–59).
+// second, "2026-12-01T09:30:00Z", naming a real instant (year 0001–9999,
+// month 01–12, a day the month has, hour 00–23, minute and second 00–59:
+// no leap second).
 func validUTCTime(s string) bool {
 	if len(s) != 20 {
 		return false
@@ -71,6 +72,9 @@ func validUTCTime(s string) bool {
 		if c := s[i]; (want == 'd' && (c < '0' || c > '9')) || (want != 'd' && c != want) {
 			return false
 		}
+	}
+	if s[:4] == "0000" {
+		return false // years 0001 to 9999
 	}
 	t, err := time.Parse(time.RFC3339, s)
 	return err == nil && t.UTC().Format(time.RFC3339) == s
