@@ -188,8 +188,12 @@ def parse_table_file(data, kind, lo, hi):
         if not line.startswith("# %s: " % k):
             raise Bad("expected # %s:" % k)
         h[k] = line[len(k) + 4:]
-    if not re.fullmatch(r"[1-9][0-9]*", h["version"]):
+    if not re.fullmatch(r"[1-9][0-9]{0,8}", h["version"]):
         raise Bad("bad version")
+    if not all(NAME.match(h[k]) for k in ("campaign", "team", "observable")):
+        raise Bad("a header value is not a name")
+    if kind == "blinded" and not HEX64.match(h["sealed"]):
+        raise Bad("the seal commitment is not hex64")
     names, rows = parse_csv(lines[-1], lo, hi)
     if encode_table_file(kind, h, names, rows) != text:
         raise Bad("table file not canonical")
