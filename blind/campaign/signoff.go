@@ -54,13 +54,15 @@ func (c *Campaign) current() (*Statement, error) {
 			}
 		}
 	}
+	st.Compared = comparedLines(cmp)
 	st.Comparison, st.Verdict = cmp.Digest, string(cmp.Verdict)
 	return st, nil
 }
 
 // Draft drafts the statement a party signs: it binds the campaign, the key
 // commitment, every sealed commitment (with the team that signed it) and
-// blinded digest, the ledger head, the comparison digest and its verdict.
+// blinded digest, the ledger head, every comparison with its verdict, the
+// comparison digest of those lines and the campaign's verdict.
 // A failing verdict needs a reason, which goes into the statement; an
 // incomplete campaign cannot be signed.
 func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, error) {
@@ -91,6 +93,10 @@ func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, e
 		return nil, nil, refuse(StepSign, ProblemState, "the comparison disagrees; signing needs --accept-disagreement with a reason")
 	case cmp.Verdict == Pass && acceptReason != "":
 		return nil, nil, fmt.Errorf("the comparison agrees; there is no disagreement to accept")
+	}
+	if d, err := st.ComparisonDigest(); err != nil || d != cmp.Digest {
+		// The statement's lines must give the digest they end with.
+		return nil, nil, fmt.Errorf("internal error: the statement's compared lines do not give the comparison digest (%v)", err)
 	}
 	head := c.Ledger[len(c.Ledger)-1]
 	st.Party, st.Role = party, q.Role
@@ -218,7 +224,9 @@ func (c *Campaign) staleness(st *Statement) []Problem {
 	if strings.Join(st.Sealed, "\n") != strings.Join(cur.Sealed, "\n") || strings.Join(st.Blinded, "\n") != strings.Join(cur.Blinded, "\n") {
 		add(ProblemStale, "%s is stale: the sealed or blinded tables have changed since", who)
 	}
-	if st.Comparison != cur.Comparison || st.Verdict != cur.Verdict {
+	if diff := comparedDiff(st.Compared, cur.Compared); diff != "" {
+		add(ProblemComparison, "%s lists other comparisons than the blinded tables give: %s", who, diff)
+	} else if st.Comparison != cur.Comparison || st.Verdict != cur.Verdict {
 		add(ProblemSignoff, "%s does not match the comparison recomputed from the blinded tables", who)
 	}
 	if strings.Join(st.AcceptedRisks, "\n") != strings.Join(cur.AcceptedRisks, "\n") {

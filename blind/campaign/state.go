@@ -159,7 +159,7 @@ func (c *Campaign) replay() *State {
 			st.Files[f] = d
 		}
 		if e.Seq > 1 && e.Step == string(StepInit) {
-			bad(e, ProblemOrder, "a second init entry")
+			bad(e, ProblemSecondInit, "a second init entry")
 			continue
 		}
 		if e.Seq == 1 && e.Step != string(StepInit) {

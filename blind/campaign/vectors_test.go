@@ -26,6 +26,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"slices"
 	"strconv"
 	"strings"
@@ -39,6 +40,7 @@ import (
 	"tandem/blind"
 	"tandem/blind/internal/format"
 	"tandem/blind/internal/sshsig"
+	"tandem/blind/protocol"
 	"tandem/compare"
 	"tandem/compare/table"
 )
@@ -52,7 +54,7 @@ const vectorsDir = "../../testdata/vectors"
 var outcomes = []string{
 	"ok", "non-canonical", "broken-chain", "bad-signature", "unknown-party", "second-init",
 	"out-of-order", "protocol-changed", "bad-digest", "uncovered-file", "bad-commitment",
-	"bad-signoff", "stale-signoff", "missing-signoff", "missing",
+	"bad-signoff", "comparison-mismatch", "stale-signoff", "missing-signoff", "missing",
 }
 
 // Header keys each kind of vector may have, besides kind, expect,
@@ -68,7 +70,7 @@ var vectorKeys = map[string][]string{
 	"statement":         {},
 	"key-file":          {},
 	"comparison-digest": {"digest"},
-	"campaign":          {"campaign"},
+	"campaign":          {"campaign", "verdicts"},
 }
 
 // vector is one file of testdata/vectors: "key: value" header lines, a
@@ -218,6 +220,19 @@ func checkVector(t *testing.T, v *vector) string {
 			got = m.O[bin]
 		}
 		eq("map", table.Format(got), v.get("value"))
+		if v.get("observable") == protocol.EventsObservable {
+			// The map sync --campaign applies: [protocol.EventVar.MapSpec], one bin.
+			ev := protocol.EventVar{Name: v.get("column"), Scale: []float64{r.Lo, r.Hi}, Shift: []float64{r.Lo, r.Hi}}
+			em := k.Map(ev.MapSpec(), 1)
+			got := em.S[0]
+			if v.get("param") == "shift" {
+				got = em.O[0]
+			}
+			eq("event map", table.Format(got), v.get("value"))
+			if bin != 0 || v.get("scope") != blind.CommonScope {
+				t.Errorf("an event-level map has one bin in the common scope")
+			}
+		}
 	case "key-commitment":
 		k, err := blind.KeyFromBytes(mustHex(t, v.get("key")))
 		if err != nil {
@@ -335,11 +350,7 @@ func outcomeOf(r *Report) string {
 	}
 	have := map[string]bool{}
 	for _, p := range r.Problems {
-		k := string(p.Kind)
-		if p.Kind == ProblemOrder && strings.Contains(p.Message, "a second init entry") {
-			k = "second-init"
-		}
-		have[k] = true
+		have[string(p.Kind)] = true
 	}
 	for _, o := range outcomes {
 		if have[o] {
@@ -370,11 +381,34 @@ func checkCampaign(t *testing.T, root string, v *vector) string {
 	if err := os.CopyFS(tmp, os.DirFS(dir)); err != nil {
 		t.Fatal(err)
 	}
+	if got, want := recomputedVerdicts(t, tmp), v.get("verdicts"); got != want {
+		t.Errorf("the comparisons of the blinded tables give verdicts %q, the vector says %q", got, want)
+	}
 	r := Verify(tmp)
 	for _, p := range r.Problems {
 		t.Logf("problem %s: %s", p.Kind, p)
 	}
 	return outcomeOf(r)
+}
+
+// recomputedVerdicts is the per-comparison verdicts of a campaign's
+// blinded tables in the comparison digest's order, space-separated, or ""
+// when its tables cannot be compared (a tampered table, nothing open).
+func recomputedVerdicts(t *testing.T, dir string) string {
+	t.Helper()
+	c, err := open(dir)
+	if err != nil {
+		return ""
+	}
+	cmp, err := c.Compare()
+	if err != nil {
+		return ""
+	}
+	var vs []string
+	for _, l := range comparedLines(cmp) {
+		vs = append(vs, l[strings.LastIndexByte(l, ' ')+1:])
+	}
+	return strings.Join(vs, " ")
 }
 
 // manifest lists every file below dir as "SHA256 SP path LF", sorted.
@@ -575,6 +609,10 @@ func mapVectors(t *testing.T) []*vector {
 		{"flux", "value", blind.TeamScope("team-a"), "shift", 1, -100, 100},
 		{"ratio", "r", blind.CommonScope, "shift", 2, -1e-6, 1e-6},
 		{"ratio", "r", blind.CommonScope, "scale", 12, 1e-6, 1e6},
+		// The map of an event-level variable (tandem sync --campaign):
+		// observable "[events]", the common scope, bin 0.
+		{protocol.EventsObservable, "energy", blind.CommonScope, "scale", 0, 0.5, 2},
+		{protocol.EventsObservable, "energy", blind.CommonScope, "shift", 0, -50, 50},
 	}
 	var vs []*vector
 	for i, c := range cases {
@@ -582,9 +620,13 @@ func mapVectors(t *testing.T) []*vector {
 		okm := hkdfExpand(hkdfExtract(nil, kat.key), []byte(info), 8)
 		n := beUint64(okm) >> 11
 		u := k.Uniform(info)
+		desc := fmt.Sprintf("%s of %s/%s bin %d in scope %q from a fixed key", c.param, c.obs, c.col, c.bin, c.scope)
+		if c.obs == protocol.EventsObservable {
+			desc = fmt.Sprintf("%s of the event-level variable %s (observable %s, one bin, common scope) from a fixed key", c.param, c.col, c.obs)
+		}
 		vs = append(vs, &vector{name: fmt.Sprintf("map-%d.txt", i+1), headers: hdr(
 			"kind", "map", "expect", "ok",
-			"description", fmt.Sprintf("%s of %s/%s bin %d in scope %q from a fixed key", c.param, c.obs, c.col, c.bin, c.scope),
+			"description", desc,
 			"key", hex.EncodeToString(kat.key), "observable", c.obs, "column", c.col, "scope", c.scope,
 			"param", c.param, "bin", strconv.Itoa(c.bin), "lo", table.Format(c.lo), "hi", table.Format(c.hi),
 			"info", hex.EncodeToString([]byte(info)), "okm", hex.EncodeToString(okm),
@@ -669,6 +711,11 @@ func ledgerLineVectors(t *testing.T) []*vector {
 		{"member-order", strings.Replace(strings.Replace(s, `{"seq":7,"prev":`, `{"prev":`, 1), `,"step":`, `,"seq":7,"step":`, 1)},
 		{"upper-key", strings.Replace(s, `"actor":`, `"Actor":`, 1)},
 		{"unknown-member", strings.Replace(s, `,"sig":`, `,"note":"x","sig":`, 1)},
+		{"c1-control", strings.Replace(s, "é", "\u0085", 1)},
+		{"bidi-override", strings.Replace(s, "é", "\u202e", 1)},
+		{"line-separator", strings.Replace(s, "é", "\u2028", 1)},
+		{"bad-time", strings.Replace(s, `"time":"2026-12-01T09:30:00Z"`, `"time":"2026-12-01T24:30:00Z"`, 1)},
+		{"time-offset", strings.Replace(s, `"time":"2026-12-01T09:30:00Z"`, `"time":"2026-12-01T09:30:00+00:00"`, 1)},
 	}
 	vs := []*vector{ok}
 	for _, b := range bad {
@@ -684,11 +731,18 @@ func ledgerLineVectors(t *testing.T) []*vector {
 func katStatement() *format.Statement {
 	h := func(s string) string { return hex.EncodeToString(sum(s)) }
 	fp := func(name string) string { return ssh.FingerprintSHA256(fixedSigner(nil, name).PublicKey()) }
-	return &format.Statement{Campaign: "vectors-2026", Party: "reviewer", Role: "reviewer", Date: "2026-12-01T10:00:00Z",
+	st := &format.Statement{Campaign: "vectors-2026", Party: "reviewer", Role: "reviewer", Date: "2026-12-01T10:00:00Z",
 		Protocol: kat.protocolDigest, KeyCommitment: h("kc"), LedgerSeq: 9, LedgerHash: h("head"),
-		Sealed:     []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
-		Blinded:    []string{"team-a/flux " + h("b1"), "team-b/flux " + h("b2")},
-		Comparison: h("cmp"), Verdict: "fail", Accepted: "the tilt is understood", AcceptedRisks: []string{"flux/value the errors are public anyway"}}
+		Sealed:   []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
+		Blinded:  []string{"team-a/flux " + h("b1"), "team-b/flux " + h("b2")},
+		Compared: []string{"flux value team-a team-b pass", "flux width team-a team-b fail"},
+		Verdict:  "fail", Accepted: "the tilt is understood", AcceptedRisks: []string{"flux/value the errors are public anyway"}}
+	d, err := st.ComparisonDigest()
+	if err != nil {
+		panic(err) // the lines above name only listed slots
+	}
+	st.Comparison = d
+	return st
 }
 
 func statementVectors() []*vector {
@@ -704,7 +758,60 @@ func statementVectors() []*vector {
 		mk("order", "non-canonical", "blinded line before a sealed line", strings.Replace(strings.Replace(s, "blinded: team-a/flux", "BLINDED", 1), "sealed: team-a/flux", "blinded: team-a/flux", 1)),
 		mk("unknown-key", "non-canonical", "a key the format does not have", strings.Replace(s, "verdict: fail\n", "verdict: fail\nnote: x\n", 1)),
 		mk("v1", "non-canonical", "a tandem/v1 statement", strings.Replace(s, "tandem/v2", "tandem/v1", 1)),
+		mk("upper-hex", "non-canonical", "the protocol digest in uppercase hex", strings.Replace(s, "protocol: "+kat.protocolDigest, "protocol: "+strings.ToUpper(kat.protocolDigest), 1)),
+		mk("short-commitment", "non-canonical", "a key commitment of 63 hex digits", regexpReplace(s, `(?m)^(key-commitment: [0-9a-f]{63})[0-9a-f]$`, "$1")),
+		mk("bad-date", "non-canonical", "a date that does not exist (30 February)", strings.Replace(s, "date: 2026-12-01T10:00:00Z", "date: 2026-02-30T10:00:00Z", 1)),
+		mk("date-offset", "non-canonical", "a time with a +00:00 offset instead of Z", strings.Replace(s, "date: 2026-12-01T10:00:00Z", "date: 2026-12-01T10:00:00+00:00", 1)),
+		mk("head-leading-zero", "non-canonical", "a ledger-head entry number with a leading zero", strings.Replace(s, "ledger-head: 9 ", "ledger-head: 09 ", 1)),
+		mk("bad-party", "non-canonical", "a party that is not a name", strings.Replace(s, "party: reviewer", "party: -reviewer", 1)),
+		mk("fingerprint-bits", "non-canonical", "a key fingerprint whose last base64 character has unused bits set", badFingerprint(s)),
+		mk("sealed-by-other", "non-canonical", "team-b's seal listed as made by team-a", regexpReplace(s, `(?m)^(sealed: team-b/flux v1 [0-9a-f]{64}) by team-b `, "$1 by team-a ")),
+		mk("no-compared", "non-canonical", "no compared line", regexpReplace(s, `(?m)^compared: .*\n`, "")),
+		mk("compared-unlisted", "non-canonical", "a compared line naming team-c, which has no blinded line", strings.Replace(s, "compared: flux width team-a team-b fail", "compared: flux width team-a team-c fail", 1)),
+		mk("compared-self", "non-canonical", "a team compared with itself", strings.Replace(s, "compared: flux width team-a team-b fail", "compared: flux width team-a team-a fail", 1)),
+		mk("compared-edited", "non-canonical", "a compared line's verdict changed after the comparison digest was computed: the digest no longer hashes the listed lines", strings.Replace(s, "compared: flux value team-a team-b pass", "compared: flux value team-a team-b fail", 1)),
+		mk("verdict-pass-with-fail", "non-canonical", "verdict pass (without a reason) while a compared line fails; the digest is that of the lines", string(katVariant(func(st *format.Statement) { st.Verdict, st.Accepted = "pass", "" }))),
+		mk("pass-with-reason", "non-canonical", "every compared line passes, verdict pass, with an accepted-disagreement line; the digest is that of the lines", string(katVariant(func(st *format.Statement) {
+			st.Compared[1] = strings.Replace(st.Compared[1], " fail", " pass", 1)
+			st.Verdict = "pass"
+		}))),
+		mk("pass", "ok", "every compared line passes, verdict pass, no accepted-disagreement line", string(katVariant(func(st *format.Statement) {
+			st.Compared[1] = strings.Replace(st.Compared[1], " fail", " pass", 1)
+			st.Verdict, st.Accepted = "pass", ""
+		}))),
+		mk("c1-reason", "non-canonical", "the accepted-disagreement reason holds U+0085 (a C1 control)", strings.Replace(s, "the tilt is", "the tilt\u0085is", 1)),
+		mk("bidi-reason", "non-canonical", "the accepted-disagreement reason holds U+202E (right-to-left override)", strings.Replace(s, "the tilt is", "the tilt \u202eis", 1)),
 	}
+}
+
+// katVariant is the known-answer statement changed by f, with the
+// comparison digest of its changed lines.
+func katVariant(f func(*format.Statement)) []byte {
+	st := katStatement()
+	f(st)
+	d, err := st.ComparisonDigest()
+	if err != nil {
+		panic(err)
+	}
+	st.Comparison = d
+	return st.Encode()
+}
+
+func regexpReplace(s, re, repl string) string {
+	out := regexp.MustCompile(re).ReplaceAllString(s, repl)
+	if out == s {
+		panic("vector edit " + re + " changed nothing")
+	}
+	return out
+}
+
+// badFingerprint sets the unused low bits of the last base64 character of
+// the first fingerprint in s (32 bytes are 42 characters and 4 bits).
+func badFingerprint(s string) string {
+	const b64 = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/"
+	i := strings.Index(s, "SHA256:") + len("SHA256:") + 42
+	c := strings.IndexByte(b64, s[i])
+	return s[:i] + string(b64[c|1]) + s[i+1:]
 }
 
 func keyFileVectors(k *blind.Key) []*vector {
@@ -1041,9 +1148,18 @@ func (g *gen) forgeSign(party, sigBy string, alter func(*Statement)) {
 	}
 	if err := c.appendEntry(format.Entry{Step: string(StepSign), Actor: party,
 		Files: map[string]string{sp: format.Digest(body), gp: format.Digest(sig)},
-		Data:  map[string]string{"party": party, "verdict": st.Verdict}}, g.signers[party]); err != nil {
+		Data:  signData(st)}, g.signers[party]); err != nil {
 		t.Fatal(err)
 	}
+}
+
+// signData is the data of a sign entry for st.
+func signData(st *Statement) map[string]string {
+	d := map[string]string{"party": st.Party, "verdict": st.Verdict}
+	if st.Accepted != "" {
+		d["accepted_disagreement"] = st.Accepted
+	}
+	return d
 }
 
 // editFile rewrites one file of the campaign through f.
@@ -1171,6 +1287,29 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSign("reviewer", "team-a", nil)
 		}},
+		{"comparison-mismatch", "comparison-mismatch", "the reviewer signed a statement listing flux/value team-a vs team-b as fail (with a reason, verdict fail, and the comparison digest of the listed lines); the blinded tables give pass (header verdicts)", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.forgeSign("reviewer", "reviewer", func(st *Statement) {
+				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				d, err := st.ComparisonDigest()
+				if err != nil {
+					t.Fatal(err)
+				}
+				st.Comparison = d
+			})
+		}},
+		{"bad-signoff-compared", "bad-signoff", "the reviewer's statement lists flux/value team-a vs team-b as fail, but its comparison digest is that of the true lines: the statement contradicts itself", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.forgeSign("reviewer", "reviewer", func(st *Statement) {
+				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+				st.Verdict, st.Accepted = "fail", "we think flux differs"
+			})
+		}},
 	}
 	var vs []*vector
 	for _, c := range cases {
@@ -1184,8 +1323,11 @@ func campaignVectors(t *testing.T, out string) []*vector {
 		if err != nil {
 			t.Fatal(err)
 		}
-		vs = append(vs, &vector{name: "campaign-" + c.name + ".txt", headers: hdr("kind", "campaign", "expect", c.expect,
-			"description", c.desc, "campaign", c.name), payload: man})
+		h := hdr("kind", "campaign", "expect", c.expect, "description", c.desc, "campaign", c.name)
+		if verdicts := recomputedVerdicts(t, g.dir); verdicts != "" {
+			h = append(h, [2]string{"verdicts", verdicts})
+		}
+		vs = append(vs, &vector{name: "campaign-" + c.name + ".txt", headers: h, payload: man})
 	}
 	return vs
 }

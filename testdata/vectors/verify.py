@@ -9,10 +9,17 @@ Python 3 standard library only; SSHSIG signatures are checked with
 `ssh-keygen -Y verify` (OpenSSH).
 
     verify.py VECTOR.txt ...      one line "NAME OUTCOME" per vector
-    verify.py --campaign DIR      the outcome of one campaign, then its problems
+    verify.py --campaign DIR [--verdicts "pass fail ..."]
+                                  the outcome of one campaign, then its problems;
+                                  --verdicts gives the per-comparison verdicts
+                                  (in the comparison digest's order) that the
+                                  statistics give, which this verifier does not
+                                  compute, so that the compared lines of the
+                                  sign-offs are checked against them
 """
 
 import base64
+import datetime
 import hashlib
 import hmac
 import json
@@ -28,7 +35,7 @@ VERSION = "tandem/v2"
 # SPEC.md "Outcomes": when several hold, the first in this list is reported.
 OUTCOMES = ["ok", "non-canonical", "broken-chain", "bad-signature", "unknown-party", "second-init",
             "out-of-order", "protocol-changed", "bad-digest", "uncovered-file", "bad-commitment",
-            "bad-signoff", "stale-signoff", "missing-signoff", "missing"]
+            "bad-signoff", "comparison-mismatch", "stale-signoff", "missing-signoff", "missing"]
 
 NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}\Z")
 HEX64 = re.compile(r"[0-9a-f]{64}\Z")
@@ -36,6 +43,31 @@ HEX64 = re.compile(r"[0-9a-f]{64}\Z")
 
 class Bad(Exception):
     """Input that is not in its one canonical form."""
+
+
+def forbidden(c):
+    """SPEC.md section 1, tchar: characters no text and no ledger string holds."""
+    o = ord(c)
+    return (o < 0x20 or 0x7F <= o <= 0x9F or o in (0x061C, 0x200E, 0x200F)
+            or 0x2028 <= o <= 0x202E or 0x2066 <= o <= 0x2069)
+
+
+def clean_text(s):
+    return s != "" and not any(forbidden(c) for c in s)
+
+
+UTC_TIME = re.compile(r"[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z\Z")
+
+
+def utc_time(s):
+    """utc-time naming a real instant: year 0001-9999, no leap second."""
+    if not UTC_TIME.match(s):
+        return False
+    try:
+        datetime.datetime.strptime(s, "%Y-%m-%dT%H:%M:%SZ")
+    except ValueError:
+        return False
+    return True
 
 
 # ---------------------------------------------------------------- HKDF (RFC 5869)
@@ -156,8 +188,12 @@ def parse_table_file(data, kind, lo, hi):
         if not line.startswith("# %s: " % k):
             raise Bad("expected # %s:" % k)
         h[k] = line[len(k) + 4:]
-    if not re.fullmatch(r"[1-9][0-9]*", h["version"]):
+    if not re.fullmatch(r"[1-9][0-9]{0,8}", h["version"]):
         raise Bad("bad version")
+    if not all(NAME.match(h[k]) for k in ("campaign", "team", "observable")):
+        raise Bad("a header value is not a name")
+    if kind == "blinded" and not HEX64.match(h["sealed"]):
+        raise Bad("the seal commitment is not hex64")
     names, rows = parse_csv(lines[-1], lo, hi)
     if encode_table_file(kind, h, names, rows) != text:
         raise Bad("table file not canonical")
@@ -216,8 +252,10 @@ def parse_entry(line):
         v = e.get(m, {})
         if not isinstance(v, dict) or not all(isinstance(x, str) for x in v.values()):
             raise Bad("bad member " + m)
-    if any(ord(c) < 0x20 for c in text):
-        raise Bad("control character")
+    if any(forbidden(c) for c in text):
+        raise Bad("a control, separator or bidirectional formatting character")
+    if not utc_time(e["time"]):
+        raise Bad("time is not a utc-time")
     if encode_entry(e).encode() != line:
         raise Bad("not canonical")
     e["hash"] = hashlib.sha256(line).hexdigest()
@@ -242,23 +280,72 @@ def parse_ledger(data):
 
 # ---------------------------------------------------------------- statements
 
-FPR = r"SHA256:[A-Za-z0-9+/]{43}"
-SLOT = r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}/[A-Za-z0-9][A-Za-z0-9_.-]{0,63}"
+FPR = re.compile(r"SHA256:[A-Za-z0-9+/]{43}\Z")
+B64 = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/"
+COUNT = re.compile(r"[1-9][0-9]{0,8}\Z")
+
+# SPEC.md section 9: (key, required, repeated), in the order lines come.
 STATEMENT_LINES = [
-    ("campaign", NAME.pattern[:-2], False), ("party", NAME.pattern[:-2], False), ("role", "team|reviewer", False),
-    ("date", r"[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z", False),
-    ("protocol", "[0-9a-f]{64}", False), ("key-commitment", "[0-9a-f]{64}", False),
-    ("ledger-head", "[1-9][0-9]* [0-9a-f]{64}", False),
-    ("sealed", SLOT + " v[1-9][0-9]* [0-9a-f]{64} by " + NAME.pattern[:-2] + " " + FPR, True),
-    ("blinded", SLOT + " [0-9a-f]{64}", True), ("comparison", "[0-9a-f]{64}", False),
-    ("verdict", "pass|fail|incomplete", False), ("accepted-disagreement", "TEXT", None),
-    ("accepted-risk", SLOT + " TEXT", True),
+    ("campaign", True, False), ("party", True, False), ("role", True, False), ("date", True, False),
+    ("protocol", True, False), ("key-commitment", True, False), ("ledger-head", True, False),
+    ("sealed", False, True), ("blinded", False, True), ("compared", True, True),
+    ("comparison", True, False), ("verdict", True, False),
+    ("accepted-disagreement", False, False), ("accepted-risk", False, True),
 ]
 
 
-def clean_text(s):
-    bidi = {0x061C, 0x200E, 0x200F, 0x2028, 0x2029} | set(range(0x202A, 0x202F)) | set(range(0x2066, 0x206A))
-    return s != "" and not any(ord(c) < 0x20 or 0x7F <= ord(c) <= 0x9F or ord(c) in bidi for c in s)
+def is_name(s):
+    return bool(NAME.match(s))
+
+
+def is_slot(s):
+    parts = s.split("/")
+    return len(parts) == 2 and all(is_name(x) for x in parts)
+
+
+def is_fingerprint(s):
+    # 32 bytes are 42 base64 characters and 4 bits: the last character's
+    # two unused bits are zero (ssh-keygen's canonical form).
+    return bool(FPR.match(s)) and B64.index(s[-1]) % 4 == 0
+
+
+def check_value(key, v):
+    f = v.split(" ")
+    if key in ("campaign", "party"):
+        return is_name(v)
+    if key == "role":
+        return v in ("team", "reviewer")
+    if key == "date":
+        return utc_time(v)
+    if key in ("protocol", "key-commitment", "comparison"):
+        return bool(HEX64.match(v))
+    if key == "ledger-head":
+        return len(f) == 2 and bool(COUNT.match(f[0])) and bool(HEX64.match(f[1]))
+    if key == "sealed":
+        return (len(f) == 6 and is_slot(f[0]) and f[1][:1] == "v" and bool(COUNT.match(f[1][1:]))
+                and bool(HEX64.match(f[2])) and f[3] == "by" and f[4] == f[0].split("/")[0] and is_fingerprint(f[5]))
+    if key == "blinded":
+        return len(f) == 2 and is_slot(f[0]) and bool(HEX64.match(f[1]))
+    if key == "compared":
+        return len(f) == 5 and all(is_name(x) for x in f[:4]) and f[2] != f[3] and f[4] in ("pass", "fail")
+    if key == "verdict":
+        return v in ("pass", "fail")
+    if key == "accepted-disagreement":
+        return clean_text(v)
+    if key == "accepted-risk":
+        slot, _, reason = v.partition(" ")
+        return is_slot(slot) and clean_text(reason)
+    return False
+
+
+def statement_comparison_text(st):
+    """SPEC.md section 9: the comparison text a statement's own lines give."""
+    digest = dict(l.split(" ") for l in st.get("blinded", []))
+    out = "%s comparison\nprotocol: %s\n" % (VERSION, st["protocol"])
+    for l in st["compared"]:
+        o, c, a, b, v = l.split(" ")
+        out += "%s %s %s %s %s %s %s\n" % (o, c, a, b, digest[a + "/" + o], digest[b + "/" + o], v)
+    return out + "verdict: %s\n" % st["verdict"]
 
 
 def parse_statement(data):
@@ -269,30 +356,46 @@ def parse_statement(data):
     lines = text.split("\n")
     if lines[0] != VERSION + " signoff" or lines[-1] != "":
         raise Bad("not a statement")
-    st, i = {}, 1
-    body = lines[1:-1]
-    for key, pat, many in STATEMENT_LINES:
-        vals = []
-        while i - 1 < len(body) and body[i - 1].startswith(key + ": "):
-            v = body[i - 1][len(key) + 2:]
-            ok = clean_text(v) if pat == "TEXT" else (
-                re.fullmatch(pat.replace(" TEXT", r" (.+)"), v) and (not pat.endswith("TEXT") or clean_text(v.split(" ", 1)[1])))
-            if not ok:
-                raise Bad("line %d: bad %s" % (i + 1, key))
-            vals.append(v)
-            i += 1
-            if not many:
-                break
-        if many:
-            st[key] = vals
-        elif vals:
-            st[key] = vals[0]
-        elif many is False:
-            raise Bad("no %s line" % key)
-    if i - 1 != len(body):
-        raise Bad("line %d: unexpected" % (i + 1))
+    keys = [k for k, _, _ in STATEMENT_LINES]
+    st, last = {}, -1
+    for n, line in enumerate(lines[1:-1], start=2):
+        key, sep, v = line.partition(": ")
+        if not sep or key not in keys:
+            raise Bad("line %d: unknown key" % n)
+        i = keys.index(key)
+        if i < last or (i == last and not STATEMENT_LINES[i][2]):
+            raise Bad("line %d: out of place" % n)
+        if any(req for _, req, _ in STATEMENT_LINES[last + 1:i]):
+            raise Bad("line %d: a required line is missing before it" % n)
+        last = max(last, i)
+        if not check_value(key, v):
+            raise Bad("line %d: bad %s" % (n, key))
+        if STATEMENT_LINES[i][2]:
+            st.setdefault(key, []).append(v)
+        else:
+            st[key] = v
+    if any(req for _, req, _ in STATEMENT_LINES[last + 1:]):
+        raise Bad("a required line is missing at the end")
+    sealed = [l.split(" ")[0] for l in st.get("sealed", [])]
+    if sealed != [l.split(" ")[0] for l in st.get("blinded", [])] or len(set(sealed)) != len(sealed):
+        raise Bad("sealed and blinded lines must list the same slots, once each, in the same order")
+    ids = [" ".join(l.split(" ")[:4]) for l in st["compared"]]
+    if len(set(ids)) != len(ids):
+        raise Bad("a comparison is listed twice")
+    for l in st["compared"]:
+        o, _, a, b, _ = l.split(" ")
+        if a + "/" + o not in sealed or b + "/" + o not in sealed:
+            raise Bad("a compared line names a table without a blinded line")
+    fails = any(l.endswith(" fail") for l in st["compared"])
+    if st["verdict"] != ("fail" if fails else "pass"):
+        raise Bad("the verdict is fail exactly when a compared line fails")
     if (st["verdict"] == "fail") != ("accepted-disagreement" in st):
         raise Bad("accepted-disagreement goes with verdict fail, and only with it")
+    risks = [r.split(" ")[0] for r in st.get("accepted-risk", [])]
+    if len(set(risks)) != len(risks):
+        raise Bad("an accepted risk is listed twice")
+    if hashlib.sha256(statement_comparison_text(st).encode()).hexdigest() != st["comparison"]:
+        raise Bad("the comparison digest is not the digest of the statement's lines")
     return st
 
 
@@ -327,8 +430,9 @@ LEFTOVER = re.compile(r"(sealed/[^/]+/[^/]+\.v[0-9]+\.age|blinded/[^/]+/[^/]+\.v
 
 
 class Campaign:
-    def __init__(self, root):
+    def __init__(self, root, verdicts=None):
         self.root = root
+        self.verdicts = verdicts  # per-comparison verdicts, when known
         self.problems = []  # (outcome, message)
         self.notes = []
 
@@ -516,39 +620,35 @@ class Campaign:
                 return False
         return True
 
-    def comparison_digests(self, st, p, teams, proto_digest):
-        """Every comparison digest consistent with the campaign, by verdict:
-        the per-comparison verdicts come from the statistics, which this
-        verifier does not compute, so a failing verdict is checked against
-        every assignment with at least one failing comparison."""
-        lines, incomplete = [], []
+    def comparisons(self, st, p, teams):
+        """The comparisons of the campaign in the comparison digest's order,
+        as (observable, column, team A, team B), and the observables that
+        are not open (SPEC.md section 9, the comparison digest)."""
+        out, incomplete = [], []
         for o in p["observable"]:
             if not self.is_open(st, teams, o["name"]):
-                incomplete.append(o["name"] + " incomplete\n")
+                incomplete.append(o["name"])
                 continue
             for i in range(len(teams)):
                 for j in range(i + 1, len(teams)):
                     for c in o["column"]:
-                        a, b = st["common"][(teams[i], o["name"])], st["common"][(teams[j], o["name"])]
-                        lines.append("%s %s %s %s %s %s " % (o["name"], c["name"], teams[i], teams[j], a["digest"], b["digest"]))
-        head = "%s comparison\nprotocol: %s\n" % (VERSION, proto_digest)
+                        out.append((o["name"], c["name"], teams[i], teams[j]))
+        return out, incomplete
 
-        def digest(verdicts, overall):
-            text = head + "".join(l + v + "\n" for l, v in zip(lines, verdicts)) + "".join(incomplete) + "verdict: " + overall + "\n"
-            return hashlib.sha256(text.encode()).hexdigest()
-        out = {}
-        n = len(lines)
-        if n <= 16:
-            for mask in range(1 << n):
-                vs = ["fail" if mask >> k & 1 else "pass" for k in range(n)]
-                overall = "incomplete" if incomplete else ("fail" if mask else "pass")
-                out.setdefault(overall, set()).add(digest(vs, overall))
-        return out
+    def comparison_digest(self, st, proto_digest, comparisons, verdicts, incomplete):
+        text = "%s comparison\nprotocol: %s\n" % (VERSION, proto_digest)
+        for (o, c, a, b), v in zip(comparisons, verdicts):
+            text += "%s %s %s %s %s %s %s\n" % (o, c, a, b, st["common"][(a, o)]["digest"], st["common"][(b, o)]["digest"], v)
+        text += "".join(o + " incomplete\n" for o in incomplete)
+        overall = "incomplete" if incomplete else ("fail" if "fail" in verdicts else "pass")
+        return hashlib.sha256((text + "verdict: " + overall + "\n").encode()).hexdigest(), overall
 
     def signoffs(self, st, p, parties, teams, obs, proto_bytes, key_com):
         result = {}
         proto_digest = hashlib.sha256(proto_bytes).hexdigest()
-        digests = None
+        comparisons, incomplete = self.comparisons(st, p, teams)
+        if self.verdicts is not None and len(self.verdicts) != len(comparisons):
+            raise ValueError("%d verdicts given, the campaign has %d comparisons" % (len(self.verdicts), len(comparisons)))
         for q in p["party"]:
             name = q["name"]
             s = st["signs"].get(name)
@@ -598,10 +698,22 @@ class Campaign:
                 probs.append(("bad-signoff", who + " names another key commitment"))
             if stmt.get("sealed", []) != sealed or stmt.get("blinded", []) != blinded:
                 probs.append(("stale-signoff", who + " is stale: the sealed or blinded tables have changed since"))
-            if digests is None:
-                digests = self.comparison_digests(st, p, teams, proto_digest)
-            if stmt["comparison"] not in digests.get(stmt["verdict"], set()):
-                probs.append(("bad-signoff", who + " does not match the comparison of the campaign's blinded tables"))
+            # The compared lines: every comparison of the campaign, in order,
+            # with the verdict its statistics give. This verifier does not
+            # compute the statistics: it takes the verdicts from the vector
+            # (header verdicts) when it has them, else from the statement.
+            listed = [tuple(l.split(" ")[:4]) for l in stmt["compared"]]
+            words = [l.split(" ")[4] for l in stmt["compared"]]
+            truth = self.verdicts if self.verdicts is not None else words
+            if listed != comparisons or (self.verdicts is not None and words != self.verdicts):
+                probs.append(("comparison-mismatch", who + " lists other comparisons or verdicts than the campaign's blinded tables give"))
+            else:
+                if self.verdicts is None and not any("verify.py does not compute" in n for n in self.notes):
+                    self.notes.append("per-comparison verdicts read from the statements: verify.py does not compute the statistics"
+                                      " (give them with --verdicts to check them)")
+                d, overall = self.comparison_digest(st, proto_digest, comparisons, truth, incomplete)
+                if stmt["comparison"] != d or stmt["verdict"] != overall:
+                    probs.append(("bad-signoff", who + " does not match the comparison of the campaign's blinded tables"))
             if stmt.get("accepted-risk", []) != risks:
                 probs.append(("stale-signoff", who + " names other accepted risks than the protocol"))
         return result
@@ -680,7 +792,7 @@ KEYS = {
     "key-commitment": {"key", "salt", "commitment"},
     "seal-commitment": {"campaign", "team", "observable", "version", "nonce", "commitment"},
     "number": set(), "number-reject": set(), "ledger-line": {"hash", "signed-hash"}, "statement": set(),
-    "key-file": set(), "comparison-digest": {"digest"}, "campaign": {"campaign"},
+    "key-file": set(), "comparison-digest": {"digest"}, "campaign": {"campaign", "verdicts"},
 }
 
 
@@ -764,7 +876,7 @@ def check_vector(path):
                           r"verdict: (pass|fail|incomplete)\n", payload.decode()), "grammar")
     elif kind == "campaign":
         root = os.path.join(os.path.dirname(path), "campaigns", h["campaign"])
-        c = Campaign(root)
+        c = Campaign(root, h["verdicts"].split(" ") if "verdicts" in h else None)
         man = sorted((hashlib.sha256(c.read(r)).hexdigest() + " " + r for r in c.walk_all()), key=lambda s: s[65:])
         need("".join(m + "\n" for m in man).encode() == payload, "manifest")
         c.verify()
@@ -784,8 +896,12 @@ Campaign.walk_all = walk_all
 
 
 def main(argv):
-    if len(argv) == 2 and argv[0] == "--campaign":
-        c = Campaign(argv[1])
+    if len(argv) in (2, 4) and argv[0] == "--campaign" and (len(argv) == 2 or argv[2] == "--verdicts"):
+        verdicts = argv[3].split() if len(argv) == 4 else None
+        if verdicts is not None and any(v not in ("pass", "fail") for v in verdicts):
+            print("verify.py: error: --verdicts takes words pass and fail", file=sys.stderr)
+            return 2
+        c = Campaign(argv[1], verdicts)
         try:
             c.verify()
         except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError, KeyError, TypeError, ValueError) as err:

@@ -10,7 +10,9 @@
 // party, team, observable, column) match [A-Za-z0-9][A-Za-z0-9_.-]{0,63}.
 // Free text (reasons) holds no control character (U+0000–U+001F,
 // U+007F–U+009F), no U+2028/U+2029 and no bidirectional formatting
-// character (U+061C, U+200E, U+200F, U+202A–U+202E, U+2066–U+2069).
+// character (U+061C, U+200E, U+200F, U+202A–U+202E, U+2066–U+2069); no
+// ledger string holds one either ([Forbidden]). Dates and ledger times are
+// RFC 3339 UTC to the second and name a real instant.
 // Digests and commitments are lowercase hex of SHA-256 (64 characters).
 //
 // # Numbers

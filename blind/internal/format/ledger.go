@@ -36,7 +36,8 @@ var Genesis = hex.EncodeToString(make([]byte, 32))
 // "data" are left out when empty; their members are sorted by key, byte
 // by byte. No whitespace anywhere. Strings are written between '"' with
 // exactly two escapes: '"' as \" and '\' as \\; every other character is
-// written as its UTF-8 bytes, and control characters never occur.
+// written as its UTF-8 bytes, and no string holds a [Forbidden] character
+// (C0 and C1 controls, DEL, U+2028, U+2029, bidirectional formatting).
 type Entry struct {
 	Seq   int
 	Prev  string
@@ -180,7 +181,7 @@ func ParseMore(path string, entries []Entry, more []byte) ([]Entry, error) {
 // DecodeEntry parses one canonical ledger line (without its LF). The
 // parser reads exactly the grammar of [Entry] and nothing else: members in
 // the fixed order, strings with only the two escapes, map keys strictly
-// increasing, valid UTF-8 and no control character.
+// increasing, valid UTF-8 and no [Forbidden] character in a string.
 func DecodeEntry(line []byte) (Entry, error) {
 	var e Entry
 	p := &lineParser{b: line}
@@ -212,6 +213,9 @@ func DecodeEntry(line []byte) (Entry, error) {
 	}
 	if !utf8.Valid(line) {
 		return e, fmt.Errorf("entry is not valid UTF-8")
+	}
+	if !validUTCTime(e.Time) {
+		return e, fmt.Errorf("entry time %q is not a UTC time to the second (2026-12-01T09:30:00Z)", e.Time)
 	}
 	if !bytes.Equal(e.Line(), line) {
 		return e, fmt.Errorf("entry is not in canonical form (edited by hand?)")
@@ -290,10 +294,24 @@ func (p *lineParser) str() string {
 			return ""
 		case c < 0x20 || c == 0x7f:
 			p.i = j
-			p.fail("control character in a string")
+			p.fail(fmt.Sprintf("the control character U+%04X in a string", c))
 			return ""
-		default:
+		case c < 0x80:
 			out = append(out, c)
+		default:
+			r, n := utf8.DecodeRune(p.b[j:])
+			if r == utf8.RuneError && n == 1 {
+				p.i = j
+				p.fail("invalid UTF-8 in a string")
+				return ""
+			}
+			if Forbidden(r) {
+				p.i = j
+				p.fail(fmt.Sprintf("the character U+%04X in a string (control, separator or bidirectional formatting characters never occur)", r))
+				return ""
+			}
+			out = append(out, p.b[j:j+n]...)
+			j += n - 1
 		}
 	}
 	p.fail("unterminated string")

@@ -131,15 +131,23 @@ func DecodeTableFile(name string, data []byte, kind TableKind, lo, hi string) (*
 		vals[k] = strings.TrimSuffix(v, "\n")
 	}
 	f.Campaign, f.Team, f.Observable = vals["campaign"], vals["team"], vals["observable"]
-	n, err := strconv.Atoi(vals["version"])
-	if err != nil || n < 1 {
-		return nil, table.Errorf(name, 5, 12, "malformed version")
+	for i, k := range keys[:3] {
+		if !ValidName(vals[k]) {
+			return nil, table.Errorf(name, i+2, len(k)+5, "%s %q is not a name (1-64 letters, digits, '_', '.' or '-', starting with a letter or digit)", k, vals[k])
+		}
+	}
+	n, ok := parseCount(vals["version"])
+	if !ok {
+		return nil, table.Errorf(name, 5, 12, "version %q is not 1 to 999999999 without leading zeros", vals["version"])
 	}
 	f.Version = n
 	if kind == Blinded {
 		f.Map, f.SealedFrom = vals["map"], vals["sealed"]
 		if f.Map != MapCommon && f.Map != MapTeam {
 			return nil, table.Errorf(name, 6, 8, "map must be %q or %q", MapCommon, MapTeam)
+		}
+		if !validHex64(f.SealedFrom) {
+			return nil, table.Errorf(name, 7, 11, "the seal commitment %q is not 64 lowercase hex digits", f.SealedFrom)
 		}
 	} else {
 		nonce, err := base64.RawStdEncoding.Strict().DecodeString(vals["nonce"])
