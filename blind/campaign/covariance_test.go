@@ -57,6 +57,7 @@ edges = ["lo", "hi"]
   correlation = 0.2
   scale = [0.5, 2.0]
   shift = [-2000.0, 2000.0]
+  accept_risk = "six bins: the self-audit refuses about one random key in twenty; this test checks the covariance scaling only"
 `
 	os.WriteFile(p, append(proto, []byte(extra)...), 0o644)
 	c, err := campaign.Init(dir, signer(t, dir, "custodian"))
