@@ -368,7 +368,10 @@ func (a *acc) common(key []int64, va []float64, ca uint64, pa int64, vb []float6
 		}
 		if a.blinded[j] {
 			f := a.affine[j]
-			x, y = f.S*x+f.O, f.S*y+f.O
+			// The product is rounded before the shift is added (an
+			// explicit conversion forbids a fused multiply-add), so every
+			// platform shows the same values, as blind/SPEC.md §6.1 says.
+			x, y = float64(f.S*x)+f.O, float64(f.S*y)+f.O
 			d = x - y
 			m = math.Max(math.Abs(x), math.Abs(y))
 		}
@@ -393,7 +396,7 @@ func (a *acc) common(key []int64, va []float64, ca uint64, pa int64, vb []float6
 		e.Key, e.Outside, e.Worst, e.PosA, e.PosB = key, outside, worst, pa, pb
 		for j := 0; j < a.ncmp; j++ {
 			f := a.affine[j]
-			e.A[j], e.B[j] = Value(f.S*va[j]+f.O), Value(f.S*vb[j]+f.O)
+			e.A[j], e.B[j] = Value(float64(f.S*va[j])+f.O), Value(float64(f.S*vb[j])+f.O)
 		}
 		s.Worst = offerEvent(s.Worst, e, a.o.Worst)
 	}
