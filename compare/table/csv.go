@@ -231,6 +231,7 @@ type rowParser struct {
 func (p *rowParser) rows(b *block) {
 	data := b.data
 	rel := 0
+	var prev edgeMemo
 	for len(data) > 0 {
 		var line []byte
 		line, data = cutLine(data)
@@ -256,7 +257,7 @@ func (p *rowParser) rows(b *block) {
 		if lead == len(line) || line[lead] == '#' {
 			continue
 		}
-		if err := p.row(b, rel, line, plain); err != nil {
+		if err := p.row(b, rel, line, plain, &prev); err != nil {
 			b.err = err
 			return
 		}
@@ -277,17 +278,38 @@ func (p *rowParser) rows(b *block) {
 	b.nlines = rel
 }
 
+// edgeMemo holds the text and value of the previous row's upper edge. In
+// a table of adjacent bins the next lower edge is most often the very same
+// text, which then needs no parsing: equal bytes give the equal value.
+type edgeMemo struct {
+	text []byte
+	v    float64
+}
+
 // row parses one data line: one pass finds each field, trims it and
-// parses it.
-func (p *rowParser) row(b *block, rel int, line []byte, plain bool) *Error {
+// parses it. prev is the upper edge of the row before (empty text for
+// none), and is set to this row's.
+func (p *rowParser) row(b *block, rel int, line []byte, plain bool, prev *edgeMemo) *Error {
 	k, pos, delim := 0, 0, p.delim
+	var hi edgeMemo
 	for {
 		if k >= len(p.header) {
 			return raggedErr(p.name, rel, line, delim, len(p.header))
 		}
-		// Most fields are numbers with no blanks: parse them in the
-		// same pass that finds the delimiter.
-		v, end, ok := scanField(line, pos, delim)
+		d := p.dest[k]
+		var v float64
+		var end int
+		ok := false
+		if n := len(prev.text); d == 0 && n > 0 && len(line)-pos >= n && (len(line)-pos == n || line[pos+n] == delim) && bytes.Equal(line[pos:pos+n], prev.text) {
+			v, end, ok = prev.v, pos+n, true
+		} else {
+			// Most fields are numbers with no blanks: parse them in
+			// the same pass that finds the delimiter.
+			v, end, ok = scanField(line, pos, delim)
+			if ok && d == 1 {
+				hi = edgeMemo{line[pos:end], v}
+			}
+		}
 		if !ok {
 			if plain {
 				if err := checkText(p.name, rel, line); err != nil {
@@ -306,7 +328,6 @@ func (p *rowParser) row(b *block, rel int, line []byte, plain bool) *Error {
 				return Errorf(p.name, rel, start+1, "column %q: %s", p.header[k], msg)
 			}
 		}
-		d := p.dest[k]
 		b.cols[d] = append(b.cols[d], v)
 		k++
 		if end >= len(line) {
@@ -317,6 +338,7 @@ func (p *rowParser) row(b *block, rel int, line []byte, plain bool) *Error {
 	if k != len(p.header) {
 		return raggedErr(p.name, rel, line, delim, len(p.header))
 	}
+	*prev = hi
 	return nil
 }
 

@@ -3,8 +3,11 @@ package table
 import (
 	"bytes"
 	"fmt"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -213,6 +216,62 @@ func TestLineNumbers(t *testing.T) {
 		for i, w := range c.want {
 			if got := tb.line(i); got != w {
 				t.Errorf("%q: bin %d on line %d, want %d", c.in, i, got, w)
+			}
+		}
+	}
+}
+
+// TestEdgeReuse: a lower edge written as the same text as the upper edge
+// before it is taken without parsing; every other spelling is parsed. The
+// edges read must be exactly strconv's values of their own text, in either
+// column order, with blanks, gaps, and rows split over blocks of any size.
+func TestEdgeReuse(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 2))
+	for trial := 0; trial < 200; trial++ {
+		hiFirst := trial%2 == 1
+		var sb strings.Builder
+		if hiFirst {
+			sb.WriteString("hi,y,lo,e\n")
+		} else {
+			sb.WriteString("lo,hi,y,e\n")
+		}
+		var wantLo, wantHi []float64
+		x := rng.Float64()
+		prevText := strconv.FormatFloat(x, 'g', -1, 64)
+		for r := 0; r < 50; r++ {
+			loText := prevText
+			switch rng.IntN(5) {
+			case 0: // the same value, written otherwise
+				loText = strconv.FormatFloat(x, 'e', 18, 64)
+			case 1: // blanks around it
+				loText = " " + prevText + " "
+			case 2: // a gap: another value
+				x += rng.Float64()
+				loText = strconv.FormatFloat(x, 'g', 17, 64)
+			}
+			lo, _ := strconv.ParseFloat(strings.TrimSpace(loText), 64)
+			x = lo + 0.5 + rng.Float64()
+			hiText := strconv.FormatFloat(x, 'g', -1, 64)
+			if rng.IntN(4) == 0 {
+				hiText = strconv.FormatFloat(x, 'e', 18, 64)
+			}
+			hi, _ := strconv.ParseFloat(hiText, 64)
+			wantLo, wantHi = append(wantLo, lo), append(wantHi, hi)
+			if hiFirst {
+				fmt.Fprintf(&sb, "%s,1,%s,0.1\n", hiText, loText)
+			} else {
+				fmt.Fprintf(&sb, "%s,%s,1,0.1\n", loText, hiText)
+			}
+			prevText = hiText
+		}
+		for _, target := range []int{1, 7, 100, blockBytes} {
+			data := []byte(sb.String())
+			tb, err := parse("edges.csv", bytes.NewReader(data), int64(len(data)), CSVOptions{}, target)
+			if err != nil {
+				t.Fatalf("trial %d, blocks of %d: %v\n%s", trial, target, err, data)
+			}
+			if !slices.Equal(tb.Lo, wantLo) || !slices.Equal(tb.Hi, wantHi) {
+				t.Fatalf("trial %d, blocks of %d: edges differ from strconv's\n%s", trial, target, data)
 			}
 		}
 	}
