@@ -74,7 +74,7 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | a − b | σ\\_d | pull |\n", mdEscape(a), mdEscape(b))
 		fmt.Fprintln(ew, "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
 		for _, i := range idx {
-			fmt.Fprintf(ew, "| %s |\n", strings.Join(binCells(e, i), " | "))
+			fmt.Fprintf(ew, "| %s |\n", strings.Join(binCells(nil, e, i), " | "))
 		}
 	}
 	return ew.err

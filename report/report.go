@@ -246,14 +246,14 @@ func filesShown(e compare.Entry) bool {
 
 // binCells formats one row of a per-bin table: bin number, edges, each
 // side's value and uncertainty, the difference, its uncertainty and the
-// pull. Each value is rounded where its uncertainty has its second
-// significant digit.
-func binCells(e compare.Entry, i int) []string {
+// pull, appended to dst. Each value is rounded where its uncertainty has
+// its second significant digit.
+func binCells(dst []string, e compare.Entry, i int) []string {
 	va, ea := withError(e.A[i], e.ErrA[i])
 	vb, eb := withError(e.B[i], e.ErrB[i])
 	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
 	p := pullText(e.Pulls[i]) // n/a when undefined, ±Inf when infinite
-	return []string{strconv.Itoa(i + 1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p}
+	return append(dst, strconv.Itoa(i+1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p)
 }
 
 // pullText writes a pull with two decimals, so that a column of pulls

@@ -100,7 +100,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		a, b := e.Sides()
 		bins := [][]string{{"bin", "lo", "hi", shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull"}}
 		for _, i := range idx {
-			c := binCells(e, i)
+			c := binCells(nil, e, i)
 			if e.MaxPullBin == i || (st.Color && !passPull(e, i)) {
 				c[9] = paint(st, ansiBold, c[9])
 			}

@@ -1,0 +1,149 @@
+package report
+
+import (
+	"io"
+	"math"
+	"strconv"
+	"strings"
+)
+
+// page is the buffer the HTML renderer appends to: the figures of a large
+// campaign are millions of coordinates, and formatting each through fmt
+// costs more than everything else together. The methods return the page
+// so that an element reads as one chain.
+type page struct {
+	b []byte
+	w io.Writer
+	// err is the first write error; later writes are dropped.
+	err error
+	// scratch is a reusable buffer for a path drawn while its elements
+	// are written.
+	scratch []byte
+}
+
+// flushAt is the buffered size at which [page.maybeFlush] passes the
+// page on to its writer.
+const flushAt = 1 << 18
+
+func newPage(w io.Writer) *page { return &page{b: make([]byte, 0, flushAt+flushAt/2), w: w} }
+
+// s appends x as it is.
+func (p *page) s(x string) *page {
+	p.b = append(p.b, x...)
+	return p
+}
+
+// e appends x escaped for HTML text and attributes, as
+// [html.EscapeString] does.
+func (p *page) e(x string) *page {
+	p.b = appendEscaped(p.b, x)
+	return p
+}
+
+// f1 appends x as fmt's %.1f writes it.
+func (p *page) f1(x float64) *page {
+	p.b = appendF1(p.b, x)
+	return p
+}
+
+// g appends x as fmt's %g writes it.
+func (p *page) g(x float64) *page {
+	p.b = appendG(p.b, x)
+	return p
+}
+
+// d appends an integer.
+func (p *page) d(n int) *page {
+	p.b = strconv.AppendInt(p.b, int64(n), 10)
+	return p
+}
+
+// nums appends tmpl with each '%' in it replaced by the next of xs as
+// %.1f writes it: the shape of an SVG element with its coordinates.
+func (p *page) nums(tmpl string, xs ...float64) *page {
+	for _, x := range xs {
+		i := strings.IndexByte(tmpl, '%')
+		if i < 0 {
+			break
+		}
+		p.b = appendF1(append(p.b, tmpl[:i]...), x)
+		tmpl = tmpl[i+1:]
+	}
+	p.b = append(p.b, tmpl...)
+	return p
+}
+
+// maybeFlush writes the page out once it is large.
+func (p *page) maybeFlush() {
+	if len(p.b) >= flushAt {
+		p.flush()
+	}
+}
+
+// flush writes the page out and empties it.
+func (p *page) flush() error {
+	if p.err == nil && len(p.b) > 0 {
+		_, p.err = p.w.Write(p.b)
+	}
+	p.b = p.b[:0]
+	return p.err
+}
+
+// appendF1 appends x with one decimal, exactly as strconv.AppendFloat(b,
+// x, 'f', 1, 64) (and so fmt's %.1f) does. Below 10⁸ it rounds 10x to
+// an integer itself: a decimal tie cannot occur (x = (2k+1)/20 has a
+// factor 5 in its denominator, no float64 has), the product 10x is off
+// by at most 10⁹·2⁻⁵³ ≈ 1.1·10⁻⁷, and when it lies within 10⁻⁶ of a half,
+// where that error could matter, strconv decides.
+func appendF1(b []byte, x float64) []byte {
+	a := math.Abs(x)
+	if !(a < 1e8) {
+		return strconv.AppendFloat(b, x, 'f', 1, 64)
+	}
+	t := a * 10
+	fl := math.Floor(t)
+	if fr := t - fl; math.Abs(fr-0.5) < 1e-6 {
+		return strconv.AppendFloat(b, x, 'f', 1, 64)
+	}
+	n := int64(math.Floor(t + 0.5))
+	if math.Signbit(x) {
+		b = append(b, '-')
+	}
+	b = strconv.AppendInt(b, n/10, 10)
+	return append(b, '.', byte('0'+n%10))
+}
+
+// appendG appends x in the shortest form, as strconv.AppendFloat(b, x,
+// 'g', -1, 64) (and so fmt's %g) does; integers below 10⁶ (which 'g'
+// writes as integers) take a short cut.
+func appendG(b []byte, x float64) []byte {
+	if x == math.Trunc(x) && math.Abs(x) < 1e6 && !(x == 0 && math.Signbit(x)) {
+		return strconv.AppendInt(b, int64(x), 10)
+	}
+	return strconv.AppendFloat(b, x, 'g', -1, 64)
+}
+
+// appendEscaped appends s with <, >, &, ' and " escaped as
+// [html.EscapeString] escapes them.
+func appendEscaped(b []byte, s string) []byte {
+	for {
+		i := strings.IndexAny(s, `<>&'"`)
+		if i < 0 {
+			return append(b, s...)
+		}
+		b = append(b, s[:i]...)
+		switch s[i] {
+		case '<':
+			b = append(b, "&lt;"...)
+		case '>':
+			b = append(b, "&gt;"...)
+		case '&':
+			b = append(b, "&amp;"...)
+		case '\'':
+			b = append(b, "&#39;"...)
+		case '"':
+			b = append(b, "&#34;"...)
+		}
+		s = s[i+1:]
+	}
+}

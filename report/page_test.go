@@ -1,0 +1,65 @@
+package report
+
+import (
+	"fmt"
+	"html"
+	"math"
+	"math/rand/v2"
+	"strconv"
+	"testing"
+)
+
+// The fast formatters must write what fmt and the standard library write;
+// strconv, fmt and html are the references.
+func checkFormatters(t *testing.T, x float64) {
+	t.Helper()
+	if got, want := string(appendF1(nil, x)), fmt.Sprintf("%.1f", x); got != want {
+		t.Errorf("appendF1(%v) = %q, fmt %%.1f writes %q", x, got, want)
+	}
+	if got, want := string(appendG(nil, x)), fmt.Sprintf("%g", x); got != want {
+		t.Errorf("appendG(%v) = %q, fmt %%g writes %q", x, got, want)
+	}
+}
+
+func TestFormattersMatchFmt(t *testing.T) {
+	special := []float64{0, math.Copysign(0, -1), 0.05, -0.05, 0.04999999999999999, 0.15, 0.25, 0.35, 0.45, 1.05, 2.675, -2.675,
+		9.95, 99.95, 999.95, 1e8 - 0.05, 1e8, 1e8 + 0.05, 123456, 999999, 1e6, -1e6, 1e21, 1e-5, 0.1 + 0.2, 1.0 / 3,
+		math.NaN(), math.Inf(1), math.Inf(-1), math.MaxFloat64, math.SmallestNonzeroFloat64, 4503599627370496.5, -7.25}
+	for _, x := range special {
+		checkFormatters(t, x)
+	}
+	// every multiple of 0.05 up to 2·10⁵, where a tie would lie if
+	// there were one
+	for k := -4_000_000; k <= 4_000_000; k++ {
+		x := float64(k) * 0.05
+		if got, want := string(appendF1(nil, x)), strconv.FormatFloat(x, 'f', 1, 64); got != want {
+			t.Fatalf("appendF1(%v) = %q, strconv writes %q", x, got, want)
+		}
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	for range 200_000 {
+		x := (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(24)-8))
+		checkFormatters(t, x)
+		checkFormatters(t, math.Round(x))
+	}
+}
+
+func TestEscapedMatchesHTML(t *testing.T) {
+	for _, s := range []string{"", "plain", `<a href="x">&'</a>`, "a&&b", "\u202e<", "x'y\"z>"} {
+		if got, want := string(appendEscaped(nil, s)), html.EscapeString(s); got != want {
+			t.Errorf("appendEscaped(%q) = %q, html.EscapeString writes %q", s, got, want)
+		}
+	}
+}
+
+// FuzzFormatters holds the fast formatters to fmt and html on any input.
+func FuzzFormatters(f *testing.F) {
+	f.Add(0.05, "<&>")
+	f.Add(-1234.25, `"'`)
+	f.Fuzz(func(t *testing.T, x float64, s string) {
+		checkFormatters(t, x)
+		if got, want := string(appendEscaped(nil, s)), html.EscapeString(s); got != want {
+			t.Errorf("appendEscaped(%q) = %q, html.EscapeString writes %q", s, got, want)
+		}
+	})
+}
