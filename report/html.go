@@ -138,7 +138,7 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 	figure(p, id, e, limit)
 	p.s("</figure>\n")
 	if _, k := groups(e.Bins); k > 1 {
-		p.s(`<p class="note">`).d(e.Bins).s(" bins are drawn as ").d((e.Bins+k-1)/k).s(" groups of ").d(k).
+		p.s(`<p class="note">`).d(e.Bins).s(" bins are drawn as ").d((e.Bins + k - 1) / k).s(" groups of ").d(k).
 			s(" consecutive bins: in the values and ratio panels each group spans its lowest to its highest value, the pull panel shows each group's largest |pull|; the histogram, the statistics and the JSON report use every bin.</p>\n")
 	}
 	used := pullsUsed(e)
