@@ -2,7 +2,6 @@ package report
 
 import (
 	"bytes"
-	"encoding/json"
 	"io"
 	"math"
 	"strconv"
@@ -115,7 +114,9 @@ type jsonEntry struct {
 
 // JSONValue builds the JSON document of s as a value, for callers that
 // embed or hash it.
-func JSONValue(s *compare.Summary) any {
+func JSONValue(s *compare.Summary) any { return jsonValue(s) }
+
+func jsonValue(s *compare.Summary) jsonSummary {
 	out := jsonSummary{Verdict: s.Verdict(), Title: s.Title, Campaign: s.Campaign, Notes: s.Notes,
 		Accepted: s.Accepted, Observables: []jsonEntry{}}
 	if out.Accepted == nil {
@@ -254,7 +255,13 @@ func appendJSONNumber(b []byte, v float64) []byte {
 
 // JSON writes s as one indented JSON object followed by a newline.
 func JSON(w io.Writer, s *compare.Summary) error {
-	enc := json.NewEncoder(jsonEscaper{w})
-	enc.SetIndent("", "  ")
-	return enc.Encode(JSONValue(s))
+	size := 4096
+	for _, e := range s.Entries {
+		size += 2048 + 9*20*e.Bins
+	}
+	j := jsonWriter{b: make([]byte, 0, size)}
+	j.summary(jsonValue(s))
+	j.b = append(j.b, '\n')
+	_, err := w.Write(j.b)
+	return err
 }
