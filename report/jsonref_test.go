@@ -65,7 +65,7 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 	odd := &compare.Summary{Title: "odd", Accepted: []compare.Acceptance{{Reason: "nil by"}}}
 	for i, c := range [][4][]float64{
 		{{1e300, 1, 1, 2}, {1e-10, 1, 0, 0}, {-1e300, 1.5, 2, 2}, {1e-10, 1, 0, 0}}, // ±Inf and NaN pulls
-		{{5, 6}, {0.5, 0.5}, {5, 6}, {0.5, 0.5}},                                   // ndf 0 with ρ = 1
+		{{5, 6}, {0.5, 0.5}, {5, 6}, {0.5, 0.5}},                                    // ndf 0 with ρ = 1
 		{{1e-9, 2e-7, 3e22}, {1e-10, 1e-8, 1e21}, {1.1e-9, 2e-7, 3.1e22}, {1e-10, 1e-8, 1e21}},
 		{{-0.0, 0, 1}, {1, 1, 1}, {0, 1e-300, 1}, {1, 1, 1}},
 	} {
