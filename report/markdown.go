@@ -11,7 +11,7 @@ import (
 // Markdown writes the verdict, a criteria table and a per-bin table for
 // each comparison, ready to paste into a meeting page or a merge request.
 func Markdown(w io.Writer, s *compare.Summary, st Style) error {
-	ew := &errWriter{w: w}
+	ew := newPage(w)
 	word := "agree"
 	if !s.Pass() {
 		word = "**disagree**"
@@ -32,11 +32,12 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	}
 	fmt.Fprintln(ew, "| comparison | verdict | χ²/ndf | p-value | max \\|pull\\| |")
 	fmt.Fprintln(ew, "| --- | --- | ---: | ---: | ---: |")
-	for _, e := range ordered(s) {
-		fmt.Fprintf(ew, "| %s | %s | %s | %s | %s |\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass),
-			chi2NDF(e), pval(e.PValue), num(e.MaxAbsPull))
+	entries := ordered(s)
+	for _, e := range entries {
+		ew.s("| ").s(mdEscape(entryTitle(e))).s(" | ").s(mdVerdict(e.Pass)).s(" | ").s(chi2NDF(e)).s(" | ").s(pval(e.PValue)).s(" | ").s(num(e.MaxAbsPull)).s(" |\n")
 	}
-	for _, e := range ordered(s) {
+	var cells []string
+	for _, e := range entries {
 		fmt.Fprintf(ew, "\n### %s: %s\n\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass))
 		if e.Title != "" {
 			fmt.Fprintf(ew, "%s\n\n", mdEscape(e.Title))
@@ -74,10 +75,16 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | a − b | σ\\_d | pull |\n", mdEscape(a), mdEscape(b))
 		fmt.Fprintln(ew, "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
 		for _, i := range idx {
-			fmt.Fprintf(ew, "| %s |\n", strings.Join(binCells(nil, e, i), " | "))
+			cells = binCells(cells[:0], e, i)
+			ew.s("|")
+			for _, c := range cells {
+				ew.s(" ").s(c).s(" |")
+			}
+			ew.s("\n")
 		}
+		ew.maybeFlush()
 	}
-	return ew.err
+	return ew.flush()
 }
 
 func capitalize(s string) string {

@@ -7,9 +7,10 @@ import (
 	"strings"
 )
 
-// page is the buffer the HTML renderer appends to: the figures of a large
-// campaign are millions of coordinates, and formatting each through fmt
-// costs more than everything else together. The methods return the page
+// page is the buffer the renderers append to: the figures of a large
+// campaign are millions of coordinates and its tables hundreds of
+// thousands of cells, and formatting each through fmt costs more than
+// everything else together. The methods return the page
 // so that an element reads as one chain.
 type page struct {
 	b []byte
@@ -52,6 +53,14 @@ func (p *page) g(x float64) *page {
 	return p
 }
 
+// spaces appends n spaces.
+func (p *page) spaces(n int) *page {
+	for range n {
+		p.b = append(p.b, ' ')
+	}
+	return p
+}
+
 // d appends an integer.
 func (p *page) d(n int) *page {
 	p.b = strconv.AppendInt(p.b, int64(n), 10)
@@ -73,6 +82,12 @@ func (p *page) nums(tmpl string, xs ...float64) *page {
 	return p
 }
 
+// Write appends b, so that fmt can print to the page.
+func (p *page) Write(b []byte) (int, error) {
+	p.b = append(p.b, b...)
+	return len(b), nil
+}
+
 // maybeFlush writes the page out once it is large.
 func (p *page) maybeFlush() {
 	if len(p.b) >= flushAt {
@@ -90,27 +105,61 @@ func (p *page) flush() error {
 }
 
 // appendF1 appends x with one decimal, exactly as strconv.AppendFloat(b,
-// x, 'f', 1, 64) (and so fmt's %.1f) does. Below 10⁸ it rounds 10x to
-// an integer itself: a decimal tie cannot occur (x = (2k+1)/20 has a
-// factor 5 in its denominator, no float64 has), the product 10x is off
-// by at most 10⁹·2⁻⁵³ ≈ 1.1·10⁻⁷, and when it lies within 10⁻⁶ of a half,
-// where that error could matter, strconv decides.
-func appendF1(b []byte, x float64) []byte {
-	a := math.Abs(x)
-	if !(a < 1e8) {
-		return strconv.AppendFloat(b, x, 'f', 1, 64)
+// x, 'f', 1, 64) (and so fmt's %.1f) does.
+func appendF1(b []byte, x float64) []byte { return appendFixed(b, x, 1) }
+
+// pow10 are the powers of ten appendFixed works with, all exact.
+var pow10 = [...]float64{1, 10, 100, 1000, 1e4, 1e5, 1e6}
+
+// appendFixed appends x with the given number of decimals, exactly as
+// strconv.AppendFloat(b, x, 'f', places, 64) does. When x·10^places is
+// below 10⁹ it rounds that product to an integer itself. With decimals, a
+// decimal tie cannot occur (x = (2k+1)/(2·10^places) has a factor 5 in its
+// denominator, no float64 has), the product is off by at most
+// 10⁹·2⁻⁵³ ≈ 1.1·10⁻⁷, and when it lies within 10⁻⁶ of a half, where that
+// error could matter, strconv decides. Without decimals the product is x
+// itself, exact, and a tie goes to the even integer as strconv rounds it.
+func appendFixed(b []byte, x float64, places int) []byte {
+	if places < 0 || places >= len(pow10) {
+		return strconv.AppendFloat(b, x, 'f', places, 64)
 	}
-	t := a * 10
-	fl := math.Floor(t)
-	if fr := t - fl; math.Abs(fr-0.5) < 1e-6 {
-		return strconv.AppendFloat(b, x, 'f', 1, 64)
+	t := math.Abs(x) * pow10[places]
+	if !(t < 1e9) {
+		return strconv.AppendFloat(b, x, 'f', places, 64)
 	}
-	n := int64(math.Floor(t + 0.5))
+	var n int64
+	if places == 0 {
+		n = int64(math.RoundToEven(t))
+	} else {
+		if fr := t - math.Floor(t); math.Abs(fr-0.5) < 1e-6 {
+			return strconv.AppendFloat(b, x, 'f', places, 64)
+		}
+		n = int64(math.Floor(t + 0.5))
+	}
 	if math.Signbit(x) {
 		b = append(b, '-')
 	}
-	b = strconv.AppendInt(b, n/10, 10)
-	return append(b, '.', byte('0'+n%10))
+	if places == 0 {
+		return strconv.AppendInt(b, n, 10)
+	}
+	p := int64(pow10[places])
+	b = strconv.AppendInt(b, n/p, 10)
+	b = append(b, '.')
+	frac := n % p
+	for d := p / 10; d > 0; d /= 10 {
+		b = append(b, byte('0'+frac/d%10))
+	}
+	return b
+}
+
+// appendG6 appends x with six significant digits, as
+// strconv.AppendFloat(b, x, 'g', 6, 64) does; integers below 10⁶ (which
+// it writes as integers) take a short cut.
+func appendG6(b []byte, x float64) []byte {
+	if x == math.Trunc(x) && math.Abs(x) < 1e6 && !(x == 0 && math.Signbit(x)) {
+		return strconv.AppendInt(b, int64(x), 10)
+	}
+	return strconv.AppendFloat(b, x, 'g', 6, 64)
 }
 
 // appendG appends x in the shortest form, as strconv.AppendFloat(b, x,

@@ -19,25 +19,42 @@ func checkFormatters(t *testing.T, x float64) {
 	if got, want := string(appendG(nil, x)), fmt.Sprintf("%g", x); got != want {
 		t.Errorf("appendG(%v) = %q, fmt %%g writes %q", x, got, want)
 	}
+	if got, want := string(appendG6(nil, x)), strconv.FormatFloat(x, 'g', 6, 64); got != want {
+		t.Errorf("appendG6(%v) = %q, strconv writes %q", x, got, want)
+	}
+	for p := -1; p <= 7; p++ {
+		if got, want := string(appendFixed(nil, x, p)), strconv.FormatFloat(x, 'f', p, 64); got != want {
+			t.Errorf("appendFixed(%v, %d) = %q, strconv writes %q", x, p, got, want)
+		}
+	}
 }
 
 func TestFormattersMatchFmt(t *testing.T) {
 	special := []float64{0, math.Copysign(0, -1), 0.05, -0.05, 0.04999999999999999, 0.15, 0.25, 0.35, 0.45, 1.05, 2.675, -2.675,
-		9.95, 99.95, 999.95, 1e8 - 0.05, 1e8, 1e8 + 0.05, 123456, 999999, 1e6, -1e6, 1e21, 1e-5, 0.1 + 0.2, 1.0 / 3,
+		9.95, 99.95, 999.95, 1e8 - 0.05, 1e8, 1e8 + 0.05, 1e9, 999999999.5, 0.5, 1.5, 2.5, -2.5, 0.125, 0.0625, 1.005, 99.995, 0.0005, 123456, 999999, 1e6, -1e6, 1e21, 1e-5, 0.1 + 0.2, 1.0 / 3,
 		math.NaN(), math.Inf(1), math.Inf(-1), math.MaxFloat64, math.SmallestNonzeroFloat64, 4503599627370496.5, -7.25}
 	for _, x := range special {
 		checkFormatters(t, x)
 	}
-	// every multiple of 0.05 up to 2·10⁵, where a tie would lie if
-	// there were one
-	for k := -4_000_000; k <= 4_000_000; k++ {
+	// every multiple of 0.05 up to 10⁵, where a tie would lie if there
+	// were one, and the halves of the last place for up to four decimals
+	for k := -2_000_000; k <= 2_000_000; k++ {
 		x := float64(k) * 0.05
 		if got, want := string(appendF1(nil, x)), strconv.FormatFloat(x, 'f', 1, 64); got != want {
 			t.Fatalf("appendF1(%v) = %q, strconv writes %q", x, got, want)
 		}
+		if k%4 != 0 {
+			continue
+		}
+		for p := range 5 {
+			x := (float64(k/4) + 0.5) / pow10[p]
+			if got, want := string(appendFixed(nil, x, p)), strconv.FormatFloat(x, 'f', p, 64); got != want {
+				t.Fatalf("appendFixed(%v, %d) = %q, strconv writes %q", x, p, got, want)
+			}
+		}
 	}
 	rng := rand.New(rand.NewPCG(1, 2))
-	for range 200_000 {
+	for range 50_000 {
 		x := (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(24)-8))
 		checkFormatters(t, x)
 		checkFormatters(t, math.Round(x))

@@ -86,11 +86,21 @@ func pval(p float64) string {
 	if p < 1e-2 && p > 0 {
 		return strconv.FormatFloat(p, 'e', 2, 64)
 	}
-	return strconv.FormatFloat(p, 'f', 4, 64)
+	return fixed(p, 4)
+}
+
+// fixed formats v with the given number of decimals, as
+// strconv.FormatFloat(v, 'f', places, 64) does.
+func fixed(v float64, places int) string {
+	var a [32]byte
+	return string(appendFixed(a[:0], v, places))
 }
 
 // val formats a table value exactly enough to read: six significant digits.
-func val(v float64) string { return strconv.FormatFloat(v, 'g', 6, 64) }
+func val(v float64) string {
+	var a [32]byte
+	return string(appendG6(a[:0], v))
+}
 
 // rows picks the bins a human table shows: all of them up to the limit,
 // else the worst by |pull| in bin order, and whether rows were left out.
@@ -260,7 +270,7 @@ func binCells(dst []string, e compare.Entry, i int) []string {
 // lines up on the decimal point; huge ones keep four significant digits.
 func pullText(p float64) string {
 	if math.Abs(p) < 1000 {
-		return strconv.FormatFloat(p, 'f', 2, 64)
+		return fixed(p, 2)
 	}
 	return num(p)
 }
@@ -282,7 +292,7 @@ func withError(v, e float64) (string, string) {
 		if last > 0 {
 			v, e = math.Round(v/q)*q, math.Round(e/q)*q
 		}
-		return strconv.FormatFloat(v, 'f', places, 64), strconv.FormatFloat(e, 'f', places, 64)
+		return fixed(v, places), fixed(e, places)
 	}
 	ve := last + 1
 	if v != 0 {
