@@ -600,9 +600,10 @@ func histSVG(w *page, id string, e compare.Entry, used []float64, logY bool) {
 		w.nums(`<text class="overflow-note" x="%" y="%" text-anchor="middle" font-size="`, f.px(o.at), f.py(o.c)-8).g(tickFont).s(`">`).e(o.text).s(": ").s(num(o.c)).s("</text>\n")
 	}
 	w.s(`<polyline points="`)
+	c := w.normalCurve(f, R)
 	sep := false
-	for x := -R; x <= R+1e-9; x += 0.05 {
-		y := n * width * math.Exp(-x*x/2) / math.Sqrt(2*math.Pi)
+	for i, g := range c.gauss {
+		y := n * width * g / math.Sqrt(2*math.Pi)
 		if logY && y < f.y0 {
 			continue
 		}
@@ -610,10 +611,42 @@ func histSVG(w *page, id string, e compare.Entry, used []float64, logY bool) {
 			w.b = append(w.b, ' ')
 		}
 		sep = true
-		w.f1(f.px(x)).s(",").f1(f.py(y))
+		w.s(c.px[i]).s(",").f1(f.py(y))
 	}
 	w.s(`" fill="none" stroke="` + colorOut + `" stroke-width="2"/>` + "\n")
 	w.s("</svg>\n")
+}
+
+// curve is the normal curve of a pull histogram over ±R: exp(−x²/2) at
+// x = −R, −R + 0.05, … up to R, and each x as a coordinate of the figure.
+// Pages of many comparisons draw it over a handful of axes, so
+// [page.normalCurve] computes it once for each.
+type curve struct {
+	gauss []float64
+	px    []string
+}
+
+type curveKey struct{ r, x0, x1 float64 }
+
+// normalCurve returns the curve over ±R for the histogram frame f; of a
+// histogram's frame only the x range varies.
+func (w *page) normalCurve(f *frame, R float64) *curve {
+	key := curveKey{R, f.x0, f.x1}
+	if c, ok := w.curves[key]; ok {
+		return c
+	}
+	c := &curve{}
+	var buf []byte
+	for x := -R; x <= R+1e-9; x += 0.05 {
+		c.gauss = append(c.gauss, math.Exp(-x*x/2))
+		buf = appendF1(buf[:0], f.px(x))
+		c.px = append(c.px, string(buf))
+	}
+	if w.curves == nil {
+		w.curves = map[curveKey]*curve{}
+	}
+	w.curves[key] = c
+	return c
 }
 
 // pullsUsed returns the pulls of the bins that carry one (none without

@@ -20,6 +20,8 @@ type page struct {
 	// scratch is a reusable buffer for a path drawn while its elements
 	// are written.
 	scratch []byte
+	// curves holds the normal curves of the pull histograms drawn so far.
+	curves map[curveKey]*curve
 }
 
 // flushAt is the buffered size at which [page.maybeFlush] passes the
@@ -120,36 +122,53 @@ var pow10 = [...]float64{1, 10, 100, 1000, 1e4, 1e5, 1e6}
 // error could matter, strconv decides. Without decimals the product is x
 // itself, exact, and a tie goes to the even integer as strconv rounds it.
 func appendFixed(b []byte, x float64, places int) []byte {
-	if places < 0 || places >= len(pow10) {
+	if uint(places) >= uint(len(pow10)) {
 		return strconv.AppendFloat(b, x, 'f', places, 64)
 	}
-	t := math.Abs(x) * pow10[places]
+	neg := math.Signbit(x)
+	t := x * pow10[places]
+	if neg {
+		t = -t
+	}
 	if !(t < 1e9) {
 		return strconv.AppendFloat(b, x, 'f', places, 64)
 	}
-	var n int64
+	var n uint64
 	if places == 0 {
-		n = int64(math.RoundToEven(t))
+		n = uint64(math.RoundToEven(t))
 	} else {
-		if fr := t - math.Floor(t); math.Abs(fr-0.5) < 1e-6 {
+		n = uint64(t)
+		switch fr := t - float64(n); {
+		case fr > 0.5-1e-6 && fr < 0.5+1e-6:
 			return strconv.AppendFloat(b, x, 'f', places, 64)
+		case fr > 0.5:
+			n++
 		}
-		n = int64(math.Floor(t + 0.5))
 	}
-	if math.Signbit(x) {
-		b = append(b, '-')
+	var d [24]byte
+	i := len(d)
+	for range places {
+		i--
+		d[i] = byte('0' + n%10)
+		n /= 10
 	}
-	if places == 0 {
-		return strconv.AppendInt(b, n, 10)
+	if places > 0 {
+		i--
+		d[i] = '.'
 	}
-	p := int64(pow10[places])
-	b = strconv.AppendInt(b, n/p, 10)
-	b = append(b, '.')
-	frac := n % p
-	for d := p / 10; d > 0; d /= 10 {
-		b = append(b, byte('0'+frac/d%10))
+	for {
+		i--
+		d[i] = byte('0' + n%10)
+		n /= 10
+		if n == 0 {
+			break
+		}
 	}
-	return b
+	if neg {
+		i--
+		d[i] = '-'
+	}
+	return append(b, d[i:]...)
 }
 
 // appendG6 appends x with six significant digits, as
