@@ -43,12 +43,16 @@ type frame struct {
 	// xTicks, when set, limits the x ticks to this range (a histogram's
 	// overflow bars lie outside the axis proper).
 	xTicks *[2]float64
+	// log holds log₁₀ of x0, x1, y0 and y1 for log axes, once logged.
+	log    [4]float64
+	logged bool
 }
 
 func (f *frame) px(x float64) float64 {
 	x0, x1 := f.x0, f.x1
 	if f.logX {
-		x, x0, x1 = math.Log10(math.Max(x, f.x0)), math.Log10(x0), math.Log10(x1)
+		f.logs()
+		x, x0, x1 = math.Log10(math.Max(x, f.x0)), f.log[0], f.log[1]
 	}
 	return f.left + (x-x0)/(x1-x0)*(f.w-f.left-f.right)
 }
@@ -56,9 +60,19 @@ func (f *frame) px(x float64) float64 {
 func (f *frame) py(y float64) float64 {
 	y0, y1 := f.y0, f.y1
 	if f.logY {
-		y, y0, y1 = math.Log10(math.Max(y, f.y0)), math.Log10(y0), math.Log10(y1)
+		f.logs()
+		y, y0, y1 = math.Log10(math.Max(y, f.y0)), f.log[2], f.log[3]
 	}
 	return f.h - f.bottom - (y-y0)/(y1-y0)*(f.h-f.top-f.bottom)
+}
+
+// logs fills f.log once the axes' ranges are known (a frame's range does
+// not change once drawing starts).
+func (f *frame) logs() {
+	if !f.logged {
+		f.log = [4]float64{math.Log10(f.x0), math.Log10(f.x1), math.Log10(f.y0), math.Log10(f.y1)}
+		f.logged = true
+	}
 }
 
 // clampY limits y to the plot range and says whether it was outside.

@@ -59,7 +59,15 @@ details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 // per-bin table. Above 2000 bins the per-bin panels are decimated and the
 // page says how.
 func HTML(w io.Writer, s *compare.Summary) error {
-	p := newPage(w)
+	size := 8192
+	for _, e := range s.Entries {
+		// about what the figures and the table of one comparison take
+		if e.Result != nil {
+			gs, _ := groups(e.Bins)
+			size += 16384 + 1100*len(gs) + 180*min(e.Bins, maxTableRows)
+		}
+	}
+	p := newPage(w, size)
 	title := s.Title
 	if title == "" {
 		title = "tandem cross-check"

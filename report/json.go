@@ -257,11 +257,13 @@ func appendJSONNumber(b []byte, v float64) []byte {
 func JSON(w io.Writer, s *compare.Summary) error {
 	size := 4096
 	for _, e := range s.Entries {
-		size += 2048 + 9*20*e.Bins
+		if e.Result != nil {
+			size += 4096 + 200*e.Bins
+		}
 	}
-	j := jsonWriter{b: make([]byte, 0, size)}
+	p := newPage(w, size)
+	j := jsonWriter{b: p.b}
 	j.summary(jsonValue(s))
-	j.b = append(j.b, '\n')
-	_, err := w.Write(j.b)
-	return err
+	p.b = append(j.b, '\n')
+	return p.flush()
 }

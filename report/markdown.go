@@ -11,7 +11,7 @@ import (
 // Markdown writes the verdict, a criteria table and a per-bin table for
 // each comparison, ready to paste into a meeting page or a merge request.
 func Markdown(w io.Writer, s *compare.Summary, st Style) error {
-	ew := newPage(w)
+	ew := newPage(w, mdSize(s, st))
 	word := "agree"
 	if !s.Pass() {
 		word = "**disagree**"
@@ -104,3 +104,18 @@ func mdVerdict(pass bool) string {
 var mdReplacer = strings.NewReplacer("|", "\\|", "<", "&lt;", ">", "&gt;", "*", "\\*", "_", "\\_", "`", "\\`", "\n", " ")
 
 func mdEscape(s string) string { return mdReplacer.Replace(s) }
+
+// mdSize is about the size of the text or Markdown report of s.
+func mdSize(s *compare.Summary, st Style) int {
+	limit := st.MaxRows
+	if limit <= 0 {
+		limit = 200
+	}
+	size := 4096
+	for _, e := range s.Entries {
+		if e.Result != nil {
+			size += 1024 + 100*min(e.Bins, limit)
+		}
+	}
+	return size
+}

@@ -1,6 +1,7 @@
 package report
 
 import (
+	"bytes"
 	"io"
 	"math"
 	"strconv"
@@ -15,6 +16,9 @@ import (
 type page struct {
 	b []byte
 	w io.Writer
+	// buf is w when it is a bytes.Buffer: then the page is built in the
+	// buffer's own spare room, and passed on once at the end, with no copy.
+	buf *bytes.Buffer
 	// err is the first write error; later writes are dropped.
 	err error
 	// scratch is a reusable buffer for a path drawn while its elements
@@ -28,7 +32,17 @@ type page struct {
 // page on to its writer.
 const flushAt = 1 << 18
 
-func newPage(w io.Writer) *page { return &page{b: make([]byte, 0, flushAt+flushAt/2), w: w} }
+// newPage starts a page for w, expected to grow to about size bytes.
+func newPage(w io.Writer, size int) *page {
+	p := &page{w: w}
+	if bb, ok := w.(*bytes.Buffer); ok {
+		bb.Grow(size)
+		p.buf, p.b = bb, bb.AvailableBuffer()
+		return p
+	}
+	p.b = make([]byte, 0, min(size, flushAt+flushAt/2))
+	return p
+}
 
 // s appends x as it is.
 func (p *page) s(x string) *page {
@@ -92,7 +106,7 @@ func (p *page) Write(b []byte) (int, error) {
 
 // maybeFlush writes the page out once it is large.
 func (p *page) maybeFlush() {
-	if len(p.b) >= flushAt {
+	if p.buf == nil && len(p.b) >= flushAt {
 		p.flush()
 	}
 }
@@ -102,7 +116,11 @@ func (p *page) flush() error {
 	if p.err == nil && len(p.b) > 0 {
 		_, p.err = p.w.Write(p.b)
 	}
-	p.b = p.b[:0]
+	if p.buf != nil {
+		p.b = p.buf.AvailableBuffer()
+	} else {
+		p.b = p.b[:0]
+	}
 	return p.err
 }
 
@@ -191,16 +209,20 @@ func appendG(b []byte, x float64) []byte {
 	return strconv.AppendFloat(b, x, 'g', -1, 64)
 }
 
+// htmlSpecial marks the bytes [html.EscapeString] escapes.
+var htmlSpecial = [256]bool{'<': true, '>': true, '&': true, '\'': true, '"': true}
+
 // appendEscaped appends s with <, >, &, ' and " escaped as
 // [html.EscapeString] escapes them.
 func appendEscaped(b []byte, s string) []byte {
-	for {
-		i := strings.IndexAny(s, `<>&'"`)
-		if i < 0 {
-			return append(b, s...)
+	start := 0
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if !htmlSpecial[c] {
+			continue
 		}
-		b = append(b, s[:i]...)
-		switch s[i] {
+		b = append(b, s[start:i]...)
+		switch c {
 		case '<':
 			b = append(b, "&lt;"...)
 		case '>':
@@ -212,6 +234,7 @@ func appendEscaped(b []byte, s string) []byte {
 		case '"':
 			b = append(b, "&#34;"...)
 		}
-		s = s[i+1:]
+		start = i + 1
 	}
+	return append(b, s[start:]...)
 }

@@ -34,7 +34,7 @@ func verdictWord(st Style, pass bool) string {
 // disagreement beside it, one line per comparison, then for each
 // comparison its criteria (in a fixed order), warnings and a per-bin table.
 func Text(w io.Writer, s *compare.Summary, st Style) error {
-	ew := newPage(w)
+	ew := newPage(w, mdSize(s, st))
 	pass := s.Pass()
 	fmt.Fprintf(ew, "verdict: %s", verdictWord(st, pass))
 	if !pass {
