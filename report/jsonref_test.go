@@ -147,3 +147,39 @@ func FuzzJSONWriter(f *testing.F) {
 		}
 	})
 }
+
+// jsonNumberRef is the JSON number as encoding/json's float encoder writes
+// it: shortest 'f', or 'e' below 1e-6 and from 1e21 on with "e-07"
+// shortened to "e-7".
+func jsonNumberRef(v float64) string {
+	b, _ := json.Marshal(v)
+	return string(b)
+}
+
+// TestJSONNumbersMatchEncoding: the short cuts for integers and short
+// decimals write what encoding/json writes, at and around their limits.
+func TestJSONNumbersMatchEncoding(t *testing.T) {
+	check := func(v float64) {
+		t.Helper()
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return
+		}
+		if got, want := string(appendJSONNumber(nil, v)), jsonNumberRef(v); got != want {
+			t.Fatalf("appendJSONNumber(%v) = %s, encoding/json writes %s", v, got, want)
+		}
+	}
+	for _, v := range []float64{0, math.Copysign(0, -1), 1, -1, 0.1, 0.2, 0.3, 0.1 + 0.2, 1e-4, 1.5e-4, 1e-5, 1e-6, 1e-7, 9.9999e8, 1e9 - 0.0001, 1e9, 1e9 + 0.5,
+		1 << 53, 1<<53 - 1, 1<<53 + 2, -(1<<53 - 1), 1e15, 1e20, 1e21, 123.45678, 31.62, 1023, -0.35355339059327373, 2.675, 1.005} {
+		check(v)
+	}
+	rng := rand.New(rand.NewPCG(7, 8))
+	for range 50_000 {
+		scale := math.Pow(10, float64(rng.IntN(14)-4))
+		x := (rng.Float64() - 0.5) * scale
+		check(x)
+		for p := range 6 {
+			check(math.Round(x*pow10[p]) / pow10[p]) // short decimals, and their neighbours
+			check(math.Nextafter(math.Round(x*pow10[p])/pow10[p], math.Inf(1)))
+		}
+	}
+}

@@ -21,7 +21,15 @@ type jsonWriter struct {
 	first bool
 }
 
+// indent is a line break and enough indentation for the deepest level of
+// the document (per-bin lists lie four levels deep).
+const indent = "\n                "
+
 func (j *jsonWriter) newline() {
+	if n := 1 + 2*j.depth; n <= len(indent) {
+		j.b = append(j.b, indent[:n]...)
+		return
+	}
 	j.b = append(j.b, '\n')
 	for range j.depth {
 		j.b = append(j.b, "  "...)
