@@ -126,7 +126,38 @@ func (p *page) flush() error {
 
 // appendF1 appends x with one decimal, exactly as strconv.AppendFloat(b,
 // x, 'f', 1, 64) (and so fmt's %.1f) does.
-func appendF1(b []byte, x float64) []byte { return appendFixed(b, x, 1) }
+// It is appendFixed for one decimal, with the digits of the coordinates
+// of a figure (below 10⁴) written directly.
+func appendF1(b []byte, x float64) []byte {
+	neg := math.Signbit(x)
+	t := x * 10
+	if neg {
+		t = -t
+	}
+	if !(t < 1e9) {
+		return strconv.AppendFloat(b, x, 'f', 1, 64)
+	}
+	n := uint64(t)
+	switch fr := t - float64(n); {
+	case fr > 0.5-1e-6 && fr < 0.5+1e-6:
+		return strconv.AppendFloat(b, x, 'f', 1, 64)
+	case fr > 0.5:
+		n++
+	}
+	if neg {
+		b = append(b, '-')
+	}
+	q, r := n/10, byte('0'+n%10)
+	switch {
+	case q < 10:
+		return append(b, byte('0'+q), '.', r)
+	case q < 100:
+		return append(b, byte('0'+q/10), byte('0'+q%10), '.', r)
+	case q < 1000:
+		return append(b, byte('0'+q/100), byte('0'+q/10%10), byte('0'+q%10), '.', r)
+	}
+	return append(strconv.AppendUint(b, q, 10), '.', r)
+}
 
 // pow10 are the powers of ten appendFixed works with, all exact.
 var pow10 = [...]float64{1, 10, 100, 1000, 1e4, 1e5, 1e6}
