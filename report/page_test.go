@@ -80,3 +80,22 @@ func FuzzFormatters(f *testing.F) {
 		}
 	})
 }
+
+// TestDecade: decade is floor(log₁₀ x) as math.Log10 gives it, also at
+// and next to the powers of ten.
+func TestDecade(t *testing.T) {
+	var xs []float64
+	for k := -8; k <= 9; k++ {
+		p := math.Pow(10, float64(k))
+		xs = append(xs, p, math.Nextafter(p, 0), math.Nextafter(p, 2*p), 2*p, 5*p, 9.999*p, p*(1+1e-12), p*(1-1e-12))
+	}
+	rng := rand.New(rand.NewPCG(3, 3))
+	for range 100_000 {
+		xs = append(xs, math.Pow(10, rng.Float64()*16-7))
+	}
+	for _, x := range xs {
+		if got, want := decade(x), int(math.Floor(math.Log10(x))); got != want {
+			t.Errorf("decade(%v) = %d, math.Log10 gives %d", x, got, want)
+		}
+	}
+}

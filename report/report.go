@@ -284,12 +284,12 @@ func withError(v, e float64) (string, string) {
 	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
 		return val(v), val(e)
 	}
-	last := int(math.Floor(math.Log10(e))) - 1 // decimal exponent of the second digit
+	last := decade(e) - 1 // decimal exponent of the second digit
 	big := math.Max(math.Abs(v), e)
 	if big < 1e6 && e >= 1e-4 {
 		places := max(0, -last)
-		q := math.Pow(10, float64(last))
 		if last > 0 {
+			q := math.Pow(10, float64(last))
 			v, e = math.Round(v/q)*q, math.Round(e/q)*q
 		}
 		return fixed(v, places), fixed(e, places)
@@ -299,6 +299,27 @@ func withError(v, e float64) (string, string) {
 		ve = int(math.Floor(math.Log10(math.Abs(v))))
 	}
 	return strconv.FormatFloat(v, 'e', max(1, ve-last), 64), strconv.FormatFloat(e, 'e', 1, 64)
+}
+
+// decades are the powers of ten decade finds x between.
+var decades = [...]float64{1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7}
+
+// decade is int(math.Floor(math.Log10(x))) for x > 0, as withError has
+// always computed it (math.Log10 is off by an ulp at some powers of ten,
+// e.g. it gives 2.9999999999999996 for 1000, and the reports keep what it
+// gives). Between 10⁻⁵ and 10⁷ and away from the powers of ten it finds
+// the decade by comparison, which cannot differ there.
+func decade(x float64) int {
+	for k := 1; k < len(decades); k++ {
+		if x < decades[k] {
+			lo, hi := decades[k-1], decades[k]
+			if x < lo*(1+1e-12) || x > hi*(1-1e-12) {
+				break
+			}
+			return k - 1 - 5
+		}
+	}
+	return int(math.Floor(math.Log10(x)))
 }
 
 func entryTitle(e compare.Entry) string {
