@@ -71,8 +71,13 @@ func (p *page) g(x float64) *page {
 
 // spaces appends n spaces.
 func (p *page) spaces(n int) *page {
-	for range n {
-		p.b = append(p.b, ' ')
+	const blank = "                                                                "
+	for n > len(blank) {
+		p.b = append(p.b, blank...)
+		n -= len(blank)
+	}
+	if n > 0 {
+		p.b = append(p.b, blank[:n]...)
 	}
 	return p
 }
