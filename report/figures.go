@@ -96,45 +96,105 @@ func (f *frame) open(w *page, class, label, title, xlabel, ylabel string) {
 	if title != "" {
 		w.s(`<text x="`).g(f.left).s(`" y="`).g(f.top - 10).s(`" font-weight="bold">`).e(title).s("</text>\n")
 	}
-	xt := ticks(f.x0, f.x1, f.logX)
-	if f.xTicks != nil {
-		xt = ticks(f.xTicks[0], f.xTicks[1], f.logX)
-	}
-	xl, xm := tickLabels(xt, f.logX)
-	for i, t := range xt {
-		x := f.px(t)
-		w.s(`<line x1="`).f1(x).s(`" x2="`).f1(x).s(`" y1="`).g(f.h - f.bottom).s(`" y2="`).g(f.h - f.bottom + 6).s(`" stroke="` + colorAxis + `"/><text class="tick" x="`).f1(x).
-			s(`" y="`).g(f.h - f.bottom + 23).s(`" text-anchor="middle" font-size="`).g(tickFont).s(`">`).s(xl[i]).s("</text>\n")
-	}
-	if xlabel != "" || xm != "" {
-		if xm != "" {
-			xlabel = strings.TrimSpace(xlabel + " " + xm)
+	xa := w.axis(f, true)
+	w.b = append(w.b, xa.text[:xa.split]...)
+	if xlabel != "" || xa.mult != "" {
+		if xa.mult != "" {
+			xlabel = strings.TrimSpace(xlabel + " " + xa.mult)
 		}
 		w.s(`<text class="axis" x="`).g((f.left + f.w - f.right) / 2).s(`" y="`).g(f.h - 12).s(`" text-anchor="middle">`).e(xlabel).s("</text>\n")
 	}
-	if f.logX {
-		for _, t := range minorTicks(f.x0, f.x1) {
-			x := f.px(t)
-			w.s(`<line x1="`).f1(x).s(`" x2="`).f1(x).s(`" y1="`).g(f.h - f.bottom).s(`" y2="`).g(f.h - f.bottom + 3).s(`" stroke="` + colorAxis + `"/>`)
-		}
-	}
-	if f.logY {
-		for _, t := range minorTicks(f.y0, f.y1) {
-			y := f.py(t)
-			w.s(`<line x1="`).g(f.left - 3).s(`" x2="`).g(f.left).s(`" y1="`).f1(y).s(`" y2="`).f1(y).s(`" stroke="` + colorAxis + `"/>`)
-		}
-	}
-	yt := ticks(f.y0, f.y1, f.logY)
-	yl, ym := tickLabels(yt, f.logY)
-	for i, t := range yt {
-		y := f.py(t)
-		w.s(`<line x1="`).g(f.left - 6).s(`" x2="`).g(f.left).s(`" y1="`).f1(y).s(`" y2="`).f1(y).s(`" stroke="` + colorAxis + `"/><text class="tick" x="`).g(f.left - 9).
-			s(`" y="`).f1(y + 5).s(`" text-anchor="end" font-size="`).g(tickFont).s(`">`).s(yl[i]).s("</text>\n")
-	}
+	w.b = append(w.b, xa.text[xa.split:]...)
+	ya := w.axis(f, false)
+	w.b = append(w.b, ya.text...)
+	ym := ya.mult
 	if ym != "" {
 		ylabel = strings.TrimSpace(ylabel + " " + ym)
 	}
 	w.s(`<text class="axis" transform="translate(20,`).g((f.top + f.h - f.bottom) / 2).s(`) rotate(-90)" text-anchor="middle">`).e(ylabel).s("</text>\n")
+}
+
+// axis is the drawn ticks of one axis of a frame: for x the major ticks
+// with their labels, then (from split on) the minor ticks of a log axis;
+// for y the minor ticks, then the major ones with their labels. mult is
+// the common factor of the labels, for the axis label.
+type axis struct {
+	text  []byte
+	split int
+	mult  string
+}
+
+// axisKey is all an axis's drawing depends on: the frame's geometry and
+// the axis's range, scale and tick range.
+type axisKey struct {
+	x                              bool
+	w, h, left, right, top, bottom float64
+	lo, hi                         float64
+	log                            bool
+	ticks                          [2]float64
+}
+
+// maxAxes bounds the axes a page remembers.
+const maxAxes = 512
+
+// axis returns the ticks of f's x or y axis. A campaign's figures repeat
+// a few axes (every pull histogram has one of four x axes, every pull
+// panel one of a few y axes, and observables with the same binning share
+// x axes), so the page draws each once.
+func (w *page) axis(f *frame, x bool) *axis {
+	k := axisKey{x: x, w: f.w, h: f.h, left: f.left, right: f.right, top: f.top, bottom: f.bottom}
+	if x {
+		k.lo, k.hi, k.log, k.ticks = f.x0, f.x1, f.logX, [2]float64{f.x0, f.x1}
+		if f.xTicks != nil {
+			k.ticks = *f.xTicks
+		}
+	} else {
+		k.lo, k.hi, k.log = f.y0, f.y1, f.logY
+	}
+	if a, ok := w.axes[k]; ok {
+		return a
+	}
+	a := &axis{}
+	d := &page{}
+	if x {
+		xt := ticks(k.ticks[0], k.ticks[1], f.logX)
+		xl, xm := tickLabels(xt, f.logX)
+		for i, t := range xt {
+			x := f.px(t)
+			d.s(`<line x1="`).f1(x).s(`" x2="`).f1(x).s(`" y1="`).g(f.h - f.bottom).s(`" y2="`).g(f.h - f.bottom + 6).s(`" stroke="` + colorAxis + `"/><text class="tick" x="`).f1(x).
+				s(`" y="`).g(f.h - f.bottom + 23).s(`" text-anchor="middle" font-size="`).g(tickFont).s(`">`).s(xl[i]).s("</text>\n")
+		}
+		a.split, a.mult = len(d.b), xm
+		if f.logX {
+			for _, t := range minorTicks(f.x0, f.x1) {
+				x := f.px(t)
+				d.s(`<line x1="`).f1(x).s(`" x2="`).f1(x).s(`" y1="`).g(f.h - f.bottom).s(`" y2="`).g(f.h - f.bottom + 3).s(`" stroke="` + colorAxis + `"/>`)
+			}
+		}
+	} else {
+		if f.logY {
+			for _, t := range minorTicks(f.y0, f.y1) {
+				y := f.py(t)
+				d.s(`<line x1="`).g(f.left - 3).s(`" x2="`).g(f.left).s(`" y1="`).f1(y).s(`" y2="`).f1(y).s(`" stroke="` + colorAxis + `"/>`)
+			}
+		}
+		yt := ticks(f.y0, f.y1, f.logY)
+		yl, ym := tickLabels(yt, f.logY)
+		for i, t := range yt {
+			y := f.py(t)
+			d.s(`<line x1="`).g(f.left - 6).s(`" x2="`).g(f.left).s(`" y1="`).f1(y).s(`" y2="`).f1(y).s(`" stroke="` + colorAxis + `"/><text class="tick" x="`).g(f.left - 9).
+				s(`" y="`).f1(y + 5).s(`" text-anchor="end" font-size="`).g(tickFont).s(`">`).s(yl[i]).s("</text>\n")
+		}
+		a.mult = ym
+	}
+	a.text = d.b
+	if w.axes == nil {
+		w.axes = map[axisKey]*axis{}
+	}
+	if len(w.axes) < maxAxes {
+		w.axes[k] = a
+	}
+	return a
 }
 
 // group is a run of consecutive bins drawn as one: a single bin, or in a

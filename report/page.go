@@ -26,6 +26,8 @@ type page struct {
 	scratch []byte
 	// curves holds the normal curves of the pull histograms drawn so far.
 	curves map[curveKey]*curve
+	// axes holds the axes drawn so far.
+	axes map[axisKey]*axis
 }
 
 // flushAt is the buffered size at which [page.maybeFlush] passes the
