@@ -30,7 +30,8 @@ func benchSeries(rng *rand.Rand, n int) (*table.Series, *table.Series) {
 }
 
 // benchCampaignSummary is a blinded campaign of n observables × 2 teams ×
-// 20 bins, as blind/campaign's BenchmarkCampaign builds it.
+// 20 bins, as blind/campaign's BenchmarkCampaign builds it, with blinded
+// values.
 func benchCampaignSummary(b *testing.B, n int) *compare.Summary {
 	b.Helper()
 	rng := rand.New(rand.NewPCG(11, 500))
@@ -38,6 +39,15 @@ func benchCampaignSummary(b *testing.B, n int) *compare.Summary {
 		Notes: []string{"campaign bench is blinded; 1503 ledger entries", "no valid sign-offs yet"}}
 	for i := range n {
 		a, bb := benchSeries(rng, 20)
+		// blinded as the campaign blinds: one affine map per observable,
+		// scale in [0.5, 2], shift in [-2000, 2000]
+		scale, shift := 0.5+1.5*rng.Float64(), -2000+4000*rng.Float64()
+		for _, s := range []*table.Series{a, bb} {
+			for k := range s.V {
+				s.V[k] = s.V[k]*scale + shift
+				s.Down[k] *= scale
+			}
+		}
 		r, err := compare.Series(a, bb, compare.Options{Correlation: 0.5, Limits: compare.DefaultLimits})
 		if err != nil {
 			b.Fatal(err)
