@@ -193,12 +193,9 @@ func binTableHTML(p *page, e compare.Entry) {
 		p.s("all ").d(e.Bins).s(" bins")
 	}
 	p.s("</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
-	var cells [10]string
 	for _, i := range idx {
 		p.s("<tr>")
-		for _, x := range binCells(cells[:0], e, i) {
-			p.s("<td>").e(x).s("</td>")
-		}
+		binRow(p, e, i, "<td>", "</td>")
 		p.s("</tr>\n")
 	}
 	p.s("</table></details>\n")

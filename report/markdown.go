@@ -36,7 +36,6 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	for _, e := range entries {
 		ew.s("| ").s(mdEscape(entryTitle(e))).s(" | ").s(mdVerdict(e.Pass)).s(" | ").s(chi2NDF(e)).s(" | ").s(pval(e.PValue)).s(" | ").s(num(e.MaxAbsPull)).s(" |\n")
 	}
-	var cells []string
 	for _, e := range entries {
 		fmt.Fprintf(ew, "\n### %s: %s\n\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass))
 		if e.Title != "" {
@@ -75,11 +74,8 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | a − b | σ\\_d | pull |\n", mdEscape(a), mdEscape(b))
 		fmt.Fprintln(ew, "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
 		for _, i := range idx {
-			cells = binCells(cells[:0], e, i)
 			ew.s("|")
-			for _, c := range cells {
-				ew.s(" ").s(c).s(" |")
-			}
+			binRow(ew, e, i, " ", " |")
 			ew.s("\n")
 		}
 		ew.maybeFlush()

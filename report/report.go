@@ -266,6 +266,33 @@ func binCells(dst []string, e compare.Entry, i int) []string {
 	return append(dst, strconv.Itoa(i+1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p)
 }
 
+// binRow appends the cells of [binCells] for bin i, each between pre and
+// post, without making strings of them. The cells are numbers (or n/a),
+// which need no escaping in HTML or Markdown.
+func binRow(p *page, e compare.Entry, i int, pre, post string) {
+	p.s(pre).d(i + 1).s(post).s(pre)
+	p.b = appendG6(p.b, e.Lo[i])
+	p.s(post).s(pre)
+	p.b = appendG6(p.b, e.Hi[i])
+	p.s(post)
+	for _, ve := range [3][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}, {e.Diff[i], e.SigmaDiff[i]}} {
+		var k int
+		p.scratch, k = appendWithError(p.scratch[:0], ve[0], ve[1])
+		p.s(pre)
+		p.b = append(p.b, p.scratch[:k]...)
+		p.s(post).s(pre)
+		p.b = append(p.b, p.scratch[k:]...)
+		p.s(post)
+	}
+	p.s(pre)
+	if pl := e.Pulls[i]; math.Abs(pl) < 1000 {
+		p.b = appendFixed(p.b, pl, 2)
+	} else {
+		p.s(num(pl))
+	}
+	p.s(post)
+}
+
 // pullText writes a pull with two decimals, so that a column of pulls
 // lines up on the decimal point; huge ones keep four significant digits.
 func pullText(p float64) string {
@@ -281,8 +308,18 @@ func pullText(p float64) string {
 // decimals, others in exponent form. Without a positive uncertainty the
 // value keeps six significant digits.
 func withError(v, e float64) (string, string) {
+	var a [64]byte
+	b, k := appendWithError(a[:0], v, e)
+	return string(b[:k]), string(b[k:])
+}
+
+// appendWithError appends the value and the uncertainty of [withError]
+// one after the other, and returns where the uncertainty starts.
+func appendWithError(b []byte, v, e float64) ([]byte, int) {
 	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
-		return val(v), val(e)
+		b = appendG6(b, v)
+		k := len(b)
+		return appendG6(b, e), k
 	}
 	last := decade(e) - 1 // decimal exponent of the second digit
 	big := math.Max(math.Abs(v), e)
@@ -292,13 +329,17 @@ func withError(v, e float64) (string, string) {
 			q := math.Pow(10, float64(last))
 			v, e = math.Round(v/q)*q, math.Round(e/q)*q
 		}
-		return fixed(v, places), fixed(e, places)
+		b = appendFixed(b, v, places)
+		k := len(b)
+		return appendFixed(b, e, places), k
 	}
 	ve := last + 1
 	if v != 0 {
 		ve = int(math.Floor(math.Log10(math.Abs(v))))
 	}
-	return strconv.FormatFloat(v, 'e', max(1, ve-last), 64), strconv.FormatFloat(e, 'e', 1, 64)
+	b = strconv.AppendFloat(b, v, 'e', max(1, ve-last), 64)
+	k := len(b)
+	return strconv.AppendFloat(b, e, 'e', 1, 64), k
 }
 
 // decades are the powers of ten decade finds x between.
