@@ -222,29 +222,34 @@ func pullLimit(e compare.Entry) float64 {
 // what is undefined (a width needs two pulls).
 func shapeLine(e compare.Entry) string {
 	n := len(pullsUsed(e))
-	mean, width := "n/a", "n/a"
-	if n >= 1 {
-		mean = num(e.PullMean)
+	b := make([]byte, 0, 160)
+	b = append(b, "pulls: mean "...)
+	switch {
+	case n >= 2:
+		b = append(append(append(b, num(e.PullMean)...), " ± "...), num(e.PullMeanErr)...)
+		b = append(append(append(append(b, ", width "...), num(e.PullWidth)...), " ± "...), num(e.PullWidthEr)...)
+	case n == 1:
+		b = append(append(b, num(e.PullMean)...), ", width n/a"...)
+	default:
+		b = append(b, "n/a, width n/a"...)
 	}
-	if n >= 2 {
-		mean += " ± " + num(e.PullMeanErr)
-		width = num(e.PullWidth) + " ± " + num(e.PullWidthEr)
-	}
-	runs := fmt.Sprintf("%d runs", e.Runs)
+	b = append(append(append(append(append(b, "; KS D = "...), num(e.KSStat)...), " (p = "...), pval(e.KSP)...), "); "...)
 	if e.Runs == 1 {
-		runs = "1 run"
+		b = append(b, "1 run"...)
+	} else {
+		b = append(strconv.AppendInt(b, int64(e.Runs), 10), " runs"...)
 	}
-	return fmt.Sprintf("pulls: mean %s, width %s; KS D = %s (p = %s); %s (p = %s); χ²/ndf = %s",
-		mean, width, num(e.KSStat), pval(e.KSP), runs, pval(e.RunsP), chi2NDF(e))
+	b = append(append(append(append(b, " (p = "...), pval(e.RunsP)...), "); χ²/ndf = "...), chi2NDF(e)...)
+	return string(b)
 }
 
 // chi2NDF writes χ²/ndf as "12.3/10", or "n/a (ndf 0)" when no bin
 // carries a pull.
 func chi2NDF(e compare.Entry) string {
 	if e.NDF == 0 || math.IsNaN(e.Chi2) {
-		return fmt.Sprintf("n/a (ndf %d)", e.NDF)
+		return "n/a (ndf " + strconv.Itoa(e.NDF) + ")"
 	}
-	return fmt.Sprintf("%s/%d", num(e.Chi2), e.NDF)
+	return num(e.Chi2) + "/" + strconv.Itoa(e.NDF)
 }
 
 // filesShown says whether a report names the input files beside the
