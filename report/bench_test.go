@@ -66,13 +66,12 @@ func reportCPU(b *testing.B, start int64, ok bool) {
 	}
 }
 
-// renderAll renders s in every format, as `report` and the campaign
-// write them, and returns the total size.
+// renderAll renders s in every format, each into a new buffer as
+// `report` and the campaign write them, and returns the total size.
 func renderAll(b *testing.B, s *compare.Summary) int {
 	size := 0
-	var buf bytes.Buffer
 	for _, f := range Formats {
-		buf.Reset()
+		var buf bytes.Buffer
 		if err := Render(&buf, f, s, Style{}); err != nil {
 			b.Fatal(err)
 		}

@@ -289,7 +289,7 @@ func JSON(w io.Writer, s *compare.Summary) error {
 	size := 4096
 	for _, e := range s.Entries {
 		if e.Result != nil {
-			size += 4096 + 200*e.Bins
+			size += 3072 + 256*e.Bins // nine numbers of up to 28 bytes a bin
 		}
 	}
 	p := newPage(w, size)

@@ -110,7 +110,7 @@ func mdSize(s *compare.Summary, st Style) int {
 	size := 4096
 	for _, e := range s.Entries {
 		if e.Result != nil {
-			size += 1024 + 100*min(e.Bins, limit)
+			size += 768 + 80*min(e.Bins, limit)
 		}
 	}
 	return size
