@@ -326,6 +326,13 @@ func overlayBins(w *page, f *frame, e compare.Entry) {
 	binPx := (f.w - f.left - f.right) / float64(e.Bins)
 	r := math.Max(1.6, math.Min(6, binPx*0.3))
 	capW := math.Max(r+1.5, math.Min(7, binPx*0.4))
+	// The diamond's sides and the caps are the same for every bin, and
+	// each bin's coordinates repeat within its marks: each is formatted
+	// once.
+	var diamond, capText, xt, lot, hit, capX [32]byte
+	tail := appendF1(append(appendF1(append(appendF1(append(diamond[:0], " l"...), r), ','), r), " l"...), -r)
+	tail = appendF1(append(appendF1(append(appendF1(append(tail, ','), r), " l"...), -r), ','), -r)
+	caps := appendF1(capText[:0], capW)
 	for i := 0; i < e.Bins; i++ {
 		v, s := e.A[i], e.ErrA[i]
 		if !ok(v) {
@@ -335,11 +342,11 @@ func overlayBins(w *page, f *frame, e compare.Entry) {
 		x, y := (x0+x1)/2, f.py(v)
 		lo, _ := f.clampY(v - s)
 		hi, _ := f.clampY(v + s)
+		xs, los, his, cx := appendF1(xt[:0], x), appendF1(lot[:0], f.py(lo)), appendF1(hit[:0], f.py(hi)), appendF1(capX[:0], x-capW/2)
 		w.nums(`<path d="M%,% H%" stroke="`+colorA+`" stroke-width="1.5"/>`, x0, y, x1)
-		w.nums(`<path d="M%,% l%,% l%,% l%,% z" fill="#fff" stroke="`+colorA+`" stroke-width="1.6"/>`,
-			x, y-r, r, r, -r, r, -r, -r)
-		w.nums(`<path d="M%,% V% M%,% h% M%,% h%" stroke="`+colorA+`" stroke-width="1.6"/>`+"\n",
-			x, f.py(lo), f.py(hi), x-capW/2, f.py(lo), capW, x-capW/2, f.py(hi), capW)
+		w.s(`<path d="M`).raw(xs).s(",").f1(y - r).raw(tail).s(` z" fill="#fff" stroke="` + colorA + `" stroke-width="1.6"/>`)
+		w.s(`<path d="M`).raw(xs).s(",").raw(los).s(" V").raw(his).s(" M").raw(cx).s(",").raw(los).s(" h").raw(caps).
+			s(" M").raw(cx).s(",").raw(his).s(" h").raw(caps).s(`" stroke="` + colorA + `" stroke-width="1.6"/>` + "\n")
 	}
 }
 

@@ -52,6 +52,12 @@ func (p *page) s(x string) *page {
 	return p
 }
 
+// raw appends the bytes of x.
+func (p *page) raw(x []byte) *page {
+	p.b = append(p.b, x...)
+	return p
+}
+
 // e appends x escaped for HTML text and attributes, as
 // [html.EscapeString] does.
 func (p *page) e(x string) *page {
