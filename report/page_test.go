@@ -99,3 +99,14 @@ func TestDecade(t *testing.T) {
 		}
 	}
 }
+
+// TestLogTicksInfiniteEdge: a log axis up to an infinite edge (bins that
+// double 1100 times overflow) has no ticks; it used to loop for ever.
+func TestLogTicksInfiniteEdge(t *testing.T) {
+	if got := ticks(1e-3, math.Inf(1), true); got != nil {
+		t.Errorf("ticks up to +Inf = %v, want none", got)
+	}
+	if got := ticks(1, 1e4, true); len(got) != 5 {
+		t.Errorf("ticks over four decades = %v, want 1, 10, 100, 1000, 10000", got)
+	}
+}
