@@ -161,9 +161,9 @@ func (h *pullHeap) Pop() any {
 func criterionLine(c compare.Criterion) string {
 	name, v, adj, lim := critCells(c)
 	if adj != "" {
-		return fmt.Sprintf("%s = %s (adjusted %s, limit %s)", name, v, adj, lim)
+		return name + " = " + v + " (adjusted " + adj + ", limit " + lim + ")"
 	}
-	return fmt.Sprintf("%s = %s (limit %s)", name, v, lim)
+	return name + " = " + v + " (limit " + lim + ")"
 }
 
 // critCells formats one criterion for a table: name, raw value, the
@@ -200,7 +200,7 @@ func sourcesLine(e compare.Entry) string {
 		if !math.IsNaN(s.Share) {
 			share = strconv.FormatFloat(100*s.Share, 'f', 0, 64) + "% of σ_d²"
 		}
-		parts = append(parts, fmt.Sprintf("%s ρ = %s, %s", s.Name, rho, share))
+		parts = append(parts, s.Name+" ρ = "+rho+", "+share)
 	}
 	if len(parts) == 0 {
 		return ""
