@@ -56,23 +56,23 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		if !e.Pass {
 			mark = paint(st, ansiRed, "FAIL")
 		}
-		fmt.Fprintf(ew, "  %s %s: χ²/ndf = %s, p = %s, max |pull| = %s\n",
-			mark, entryTitle(e), chi2NDF(e), pval(e.PValue), num(e.MaxAbsPull))
+		ew.s("  ").s(mark).s(" ").s(entryTitle(e)).s(": χ²/ndf = ").s(chi2NDF(e)).s(", p = ").s(pval(e.PValue)).s(", max |pull| = ").s(num(e.MaxAbsPull)).s("\n")
 	}
+	var crit [][]string
 	for _, e := range entries {
-		fmt.Fprintf(ew, "\n== %s", entryTitle(e))
+		ew.s("\n== ").s(entryTitle(e))
 		if e.Blinded {
-			fmt.Fprint(ew, " [blinded values]")
+			ew.s(" [blinded values]")
 		}
-		fmt.Fprintf(ew, ": %s\n", verdictWord(st, e.Pass))
+		ew.s(": ").s(verdictWord(st, e.Pass)).s("\n")
 		if e.Title != "" {
-			fmt.Fprintf(ew, "  %s\n", e.Title)
+			ew.s("  ").s(e.Title).s("\n")
 		}
 		if filesShown(e) {
 			a, b := e.Sides()
 			fmt.Fprintf(ew, "  %s: %s; %s: %s\n", a, e.Files[0], b, e.Files[1])
 		}
-		crit := [][]string{{"criterion", "value", "adjusted", "limit", "result"}}
+		crit = append(crit[:0], []string{"criterion", "value", "adjusted", "limit", "result"})
 		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
@@ -83,16 +83,16 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		}
 		alignTable(ew, "  ", crit, false)
 		if l := sourcesLine(e); l != "" {
-			fmt.Fprintf(ew, "  %s\n", l)
+			ew.s("  ").s(l).s("\n")
 		}
 		for _, c := range e.Criteria {
 			if !c.Pass && c.Detail != "" {
 				fmt.Fprintf(ew, "  why: %s: %s\n", c.Name, c.Detail)
 			}
 		}
-		fmt.Fprintf(ew, "  %s\n", shapeLine(e))
+		ew.s("  ").s(shapeLine(e)).s("\n")
 		for _, wn := range e.Warnings {
-			fmt.Fprintf(ew, "  warning: %s\n", wn)
+			ew.s("  warning: ").s(wn).s("\n")
 		}
 		idx, cut := rows(e.Result, st)
 		if cut {
