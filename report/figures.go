@@ -1,6 +1,7 @@
 package report
 
 import (
+	"bytes"
 	"math"
 	"slices"
 	"strings"
@@ -137,7 +138,8 @@ type axisKey struct {
 // maxAxes bounds the axes a page remembers.
 const maxAxes = 512
 
-// axis returns the ticks of f's x or y axis. A campaign's figures repeat
+// axis returns the ticks of f's x or y axis, valid until the next call
+// when the page does not keep it. A campaign's figures repeat
 // a few axes (every pull histogram has one of four x axes, every pull
 // panel one of a few y axes, and observables with the same binning share
 // x axes), so the page draws each once.
@@ -155,7 +157,7 @@ func (w *page) axis(f *frame, x bool) *axis {
 		return a
 	}
 	a := &axis{}
-	d := &page{}
+	d := &page{b: w.axisTmp[:0]}
 	if x {
 		xt := ticks(k.ticks[0], k.ticks[1], f.logX)
 		xl, xm := tickLabels(xt, f.logX)
@@ -187,11 +189,14 @@ func (w *page) axis(f *frame, x bool) *axis {
 		}
 		a.mult = ym
 	}
-	a.text = d.b
+	// an axis the page keeps gets its own copy; any other is used at once
+	// and its buffer reused for the next
+	w.axisTmp, a.text = d.b, d.b
 	if w.axes == nil {
 		w.axes = map[axisKey]*axis{}
 	}
 	if len(w.axes) < maxAxes {
+		a.text = bytes.Clone(d.b)
 		w.axes[k] = a
 	}
 	return a
