@@ -13,6 +13,9 @@ func ticks(lo, hi float64, log bool) []float64 {
 	var out []float64
 	if log {
 		e0, e1 := math.Ceil(math.Log10(lo)-1e-9), math.Floor(math.Log10(hi)+1e-9)
+		if math.IsInf(e0, 0) || math.IsInf(e1, 0) || math.IsNaN(e0) || math.IsNaN(e1) {
+			return nil // an infinite edge: no decades to mark (and no end to the loop)
+		}
 		step := math.Max(1, math.Ceil((e1-e0+1)/8))
 		for e := e0; e <= e1; e += step {
 			out = append(out, math.Pow(10, e))

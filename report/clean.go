@@ -1,9 +1,7 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
-	"io"
 	"strings"
 	"unicode/utf8"
 
@@ -146,31 +144,4 @@ func summaryNeedsCleaning(s *compare.Summary) bool {
 		}
 	}
 	return false
-}
-
-// jsonEscaper writes JSON text with the characters that encoding/json
-// leaves raw but that must not reach a terminal (C1 controls, the
-// bidirectional controls) as \uXXXX escapes. They can only stand inside
-// JSON strings, where the escape means the same character, so the
-// document decodes to the same values.
-type jsonEscaper struct{ w io.Writer }
-
-func (j jsonEscaper) Write(p []byte) (int, error) {
-	if bytes.IndexByte(p, 0xc2) < 0 && bytes.IndexByte(p, 0xd8) < 0 && bytes.IndexByte(p, 0xe2) < 0 {
-		return j.w.Write(p)
-	}
-	out := make([]byte, 0, len(p)+64)
-	for i := 0; i < len(p); {
-		r, n := utf8.DecodeRune(p[i:])
-		if r >= 0x80 && unsafeRune(r) {
-			out = fmt.Appendf(out, `\u%04x`, r)
-		} else {
-			out = append(out, p[i:i+n]...)
-		}
-		i += n
-	}
-	if _, err := j.w.Write(out); err != nil {
-		return 0, err
-	}
-	return len(p), nil
 }

@@ -1,8 +1,7 @@
 package report
 
 import (
-	"fmt"
-	"io"
+	"bytes"
 	"math"
 	"slices"
 	"strings"
@@ -45,12 +44,16 @@ type frame struct {
 	// xTicks, when set, limits the x ticks to this range (a histogram's
 	// overflow bars lie outside the axis proper).
 	xTicks *[2]float64
+	// log holds log₁₀ of x0, x1, y0 and y1 for log axes, once logged.
+	log    [4]float64
+	logged bool
 }
 
 func (f *frame) px(x float64) float64 {
 	x0, x1 := f.x0, f.x1
 	if f.logX {
-		x, x0, x1 = math.Log10(math.Max(x, f.x0)), math.Log10(x0), math.Log10(x1)
+		f.logs()
+		x, x0, x1 = math.Log10(math.Max(x, f.x0)), f.log[0], f.log[1]
 	}
 	return f.left + (x-x0)/(x1-x0)*(f.w-f.left-f.right)
 }
@@ -58,9 +61,19 @@ func (f *frame) px(x float64) float64 {
 func (f *frame) py(y float64) float64 {
 	y0, y1 := f.y0, f.y1
 	if f.logY {
-		y, y0, y1 = math.Log10(math.Max(y, f.y0)), math.Log10(y0), math.Log10(y1)
+		f.logs()
+		y, y0, y1 = math.Log10(math.Max(y, f.y0)), f.log[2], f.log[3]
 	}
 	return f.h - f.bottom - (y-y0)/(y1-y0)*(f.h-f.top-f.bottom)
+}
+
+// logs fills f.log once the axes' ranges are known (a frame's range does
+// not change once drawing starts).
+func (f *frame) logs() {
+	if !f.logged {
+		f.log = [4]float64{math.Log10(f.x0), math.Log10(f.x1), math.Log10(f.y0), math.Log10(f.y1)}
+		f.logged = true
+	}
 }
 
 // clampY limits y to the plot range and says whether it was outside.
@@ -77,52 +90,116 @@ func (f *frame) clampY(y float64) (float64, int) {
 // open starts the SVG: frame, axes with ticks in one format each, the axis
 // labels (xlabel may be empty for panels that share the x axis of the one
 // below) and the panel title on the top left.
-func (f *frame) open(w io.Writer, class, label, title, xlabel, ylabel string) {
-	fmt.Fprintf(w, `<svg xmlns="http://www.w3.org/2000/svg" class="%s" width="%g" height="%g" viewBox="0 0 %g %g" role="img" aria-label="%s" font-size="%g" font-family="DejaVu Sans, Verdana, sans-serif" fill="#1c2430">`+"\n",
-		class, f.w, f.h, f.w, f.h, esc(label), labelFont)
-	fmt.Fprintf(w, `<rect x="%g" y="%g" width="%g" height="%g" fill="none" stroke="%s"/>`+"\n", f.left, f.top, f.w-f.left-f.right, f.h-f.top-f.bottom, colorAxis)
+func (f *frame) open(w *page, class, label, title, xlabel, ylabel string) {
+	w.s(`<svg xmlns="http://www.w3.org/2000/svg" class="`).s(class).s(`" width="`).g(f.w).s(`" height="`).g(f.h).s(`" viewBox="0 0 `).g(f.w).s(" ").g(f.h).
+		s(`" role="img" aria-label="`).e(label).s(`" font-size="`).g(labelFont).s(`" font-family="DejaVu Sans, Verdana, sans-serif" fill="#1c2430">` + "\n")
+	w.s(`<rect x="`).g(f.left).s(`" y="`).g(f.top).s(`" width="`).g(f.w - f.left - f.right).s(`" height="`).g(f.h - f.top - f.bottom).s(`" fill="none" stroke="` + colorAxis + `"/>` + "\n")
 	if title != "" {
-		fmt.Fprintf(w, `<text x="%g" y="%g" font-weight="bold">%s</text>`+"\n", f.left, f.top-10, esc(title))
+		w.s(`<text x="`).g(f.left).s(`" y="`).g(f.top - 10).s(`" font-weight="bold">`).e(title).s("</text>\n")
 	}
-	xt := ticks(f.x0, f.x1, f.logX)
-	if f.xTicks != nil {
-		xt = ticks(f.xTicks[0], f.xTicks[1], f.logX)
-	}
-	xl, xm := tickLabels(xt, f.logX)
-	for i, t := range xt {
-		x := f.px(t)
-		fmt.Fprintf(w, `<line x1="%.1f" x2="%.1f" y1="%g" y2="%g" stroke="%s"/><text class="tick" x="%.1f" y="%g" text-anchor="middle" font-size="%g">%s</text>`+"\n",
-			x, x, f.h-f.bottom, f.h-f.bottom+6, colorAxis, x, f.h-f.bottom+23, tickFont, xl[i])
-	}
-	if xlabel != "" || xm != "" {
-		if xm != "" {
-			xlabel = strings.TrimSpace(xlabel + " " + xm)
+	xa := w.axis(f, true)
+	w.b = append(w.b, xa.text[:xa.split]...)
+	if xlabel != "" || xa.mult != "" {
+		if xa.mult != "" {
+			xlabel = strings.TrimSpace(xlabel + " " + xa.mult)
 		}
-		fmt.Fprintf(w, `<text class="axis" x="%g" y="%g" text-anchor="middle">%s</text>`+"\n", (f.left+f.w-f.right)/2, f.h-12, esc(xlabel))
+		w.s(`<text class="axis" x="`).g((f.left + f.w - f.right) / 2).s(`" y="`).g(f.h - 12).s(`" text-anchor="middle">`).e(xlabel).s("</text>\n")
 	}
-	if f.logX {
-		for _, t := range minorTicks(f.x0, f.x1) {
-			x := f.px(t)
-			fmt.Fprintf(w, `<line x1="%.1f" x2="%.1f" y1="%g" y2="%g" stroke="%s"/>`, x, x, f.h-f.bottom, f.h-f.bottom+3, colorAxis)
-		}
-	}
-	if f.logY {
-		for _, t := range minorTicks(f.y0, f.y1) {
-			y := f.py(t)
-			fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`, f.left-3, f.left, y, y, colorAxis)
-		}
-	}
-	yt := ticks(f.y0, f.y1, f.logY)
-	yl, ym := tickLabels(yt, f.logY)
-	for i, t := range yt {
-		y := f.py(t)
-		fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/><text class="tick" x="%g" y="%.1f" text-anchor="end" font-size="%g">%s</text>`+"\n",
-			f.left-6, f.left, y, y, colorAxis, f.left-9, y+5, tickFont, yl[i])
-	}
+	w.b = append(w.b, xa.text[xa.split:]...)
+	ya := w.axis(f, false)
+	w.b = append(w.b, ya.text...)
+	ym := ya.mult
 	if ym != "" {
 		ylabel = strings.TrimSpace(ylabel + " " + ym)
 	}
-	fmt.Fprintf(w, `<text class="axis" transform="translate(20,%g) rotate(-90)" text-anchor="middle">%s</text>`+"\n", (f.top+f.h-f.bottom)/2, esc(ylabel))
+	w.s(`<text class="axis" transform="translate(20,`).g((f.top + f.h - f.bottom) / 2).s(`) rotate(-90)" text-anchor="middle">`).e(ylabel).s("</text>\n")
+}
+
+// axis is the drawn ticks of one axis of a frame: for x the major ticks
+// with their labels, then (from split on) the minor ticks of a log axis;
+// for y the minor ticks, then the major ones with their labels. mult is
+// the common factor of the labels, for the axis label.
+type axis struct {
+	text  []byte
+	split int
+	mult  string
+}
+
+// axisKey is all an axis's drawing depends on: the frame's geometry and
+// the axis's range, scale and tick range.
+type axisKey struct {
+	x                              bool
+	w, h, left, right, top, bottom float64
+	lo, hi                         float64
+	log                            bool
+	ticks                          [2]float64
+}
+
+// maxAxes bounds the axes a page remembers.
+const maxAxes = 512
+
+// axis returns the ticks of f's x or y axis, valid until the next call
+// when the page does not keep it. A campaign's figures repeat
+// a few axes (every pull histogram has one of four x axes, every pull
+// panel one of a few y axes, and observables with the same binning share
+// x axes), so the page draws each once.
+func (w *page) axis(f *frame, x bool) *axis {
+	k := axisKey{x: x, w: f.w, h: f.h, left: f.left, right: f.right, top: f.top, bottom: f.bottom}
+	if x {
+		k.lo, k.hi, k.log, k.ticks = f.x0, f.x1, f.logX, [2]float64{f.x0, f.x1}
+		if f.xTicks != nil {
+			k.ticks = *f.xTicks
+		}
+	} else {
+		k.lo, k.hi, k.log = f.y0, f.y1, f.logY
+	}
+	if a, ok := w.axes[k]; ok {
+		return a
+	}
+	a := &axis{}
+	d := &page{b: w.axisTmp[:0]}
+	if x {
+		xt := ticks(k.ticks[0], k.ticks[1], f.logX)
+		xl, xm := tickLabels(xt, f.logX)
+		for i, t := range xt {
+			x := f.px(t)
+			d.s(`<line x1="`).f1(x).s(`" x2="`).f1(x).s(`" y1="`).g(f.h - f.bottom).s(`" y2="`).g(f.h - f.bottom + 6).s(`" stroke="` + colorAxis + `"/><text class="tick" x="`).f1(x).
+				s(`" y="`).g(f.h - f.bottom + 23).s(`" text-anchor="middle" font-size="`).g(tickFont).s(`">`).s(xl[i]).s("</text>\n")
+		}
+		a.split, a.mult = len(d.b), xm
+		if f.logX {
+			for _, t := range minorTicks(f.x0, f.x1) {
+				x := f.px(t)
+				d.s(`<line x1="`).f1(x).s(`" x2="`).f1(x).s(`" y1="`).g(f.h - f.bottom).s(`" y2="`).g(f.h - f.bottom + 3).s(`" stroke="` + colorAxis + `"/>`)
+			}
+		}
+	} else {
+		if f.logY {
+			for _, t := range minorTicks(f.y0, f.y1) {
+				y := f.py(t)
+				d.s(`<line x1="`).g(f.left - 3).s(`" x2="`).g(f.left).s(`" y1="`).f1(y).s(`" y2="`).f1(y).s(`" stroke="` + colorAxis + `"/>`)
+			}
+		}
+		yt := ticks(f.y0, f.y1, f.logY)
+		yl, ym := tickLabels(yt, f.logY)
+		for i, t := range yt {
+			y := f.py(t)
+			d.s(`<line x1="`).g(f.left - 6).s(`" x2="`).g(f.left).s(`" y1="`).f1(y).s(`" y2="`).f1(y).s(`" stroke="` + colorAxis + `"/><text class="tick" x="`).g(f.left - 9).
+				s(`" y="`).f1(y + 5).s(`" text-anchor="end" font-size="`).g(tickFont).s(`">`).s(yl[i]).s("</text>\n")
+		}
+		a.mult = ym
+	}
+	// an axis the page keeps gets its own copy; any other is used at once
+	// and its buffer reused for the next
+	w.axisTmp, a.text = d.b, d.b
+	if w.axes == nil {
+		w.axes = map[axisKey]*axis{}
+	}
+	if len(w.axes) < maxAxes {
+		a.text = bytes.Clone(d.b)
+		w.axes[k] = a
+	}
+	return a
 }
 
 // group is a run of consecutive bins drawn as one: a single bin, or in a
@@ -153,7 +230,7 @@ func xFrame(e compare.Entry) (x0, x1 float64, logX bool) {
 // figure draws the three panels of one comparison that share the x axis:
 // the two chains' values, their ratio with the combined uncertainty band,
 // and the pulls.
-func figure(w io.Writer, id string, e compare.Entry, limit float64) {
+func figure(w *page, id string, e compare.Entry, limit float64) {
 	a, b := e.Sides()
 	gs, k := groups(e.Bins)
 	overlaySVG(w, e, a, b, gs, k)
@@ -161,7 +238,7 @@ func figure(w io.Writer, id string, e compare.Entry, limit float64) {
 	pullsSVG(w, e, limit, gs, k)
 }
 
-func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
+func overlaySVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	f := &frame{w: figW, h: 360, left: figLeft, right: figRight, top: 44, bottom: 44}
 	f.x0, f.x1, f.logX = xFrame(e)
 	lo, hi := math.Inf(1), math.Inf(-1)
@@ -203,29 +280,29 @@ func overlaySVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 	}
 	f.open(w, "overlay", "values of "+a+" and "+b, "", "", ylabel)
 	if f.logY && positive < finite {
-		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g">%d values ≤ 0 not drawn on the log axis</text>`+"\n", f.left+8, f.h-f.bottom-8, finite-positive)
+		w.s(`<text class="overflow-note" x="`).g(f.left + 8).s(`" y="`).g(f.h - f.bottom - 8).s(`">`).d(finite - positive).s(" values ≤ 0 not drawn on the log axis</text>\n")
 	}
 	// the legend, on the title row
 	la, lb := "value ± σ, bar = bin width", "step ± σ band"
 	if k > 1 {
 		la, lb = "band = lowest to highest value per group", "lines = lowest and highest"
 	}
-	fmt.Fprintf(w, `<text x="%g" y="%g"><tspan fill="%s">◇ %s: %s</tspan><tspan dx="18" fill="%s">▭ %s: %s</tspan></text>`+"\n",
-		f.left, f.top-10, colorA, esc(shorten(a, 28)), la, colorB, esc(shorten(b, 28)), lb)
+	w.s(`<text x="`).g(f.left).s(`" y="`).g(f.top - 10).s(`"><tspan fill="` + colorA + `">◇ `).e(shorten(a, 28)).s(": ").s(la).
+		s(`</tspan><tspan dx="18" fill="` + colorB + `">▭ `).e(shorten(b, 28)).s(": ").s(lb).s("</tspan></text>\n")
 	if k > 1 {
 		overlayDecimated(w, f, e, gs)
 	} else {
 		overlayBins(w, f, e)
 	}
-	fmt.Fprintln(w, "</svg>")
+	w.s("</svg>\n")
 }
 
 // overlayBins draws B as a step with its ±σ band and A as open diamonds
 // with error bars and caps drawn on top, so a bar shorter than the marker
 // still shows through it.
-func overlayBins(w io.Writer, f *frame, e compare.Entry) {
+func overlayBins(w *page, f *frame, e compare.Entry) {
 	ok := func(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) && (!f.logY || v > 0) }
-	var step strings.Builder
+	step := w.scratch[:0]
 	pen := false
 	for i := 0; i < e.Bins; i++ {
 		x0, x1 := f.px(e.Lo[i]), f.px(e.Hi[i])
@@ -236,21 +313,31 @@ func overlayBins(w io.Writer, f *frame, e compare.Entry) {
 		}
 		lo, _ := f.clampY(v - s)
 		hi, _ := f.clampY(v + s)
-		fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s" fill-opacity="0.28"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 0), colorB)
+		w.nums(`<rect x="%" y="%" width="%" height="%" fill="`+colorB+`" fill-opacity="0.28"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 0))
 		y := f.py(v)
 		if pen && i > 0 && e.Lo[i] == e.Hi[i-1] {
-			fmt.Fprintf(&step, " V%.1f H%.1f", y, x1)
+			step = appendF1(append(appendF1(append(step, " V"...), y), " H"...), x1)
 		} else {
-			fmt.Fprintf(&step, " M%.1f,%.1f H%.1f", x0, y, x1)
+			step = appendF1(append(appendF1(append(appendF1(append(step, " M"...), x0), ','), y), " H"...), x1)
 		}
 		pen = true
 	}
-	if step.Len() > 0 {
-		fmt.Fprintf(w, `<path d="%s" fill="none" stroke="%s" stroke-width="2"/>`+"\n", strings.TrimSpace(step.String()), colorB)
+	if len(step) > 0 {
+		w.s(`<path d="`)
+		w.b = append(w.b, step[1:]...) // without the leading space
+		w.s(`" fill="none" stroke="` + colorB + `" stroke-width="2"/>` + "\n")
 	}
+	w.scratch = step
 	binPx := (f.w - f.left - f.right) / float64(e.Bins)
 	r := math.Max(1.6, math.Min(6, binPx*0.3))
 	capW := math.Max(r+1.5, math.Min(7, binPx*0.4))
+	// The diamond's sides and the caps are the same for every bin, and
+	// each bin's coordinates repeat within its marks: each is formatted
+	// once.
+	var diamond, capText, xt, lot, hit, capX [32]byte
+	tail := appendF1(append(appendF1(append(appendF1(append(diamond[:0], " l"...), r), ','), r), " l"...), -r)
+	tail = appendF1(append(appendF1(append(appendF1(append(tail, ','), r), " l"...), -r), ','), -r)
+	caps := appendF1(capText[:0], capW)
 	for i := 0; i < e.Bins; i++ {
 		v, s := e.A[i], e.ErrA[i]
 		if !ok(v) {
@@ -260,18 +347,18 @@ func overlayBins(w io.Writer, f *frame, e compare.Entry) {
 		x, y := (x0+x1)/2, f.py(v)
 		lo, _ := f.clampY(v - s)
 		hi, _ := f.clampY(v + s)
-		fmt.Fprintf(w, `<path d="M%.1f,%.1f H%.1f" stroke="%s" stroke-width="1.5"/>`, x0, y, x1, colorA)
-		fmt.Fprintf(w, `<path d="M%.1f,%.1f l%.1f,%.1f l%.1f,%.1f l%.1f,%.1f z" fill="#fff" stroke="%s" stroke-width="1.6"/>`,
-			x, y-r, r, r, -r, r, -r, -r, colorA)
-		fmt.Fprintf(w, `<path d="M%.1f,%.1f V%.1f M%.1f,%.1f h%.1f M%.1f,%.1f h%.1f" stroke="%s" stroke-width="1.6"/>`+"\n",
-			x, f.py(lo), f.py(hi), x-capW/2, f.py(lo), capW, x-capW/2, f.py(hi), capW, colorA)
+		xs, los, his, cx := appendF1(xt[:0], x), appendF1(lot[:0], f.py(lo)), appendF1(hit[:0], f.py(hi)), appendF1(capX[:0], x-capW/2)
+		w.nums(`<path d="M%,% H%" stroke="`+colorA+`" stroke-width="1.5"/>`, x0, y, x1)
+		w.s(`<path d="M`).raw(xs).s(",").f1(y - r).raw(tail).s(` z" fill="#fff" stroke="` + colorA + `" stroke-width="1.6"/>`)
+		w.s(`<path d="M`).raw(xs).s(",").raw(los).s(" V").raw(his).s(" M").raw(cx).s(",").raw(los).s(" h").raw(caps).
+			s(" M").raw(cx).s(",").raw(his).s(" h").raw(caps).s(`" stroke="` + colorA + `" stroke-width="1.6"/>` + "\n")
 	}
 }
 
 // overlayDecimated draws, per group of bins, the range from the lowest to
 // the highest value of each side: A as a filled band, B as two step lines.
-func overlayDecimated(w io.Writer, f *frame, e compare.Entry, gs []group) {
-	var lines [2]strings.Builder
+func overlayDecimated(w *page, f *frame, e compare.Entry, gs []group) {
+	var lines [2][]byte
 	for _, g := range gs {
 		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
 		aLo, aHi := extent(e.A[g.first : g.last+1])
@@ -279,23 +366,25 @@ func overlayDecimated(w io.Writer, f *frame, e compare.Entry, gs []group) {
 		if !math.IsInf(aLo, 0) && (!f.logY || aHi > 0) {
 			lo, _ := f.clampY(aLo)
 			hi, _ := f.clampY(aHi)
-			fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s" fill-opacity="0.7"/>`+"\n",
-				x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 1), colorA)
+			w.nums(`<rect x="%" y="%" width="%" height="%" fill="`+colorA+`" fill-opacity="0.7"/>`+"\n",
+				x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 1))
 		}
 		if !math.IsInf(bLo, 0) && (!f.logY || bHi > 0) {
-			for j, v := range []float64{bLo, bHi} {
+			for j, v := range [2]float64{bLo, bHi} {
 				y, _ := f.clampY(v)
-				if lines[j].Len() == 0 {
-					fmt.Fprintf(&lines[j], "M%.1f,%.1f H%.1f", x0, f.py(y), x1)
+				if len(lines[j]) == 0 {
+					lines[j] = appendF1(append(appendF1(append(appendF1(append(lines[j], 'M'), x0), ','), f.py(y)), " H"...), x1)
 				} else {
-					fmt.Fprintf(&lines[j], " V%.1f H%.1f", f.py(y), x1)
+					lines[j] = appendF1(append(appendF1(append(lines[j], " V"...), f.py(y)), " H"...), x1)
 				}
 			}
 		}
 	}
 	for _, l := range lines {
-		if l.Len() > 0 {
-			fmt.Fprintf(w, `<path d="%s" fill="none" stroke="%s" stroke-width="1.6"/>`+"\n", l.String(), colorB)
+		if len(l) > 0 {
+			w.s(`<path d="`)
+			w.b = append(w.b, l...)
+			w.s(`" fill="none" stroke="` + colorB + `" stroke-width="1.6"/>` + "\n")
 		}
 	}
 }
@@ -316,7 +405,7 @@ func extent(xs []float64) (lo, hi float64) {
 // uncertainty of the difference relative to a: a point outside the band is
 // a pull beyond ±1. Bins with a = 0 have no ratio and are left out. Points
 // beyond the axis range are drawn as triangles on its edge.
-func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
+func ratioSVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	f := &frame{w: figW, h: 200, left: figLeft, right: figRight, top: 30, bottom: 40}
 	f.x0, f.x1, f.logX = xFrame(e)
 	ratio := make([]float64, e.Bins)
@@ -359,7 +448,7 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		ylabel = b + " / " + a
 	}
 	f.open(w, "ratio", "ratio "+b+" / "+a, "ratio "+shorten(b, 14)+" / "+shorten(a, 14)+", band = combined uncertainty", "", ylabel)
-	fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`+"\n", f.left, f.w-f.right, f.py(1), f.py(1), colorAxis)
+	w.s(`<line x1="`).g(f.left).s(`" x2="`).g(f.w - f.right).s(`" y1="`).f1(f.py(1)).s(`" y2="`).f1(f.py(1)).s(`" stroke="` + colorAxis + `"/>` + "\n")
 	over := 0
 	for _, g := range gs {
 		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
@@ -372,7 +461,7 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		if !math.IsInf(u, 0) {
 			hi, _ := f.clampY(1 + u)
 			lo, _ := f.clampY(1 - u)
-			fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), f.py(lo)-f.py(hi), colorBand)
+			w.nums(`<rect x="%" y="%" width="%" height="%" fill="`+colorBand+`"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), f.py(lo)-f.py(hi))
 		}
 	}
 	for _, g := range gs {
@@ -384,13 +473,13 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		lo, s0 := f.clampY(rLo)
 		hi, s1 := f.clampY(rHi)
 		if k > 1 {
-			fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 1), colorB)
+			w.nums(`<rect x="%" y="%" width="%" height="%" fill="`+colorB+`"/>`+"\n", x0, f.py(hi), math.Max(x1-x0, 0.3), math.Max(f.py(lo)-f.py(hi), 1))
 		} else if s0 == 0 {
 			y := f.py(lo)
-			fmt.Fprintf(w, `<path d="M%.1f,%.1f H%.1f" stroke="%s" stroke-width="1.5"/><circle cx="%.1f" cy="%.1f" r="%.1f" fill="%s"/>`+"\n",
-				x0, y, x1, colorA, (x0+x1)/2, y, math.Max(1.5, math.Min(4, (x1-x0)*0.25)), colorA)
+			w.nums(`<path d="M%,% H%" stroke="`+colorA+`" stroke-width="1.5"/><circle cx="%" cy="%" r="%" fill="`+colorA+`"/>`+"\n",
+				x0, y, x1, (x0+x1)/2, y, math.Max(1.5, math.Min(4, (x1-x0)*0.25)))
 		}
-		for _, s := range []int{s0, s1} {
+		for _, s := range [2]int{s0, s1} {
 			if s != 0 {
 				over++
 				overflowMark(w, f, (x0+x1)/2, s)
@@ -399,9 +488,9 @@ func ratioSVG(w io.Writer, e compare.Entry, a, b string, gs []group, k int) {
 		}
 	}
 	if over > 0 {
-		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g" text-anchor="end">%d beyond the axis (▲▼)</text>`+"\n", f.w-f.right, f.top-10, over)
+		w.s(`<text class="overflow-note" x="`).g(f.w - f.right).s(`" y="`).g(f.top - 10).s(`" text-anchor="end">`).d(over).s(" beyond the axis (▲▼)</text>\n")
 	}
-	fmt.Fprintln(w, "</svg>")
+	w.s("</svg>\n")
 }
 
 // shorten keeps the last n-1 characters of a long name (the informative
@@ -433,13 +522,13 @@ func boolInt(b bool) int {
 
 // overflowMark draws a triangle on the top (side > 0) or bottom edge of the
 // plot, pointing out of it.
-func overflowMark(w io.Writer, f *frame, x float64, side int) {
+func overflowMark(w *page, f *frame, x float64, side int) {
 	if side > 0 {
 		y := f.top
-		fmt.Fprintf(w, `<path class="overflow" d="M%.1f,%.1f l6,11 h-12 z" fill="%s"/>`+"\n", x, y+1, colorOut)
+		w.nums(`<path class="overflow" d="M%,% l6,11 h-12 z" fill="`+colorOut+`"/>`+"\n", x, y+1)
 	} else {
 		y := f.h - f.bottom
-		fmt.Fprintf(w, `<path class="overflow" d="M%.1f,%.1f l6,-11 h-12 z" fill="%s"/>`+"\n", x, y-1, colorOut)
+		w.nums(`<path class="overflow" d="M%,% l6,-11 h-12 z" fill="`+colorOut+`"/>`+"\n", x, y-1)
 	}
 }
 
@@ -459,15 +548,15 @@ func pullRange(pulls []float64, limit float64) float64 {
 // pullsSVG draws the pull of each bin as a bar from zero, with the limit as
 // dashed lines. In a decimated figure each group shows its largest |pull|,
 // so no outlier disappears. Bars beyond the axis end in a triangle.
-func pullsSVG(w io.Writer, e compare.Entry, limit float64, gs []group, k int) {
+func pullsSVG(w *page, e compare.Entry, limit float64, gs []group, k int) {
 	m := pullRange(e.Pulls, limit)
 	f := &frame{w: figW, h: 230, left: figLeft, right: figRight, top: 30, bottom: 62, y0: -m, y1: m}
 	f.x0, f.x1, f.logX = xFrame(e)
 	f.open(w, "pulls", "pulls per bin", "pull per bin", e.XLabel, "(a − b) / σ_d")
-	fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s"/>`+"\n", f.left, f.w-f.right, f.py(0), f.py(0), colorAxis)
+	w.s(`<line x1="`).g(f.left).s(`" x2="`).g(f.w - f.right).s(`" y1="`).f1(f.py(0)).s(`" y2="`).f1(f.py(0)).s(`" stroke="` + colorAxis + `"/>` + "\n")
 	if limit > 0 && limit < m {
-		for _, s := range []float64{-limit, limit} {
-			fmt.Fprintf(w, `<line x1="%g" x2="%g" y1="%.1f" y2="%.1f" stroke="%s" stroke-dasharray="7 4"/>`+"\n", f.left, f.w-f.right, f.py(s), f.py(s), colorOut)
+		for _, s := range [2]float64{-limit, limit} {
+			w.s(`<line x1="`).g(f.left).s(`" x2="`).g(f.w - f.right).s(`" y1="`).f1(f.py(s)).s(`" y2="`).f1(f.py(s)).s(`" stroke="` + colorOut + `" stroke-dasharray="7 4"/>` + "\n")
 		}
 	}
 	zero := map[int]bool{}
@@ -497,7 +586,7 @@ func pullsSVG(w io.Writer, e compare.Entry, limit float64, gs []group, k int) {
 		if k > 1 || x1-x0 < 3 {
 			gap = 0
 		}
-		fmt.Fprintf(w, `<rect x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s"/>`+"\n", x0+gap, top, math.Max(x1-x0-2*gap, 0.4), h, col)
+		w.nums(`<rect x="%" y="%" width="%" height="%" fill="`, x0+gap, top, math.Max(x1-x0-2*gap, 0.4), h).s(col).s(`"/>` + "\n")
 		if side != 0 {
 			over = append(over, p)
 			overflowMark(w, f, (x0+x1)/2, side)
@@ -507,10 +596,10 @@ func pullsSVG(w io.Writer, e compare.Entry, limit float64, gs []group, k int) {
 		worst := slices.MaxFunc(over, func(x, y float64) int {
 			return cmpFloat(math.Abs(x), math.Abs(y))
 		})
-		fmt.Fprintf(w, `<text class="overflow-note" x="%g" y="%g" text-anchor="end">%d beyond ±%s (largest %s) ▲▼</text>`+"\n",
-			f.w-f.right, f.top-10, len(over), num(m), num(worst))
+		w.s(`<text class="overflow-note" x="`).g(f.w - f.right).s(`" y="`).g(f.top - 10).s(`" text-anchor="end">`).d(len(over)).
+			s(" beyond ±").s(num(m)).s(" (largest ").s(num(worst)).s(") ▲▼</text>\n")
 	}
-	fmt.Fprintln(w, "</svg>")
+	w.s("</svg>\n")
 }
 
 func cmpFloat(x, y float64) int {
@@ -527,9 +616,9 @@ func cmpFloat(x, y float64) int {
 // uncertainty left out) in steps of 0.5 over ±R, R = 5 widened up to 8 for
 // the largest pull, with the expected counts n·0.5·φ(x) of the unit
 // normal. Pulls beyond ±R are counted in hatched overflow bars outside the
-// axis. With logY the counts are on a log axis.
-func histSVG(w io.Writer, id string, e compare.Entry, logY bool) {
-	used := pullsUsed(e)
+// axis. With logY the counts are on a log axis. used are the pulls of
+// the bins with a combined uncertainty ([pullsUsed]).
+func histSVG(w *page, id string, e compare.Entry, used []float64, logY bool) {
 	R := 5.0
 	for _, p := range used {
 		if a := math.Abs(p); a > R && !math.IsInf(a, 0) {
@@ -570,20 +659,20 @@ func histSVG(w io.Writer, id string, e compare.Entry, logY bool) {
 		class, label = "hist hist-log", "pull distribution (log scale)"
 	}
 	f.open(w, class, label, "pull distribution against N(0, 1)", "pull", "bins")
-	fmt.Fprintf(w, `<text x="%g" y="%g" text-anchor="end"><tspan fill="%s">▮ pulls (%d bins)</tspan><tspan dx="18" fill="%s">— expected for N(0, 1)</tspan></text>`+"\n",
-		f.w-f.right, f.top-10, colorBar, len(used), colorOut)
+	w.s(`<text x="`).g(f.w - f.right).s(`" y="`).g(f.top - 10).s(`" text-anchor="end"><tspan fill="` + colorBar + `">▮ pulls (`).d(len(used)).
+		s(` bins)</tspan><tspan dx="18" fill="` + colorOut + `">— expected for N(0, 1)</tspan></text>` + "\n")
 	bar := func(lo, hi, c float64, fill, class string) {
 		if c <= 0 {
 			return
 		}
-		fmt.Fprintf(w, `<rect class="%s" x="%.1f" y="%.1f" width="%.1f" height="%.1f" fill="%s" stroke="%s"/>`+"\n",
-			class, f.px(lo), f.py(c), f.px(hi)-f.px(lo), f.py(f.y0)-f.py(c), fill, colorAxis)
+		w.s(`<rect class="`).s(class).nums(`" x="%" y="%" width="%" height="%" fill="`, f.px(lo), f.py(c), f.px(hi)-f.px(lo), f.py(f.y0)-f.py(c)).
+			s(fill).s(`" stroke="` + colorAxis + `"/>` + "\n")
 	}
 	for k, c := range counts {
 		bar(-R+float64(k)*width, -R+float64(k+1)*width, c, "#b9c0d0", "bin")
 	}
 	if under > 0 || over > 0 {
-		fmt.Fprintf(w, `<defs><pattern id="hatch-%s" width="8" height="8" patternUnits="userSpaceOnUse" patternTransform="rotate(45)"><rect width="8" height="8" fill="#fff"/><line x1="0" y1="0" x2="0" y2="8" stroke="%s" stroke-width="3"/></pattern></defs>`+"\n", id, colorOut)
+		w.s(`<defs><pattern id="hatch-`).s(id).s(`" width="8" height="8" patternUnits="userSpaceOnUse" patternTransform="rotate(45)"><rect width="8" height="8" fill="#fff"/><line x1="0" y1="0" x2="0" y2="8" stroke="` + colorOut + `" stroke-width="3"/></pattern></defs>` + "\n")
 	}
 	for _, o := range []struct {
 		c, lo, hi  float64
@@ -594,19 +683,56 @@ func histSVG(w io.Writer, id string, e compare.Entry, logY bool) {
 			continue
 		}
 		bar(o.lo, o.hi, o.c, "url(#hatch-"+id+")", "overflow")
-		fmt.Fprintf(w, `<text class="overflow-note" x="%.1f" y="%.1f" text-anchor="middle" font-size="%g">%s: %s</text>`+"\n",
-			f.px(o.at), f.py(o.c)-8, tickFont, esc(o.text), num(o.c))
+		w.nums(`<text class="overflow-note" x="%" y="%" text-anchor="middle" font-size="`, f.px(o.at), f.py(o.c)-8).g(tickFont).s(`">`).e(o.text).s(": ").s(num(o.c)).s("</text>\n")
 	}
-	var pts []string
-	for x := -R; x <= R+1e-9; x += 0.05 {
-		y := n * width * math.Exp(-x*x/2) / math.Sqrt(2*math.Pi)
+	w.s(`<polyline points="`)
+	c := w.normalCurve(f, R)
+	sep := false
+	for i, g := range c.gauss {
+		y := n * width * g / math.Sqrt(2*math.Pi)
 		if logY && y < f.y0 {
 			continue
 		}
-		pts = append(pts, fmt.Sprintf("%.1f,%.1f", f.px(x), f.py(y)))
+		if sep {
+			w.b = append(w.b, ' ')
+		}
+		sep = true
+		w.s(c.px[i]).s(",").f1(f.py(y))
 	}
-	fmt.Fprintf(w, `<polyline points="%s" fill="none" stroke="%s" stroke-width="2"/>`+"\n", strings.Join(pts, " "), colorOut)
-	fmt.Fprintln(w, "</svg>")
+	w.s(`" fill="none" stroke="` + colorOut + `" stroke-width="2"/>` + "\n")
+	w.s("</svg>\n")
+}
+
+// curve is the normal curve of a pull histogram over ±R: exp(−x²/2) at
+// x = −R, −R + 0.05, … up to R, and each x as a coordinate of the figure.
+// Pages of many comparisons draw it over a handful of axes, so
+// [page.normalCurve] computes it once for each.
+type curve struct {
+	gauss []float64
+	px    []string
+}
+
+type curveKey struct{ r, x0, x1 float64 }
+
+// normalCurve returns the curve over ±R for the histogram frame f; of a
+// histogram's frame only the x range varies.
+func (w *page) normalCurve(f *frame, R float64) *curve {
+	key := curveKey{R, f.x0, f.x1}
+	if c, ok := w.curves[key]; ok {
+		return c
+	}
+	c := &curve{}
+	var buf []byte
+	for x := -R; x <= R+1e-9; x += 0.05 {
+		c.gauss = append(c.gauss, math.Exp(-x*x/2))
+		buf = appendF1(buf[:0], f.px(x))
+		c.px = append(c.px, string(buf))
+	}
+	if w.curves == nil {
+		w.curves = map[curveKey]*curve{}
+	}
+	w.curves[key] = c
+	return c
 }
 
 // pullsUsed returns the pulls of the bins that carry one (none without

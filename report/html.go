@@ -1,9 +1,9 @@
 package report
 
 import (
-	"fmt"
 	"html"
 	"io"
+	"strconv"
 	"strings"
 
 	"tandem/compare"
@@ -59,35 +59,48 @@ details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 // per-bin table. Above 2000 bins the per-bin panels are decimated and the
 // page says how.
 func HTML(w io.Writer, s *compare.Summary) error {
-	ew := &errWriter{w: w}
+	size := 8192
+	for _, e := range s.Entries {
+		// a little more than the figures and the table of one comparison
+		// take (measured: 34 kB for 20 bins); less would make the
+		// destination grow twice over
+		if e.Result != nil {
+			gs, _ := groups(e.Bins)
+			size += 18432 + 800*len(gs) + 200*min(e.Bins, maxTableRows)
+		}
+	}
+	p := newPage(w, size)
 	title := s.Title
 	if title == "" {
 		title = "tandem cross-check"
 	}
-	fmt.Fprintf(ew, "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>%s</title>\n<style>%s</style></head><body>\n", esc(title), pageCSS)
-	fmt.Fprintf(ew, "<h1>%s</h1>\n", esc(title))
+	p.s("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>").e(title).
+		s("</title>\n<style>" + pageCSS + "</style></head><body>\n")
+	p.s("<h1>").e(title).s("</h1>\n")
 	failed := failures(s)
 	if failed == 0 {
-		fmt.Fprintf(ew, "<p class=\"banner agree\">Verdict: <b class=\"pass\">agree</b>: all %d comparisons within tolerance</p>\n", len(s.Entries))
+		p.s(`<p class="banner agree">Verdict: <b class="pass">agree</b>: all `).d(len(s.Entries)).s(" comparisons within tolerance</p>\n")
 	} else {
-		fmt.Fprintf(ew, "<p class=\"banner disagree\">Verdict: <b class=\"fail\">disagree</b>: %d of %d comparisons outside tolerance</p>\n", failed, len(s.Entries))
+		p.s(`<p class="banner disagree">Verdict: <b class="fail">disagree</b>: `).d(failed).s(" of ").d(len(s.Entries)).s(" comparisons outside tolerance</p>\n")
 	}
 	for _, a := range s.Accepted {
-		fmt.Fprintf(ew, "<p class=\"banner accepted\"><b>Disagreement accepted</b> by %s: %s</p>\n", esc(joinList(a.By)), esc(a.Reason))
+		acceptedHTML(p, a)
 	}
 	for _, n := range s.Notes {
-		fmt.Fprintf(ew, "<p class=\"note\">%s</p>\n", esc(n))
+		p.s(`<p class="note">`).e(n).s("</p>\n")
 	}
-	fmt.Fprintln(ew, `<h3>Contents</h3><ol class="toc">`)
-	for i, e := range ordered(s) {
-		fmt.Fprintf(ew, `<li><a href="#c%d">%s</a> %s</li>`+"\n", i, esc(entryTitle(e)), verdictSpan(e.Pass))
+	p.s(`<h3>Contents</h3><ol class="toc">` + "\n")
+	entries := ordered(s)
+	for i, e := range entries {
+		p.s(`<li><a href="#c`).d(i).s(`">`).e(entryTitle(e)).s("</a> ").s(verdictSpan(e.Pass)).s("</li>\n")
 	}
-	fmt.Fprintln(ew, "</ol>")
-	for i, e := range ordered(s) {
-		entryHTML(ew, fmt.Sprintf("c%d", i), e, s.Accepted)
+	p.s("</ol>\n")
+	for i, e := range entries {
+		entryHTML(p, "c"+strconv.Itoa(i), e, s.Accepted)
+		p.maybeFlush()
 	}
-	fmt.Fprintln(ew, "<p class=\"note\">Two chains agreeing is not proof that either is right; the collaboration's own review and publication rules govern.</p>\n</body></html>")
-	return ew.err
+	p.s("<p class=\"note\">Two chains agreeing is not proof that either is right; the collaboration's own review and publication rules govern.</p>\n</body></html>\n")
+	return p.flush()
 }
 
 func failures(s *compare.Summary) int {
@@ -109,82 +122,85 @@ func verdictSpan(pass bool) string {
 	return `<span class="fail">fail</span>`
 }
 
-func entryHTML(w io.Writer, id string, e compare.Entry, accepted []compare.Acceptance) {
-	fmt.Fprintf(w, `<h2 id="%s">%s: %s</h2>`+"\n", id, esc(entryTitle(e)), verdictSpan(e.Pass))
+func acceptedHTML(p *page, a compare.Acceptance) {
+	p.s(`<p class="banner accepted"><b>Disagreement accepted</b> by `).e(joinList(a.By)).s(": ").e(a.Reason).s("</p>\n")
+}
+
+func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptance) {
+	p.s(`<h2 id="`).s(id).s(`">`).e(entryTitle(e)).s(": ").s(verdictSpan(e.Pass)).s("</h2>\n")
 	if e.Title != "" {
-		fmt.Fprintf(w, "<p class=\"subtitle\">%s</p>\n", esc(e.Title))
+		p.s(`<p class="subtitle">`).e(e.Title).s("</p>\n")
 	}
 	if !e.Pass {
 		for _, a := range accepted {
-			fmt.Fprintf(w, "<p class=\"banner accepted\"><b>Disagreement accepted</b> by %s: %s</p>\n", esc(joinList(a.By)), esc(a.Reason))
+			acceptedHTML(p, a)
 		}
 	}
 	if e.Blinded {
-		fmt.Fprintln(w, `<p><span class="badge">blinded values</span> the numbers shown are blinded; pulls and p-values equal the true ones</p>`)
+		p.s(`<p><span class="badge">blinded values</span> the numbers shown are blinded; pulls and p-values equal the true ones</p>` + "\n")
 	}
 	if filesShown(e) {
 		a, b := e.Sides()
-		fmt.Fprintf(w, "<p>%s: <code>%s</code>; %s: <code>%s</code></p>\n", esc(a), esc(e.Files[0]), esc(b), esc(e.Files[1]))
+		p.s("<p>").e(a).s(": <code>").e(e.Files[0]).s("</code>; ").e(b).s(": <code>").e(e.Files[1]).s("</code></p>\n")
 	}
 	limit := pullLimit(e)
-	fmt.Fprintln(w, `<figure class="panels">`)
-	figure(w, id, e, limit)
-	fmt.Fprintln(w, `</figure>`)
+	p.s(`<figure class="panels">` + "\n")
+	figure(p, id, e, limit)
+	p.s("</figure>\n")
 	if _, k := groups(e.Bins); k > 1 {
-		fmt.Fprintf(w, "<p class=\"note\">%d bins are drawn as %d groups of %d consecutive bins: in the values and ratio panels each group spans its lowest to its highest value, the pull panel shows each group's largest |pull|; the histogram, the statistics and the JSON report use every bin.</p>\n",
-			e.Bins, (e.Bins+k-1)/k, k)
+		p.s(`<p class="note">`).d(e.Bins).s(" bins are drawn as ").d((e.Bins + k - 1) / k).s(" groups of ").d(k).
+			s(" consecutive bins: in the values and ratio panels each group spans its lowest to its highest value, the pull panel shows each group's largest |pull|; the histogram, the statistics and the JSON report use every bin.</p>\n")
 	}
-	used := len(pullsUsed(e))
+	used := pullsUsed(e)
 	checked := ""
-	if used >= 500 {
+	if len(used) >= 500 {
 		checked = " checked"
 	}
-	fmt.Fprintf(w, "<figure class=\"histfig\"><input type=\"checkbox\" class=\"logtoggle\" id=\"log-%s\"%s><label for=\"log-%s\">log scale for the counts</label>\n", id, checked, id)
-	histSVG(w, id, e, false)
-	histSVG(w, id+"-log", e, true)
-	fmt.Fprintln(w, "</figure>")
-	fmt.Fprintln(w, "<table><tr><th>criterion</th><th>value</th><th>adjusted p</th><th>limit</th><th>result</th></tr>")
+	p.s(`<figure class="histfig"><input type="checkbox" class="logtoggle" id="log-`).s(id).s(`"`).s(checked).s(`><label for="log-`).s(id).s(`">log scale for the counts</label>` + "\n")
+	histSVG(p, id, e, used, false)
+	histSVG(p, id+"-log", e, used, true)
+	p.s("</figure>\n")
+	p.s("<table><tr><th>criterion</th><th>value</th><th>adjusted p</th><th>limit</th><th>result</th></tr>\n")
 	for _, c := range e.Criteria {
 		name, v, adj, lim := critCells(c)
-		fmt.Fprintf(w, "<tr><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td></tr>\n", esc(name), v, adj, esc(lim), verdictSpan(c.Pass))
+		p.s("<tr><td>").e(name).s("</td><td>").s(v).s("</td><td>").s(adj).s("</td><td>").e(lim).s("</td><td>").s(verdictSpan(c.Pass)).s("</td></tr>\n")
 	}
-	fmt.Fprintln(w, "</table>")
+	p.s("</table>\n")
 	if e.Alpha > 0 {
-		fmt.Fprintf(w, "<p>The p-values are adjusted together (Holm) over %d p-values, so that agreeing chains fail with probability at most α = %s.</p>\n", e.Family, num(e.Alpha))
+		p.s("<p>The p-values are adjusted together (Holm) over ").d(e.Family).s(" p-values, so that agreeing chains fail with probability at most α = ").s(num(e.Alpha)).s(".</p>\n")
 	}
 	if l := sourcesLine(e); l != "" {
-		fmt.Fprintf(w, "<p>%s</p>\n", esc(capitalize(l)))
+		p.s("<p>").e(capitalize(l)).s("</p>\n")
 	}
 	for _, c := range e.Criteria {
 		if !c.Pass && c.Detail != "" {
-			fmt.Fprintf(w, "<p class=\"note\">%s: %s</p>\n", esc(c.Name), esc(c.Detail))
+			p.s(`<p class="note">`).e(c.Name).s(": ").e(c.Detail).s("</p>\n")
 		}
 	}
-	fmt.Fprintf(w, "<p>%s</p>\n", esc(capitalize(shapeLine(e))))
+	p.s("<p>").e(capitalize(shapeLine(e))).s("</p>\n")
 	for _, wn := range e.Warnings {
-		fmt.Fprintf(w, "<p class=\"note warn\">%s</p>\n", esc(wn))
+		p.s(`<p class="note warn">`).e(wn).s("</p>\n")
 	}
-	binTableHTML(w, e)
+	binTableHTML(p, e)
 }
 
 // binTableHTML writes the per-bin values in a collapsed <details> block.
-func binTableHTML(w io.Writer, e compare.Entry) {
+func binTableHTML(p *page, e compare.Entry) {
 	idx, cut := rows(e.Result, Style{MaxRows: maxTableRows})
-	what := fmt.Sprintf("all %d bins", e.Bins)
-	if cut {
-		what = fmt.Sprintf("the %d bins with the largest |pull| of %d (the JSON report has every bin)", len(idx), e.Bins)
-	}
 	a, b := e.Sides()
-	fmt.Fprintf(w, "<details><summary>Per-bin values: %s</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>%s</th><th>±</th><th>%s</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n", what, esc(a), esc(b))
-	for _, i := range idx {
-		c := binCells(e, i)
-		fmt.Fprint(w, "<tr>")
-		for _, x := range c {
-			fmt.Fprintf(w, "<td>%s</td>", esc(x))
-		}
-		fmt.Fprintln(w, "</tr>")
+	p.s("<details><summary>Per-bin values: ")
+	if cut {
+		p.s("the ").d(len(idx)).s(" bins with the largest |pull| of ").d(e.Bins).s(" (the JSON report has every bin)")
+	} else {
+		p.s("all ").d(e.Bins).s(" bins")
 	}
-	fmt.Fprintln(w, "</table></details>")
+	p.s("</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
+	for _, i := range idx {
+		p.s("<tr>")
+		binRow(p, e, i, "<td>", "</td>")
+		p.s("</tr>\n")
+	}
+	p.s("</table></details>\n")
 }
 
 // joinList writes names as "a, b and c".

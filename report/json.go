@@ -2,7 +2,6 @@ package report
 
 import (
 	"bytes"
-	"encoding/json"
 	"io"
 	"math"
 	"strconv"
@@ -115,7 +114,9 @@ type jsonEntry struct {
 
 // JSONValue builds the JSON document of s as a value, for callers that
 // embed or hash it.
-func JSONValue(s *compare.Summary) any {
+func JSONValue(s *compare.Summary) any { return jsonValue(s) }
+
+func jsonValue(s *compare.Summary) jsonSummary {
 	out := jsonSummary{Verdict: s.Verdict(), Title: s.Title, Campaign: s.Campaign, Notes: s.Notes,
 		Accepted: s.Accepted, Observables: []jsonEntry{}}
 	if out.Accepted == nil {
@@ -236,6 +237,9 @@ func appendJSONNumber(b []byte, v float64) []byte {
 	case math.IsInf(v, -1):
 		return append(b, `"-Inf"`...)
 	}
+	if b2, ok := appendShortDecimal(b, v); ok {
+		return b2
+	}
 	if a := math.Abs(v); a != 0 && (a < 1e-6 || a >= 1e21) {
 		start := len(b)
 		b = strconv.AppendFloat(b, v, 'e', -1, 64)
@@ -252,9 +256,45 @@ func appendJSONNumber(b []byte, v float64) []byte {
 	return strconv.AppendFloat(b, v, 'f', -1, 64)
 }
 
+// appendShortDecimal appends v when it is an integer below 2⁵³ or has at
+// most four decimals and is below 10⁹, in the form strconv's shortest 'f'
+// writes it, and says whether it did. For such an integer every digit is
+// needed (the neighbouring values are at most 1 apart), so the shortest
+// form is the integer itself. Otherwise, the fewest decimals p for which
+// n = round(v·10ᵖ) gives n/10ᵖ == v (both exact, the division correctly
+// rounded, so the decimal n·10⁻ᵖ reads back as v) is the shortest form:
+// below 10⁹ two such n at one p would lie less than an ulp (< 2⁻²³) apart.
+func appendShortDecimal(b []byte, v float64) ([]byte, bool) {
+	a := math.Abs(v)
+	if !(a < 1<<53) || (v == 0 && math.Signbit(v)) {
+		return b, false
+	}
+	if v == math.Trunc(v) {
+		return strconv.AppendInt(b, int64(v), 10), true
+	}
+	if !(a < 1e9) {
+		return b, false
+	}
+	for p := 1; p <= 4; p++ {
+		n := math.Round(a * pow10[p])
+		if n/pow10[p] == a {
+			return appendFixed(b, v, p), true
+		}
+	}
+	return b, false
+}
+
 // JSON writes s as one indented JSON object followed by a newline.
 func JSON(w io.Writer, s *compare.Summary) error {
-	enc := json.NewEncoder(jsonEscaper{w})
-	enc.SetIndent("", "  ")
-	return enc.Encode(JSONValue(s))
+	size := 4096
+	for _, e := range s.Entries {
+		if e.Result != nil {
+			size += 3072 + 256*e.Bins // nine numbers of up to 28 bytes a bin
+		}
+	}
+	p := newPage(w, size)
+	j := jsonWriter{b: p.b}
+	j.summary(jsonValue(s))
+	p.b = append(j.b, '\n')
+	return p.flush()
 }

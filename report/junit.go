@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"strings"
+	"unicode/utf8"
 
 	"tandem/compare"
 )
@@ -44,12 +45,8 @@ type junitText struct {
 	Text string `xml:",cdata"`
 }
 
-// JUnit writes one test suite per pair of chains, named after the
-// campaign and the pair, e.g. "campaign muon: heron vs otter" (in table
-// mode the pair alone), with one test case per observable and column, named
-// "observable / column" (and its title when declared); a failing case
-// carries its failed criteria, and an accepted disagreement says so.
-func JUnit(w io.Writer, s *compare.Summary) error {
+// junitValue is the JUnit document of s.
+func junitValue(s *compare.Summary) junitSuites {
 	name := s.Title
 	if s.Campaign != "" {
 		name = "campaign " + s.Campaign
@@ -99,14 +96,121 @@ func JUnit(w io.Writer, s *compare.Summary) error {
 		out.Tests++
 		out.Suites[k].Cases = append(out.Suites[k].Cases, c)
 	}
-	if _, err := io.WriteString(w, xml.Header); err != nil {
-		return err
+	return out
+}
+
+// JUnit writes one test suite per pair of chains, named after the
+// campaign and the pair, e.g. "campaign muon: heron vs otter" (in table
+// mode the pair alone), with one test case per observable and column, named
+// "observable / column" (and its title when declared); a failing case
+// carries its failed criteria, and an accepted disagreement says so.
+func JUnit(w io.Writer, s *compare.Summary) error {
+	out := junitValue(s)
+	p := newPage(w, 1024+512*len(s.Entries))
+	p.s(xml.Header)
+	writeJUnit(p, &out)
+	p.s("\n")
+	return p.flush()
+}
+
+// writeJUnit writes the suites as encoding/xml's Encoder with Indent("",
+// "  ") writes them (TestJUnitWriterMatchesEncoding holds it to that),
+// without its reflection.
+func writeJUnit(p *page, out *junitSuites) {
+	p.s(`<testsuites name="`).xmlAttr(out.Name).s(`" tests="`).d(out.Tests).s(`" failures="`).d(out.Failures).s(`">`)
+	if len(out.Suites) == 0 {
+		p.s("</testsuites>")
+		return
 	}
-	enc := xml.NewEncoder(w)
-	enc.Indent("", "  ")
-	if err := enc.Encode(out); err != nil {
-		return err
+	for _, su := range out.Suites {
+		p.s("\n  <testsuite name=\"").xmlAttr(su.Name).s(`" tests="`).d(su.Tests).s(`" failures="`).d(su.Failures).
+			s(`" errors="`).d(su.Errors).s(`" skipped="`).d(su.Skipped).s(`">`)
+		if len(su.Cases) == 0 {
+			p.s("</testsuite>")
+			continue
+		}
+		for _, c := range su.Cases {
+			p.s("\n    <testcase name=\"").xmlAttr(c.Name).s(`" classname="`).xmlAttr(c.Classname).s(`">`)
+			if c.Failure == nil && c.SystemOut == nil {
+				p.s("</testcase>")
+				continue
+			}
+			if f := c.Failure; f != nil {
+				p.s("\n      <failure message=\"").xmlAttr(f.Message).s(`" type="`).xmlAttr(f.Type).s(`">`).cdata(f.Text).s("</failure>")
+			}
+			if o := c.SystemOut; o != nil {
+				p.s("\n      <system-out>").cdata(o.Text).s("</system-out>")
+			}
+			p.s("\n    </testcase>")
+		}
+		p.s("\n  </testsuite>")
 	}
-	_, err := io.WriteString(w, "\n")
-	return err
+	p.s("\n</testsuites>")
+}
+
+// xmlAttr appends s escaped as encoding/xml escapes text: the five XML
+// specials, tab, line feed and carriage return as character references,
+// and each character outside XML's range (and each byte that is not
+// UTF-8) as U+FFFD.
+func (p *page) xmlAttr(s string) *page {
+	start := 0
+	for i := 0; i < len(s); {
+		r, n := rune(s[i]), 1
+		if r >= utf8.RuneSelf {
+			r, n = utf8.DecodeRuneInString(s[i:])
+		}
+		var esc string
+		switch r {
+		case '"':
+			esc = "&#34;"
+		case '\'':
+			esc = "&#39;"
+		case '&':
+			esc = "&amp;"
+		case '<':
+			esc = "&lt;"
+		case '>':
+			esc = "&gt;"
+		case '\t':
+			esc = "&#x9;"
+		case '\n':
+			esc = "&#xA;"
+		case '\r':
+			esc = "&#xD;"
+		default:
+			if !xmlChar(r) || (r == utf8.RuneError && n == 1) {
+				esc = "\uFFFD"
+				break
+			}
+			i += n
+			continue
+		}
+		p.s(s[start:i]).s(esc)
+		i += n
+		start = i
+	}
+	return p.s(s[start:])
+}
+
+// xmlChar reports whether r is a character XML allows (XML 1.0, Char).
+func xmlChar(r rune) bool {
+	return r == 0x09 || r == 0x0a || r == 0x0d || r >= 0x20 && r <= 0xd7ff || r >= 0xe000 && r <= 0xfffd || r >= 0x10000 && r <= 0x10ffff
+}
+
+// cdata appends s as a CDATA section, as encoding/xml writes one: nothing
+// for an empty s, and each "]]>" inside split over two sections.
+func (p *page) cdata(s string) *page {
+	if s == "" {
+		return p
+	}
+	p.s("<![CDATA[")
+	for {
+		before, after, ok := strings.Cut(s, "]]>")
+		if !ok {
+			break
+		}
+		p.s(before).s("]]]]><![CDATA[>")
+		s = after
+	}
+	return p.s(s).s("]]>")
 }

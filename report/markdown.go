@@ -11,7 +11,7 @@ import (
 // Markdown writes the verdict, a criteria table and a per-bin table for
 // each comparison, ready to paste into a meeting page or a merge request.
 func Markdown(w io.Writer, s *compare.Summary, st Style) error {
-	ew := &errWriter{w: w}
+	ew := newPage(w, mdSize(s, st))
 	word := "agree"
 	if !s.Pass() {
 		word = "**disagree**"
@@ -32,37 +32,36 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	}
 	fmt.Fprintln(ew, "| comparison | verdict | χ²/ndf | p-value | max \\|pull\\| |")
 	fmt.Fprintln(ew, "| --- | --- | ---: | ---: | ---: |")
-	for _, e := range ordered(s) {
-		fmt.Fprintf(ew, "| %s | %s | %s | %s | %s |\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass),
-			chi2NDF(e), pval(e.PValue), num(e.MaxAbsPull))
+	entries := ordered(s)
+	for _, e := range entries {
+		ew.s("| ").s(mdEscape(entryTitle(e))).s(" | ").s(mdVerdict(e.Pass)).s(" | ").s(chi2NDF(e)).s(" | ").s(pval(e.PValue)).s(" | ").s(num(e.MaxAbsPull)).s(" |\n")
 	}
-	for _, e := range ordered(s) {
-		fmt.Fprintf(ew, "\n### %s: %s\n\n", mdEscape(entryTitle(e)), mdVerdict(e.Pass))
+	for _, e := range entries {
+		ew.s("\n### ").s(mdEscape(entryTitle(e))).s(": ").s(mdVerdict(e.Pass)).s("\n\n")
 		if e.Title != "" {
-			fmt.Fprintf(ew, "%s\n\n", mdEscape(e.Title))
+			ew.s(mdEscape(e.Title)).s("\n\n")
 		}
 		if e.Blinded {
-			fmt.Fprint(ew, "Values are blinded.\n\n")
+			ew.s("Values are blinded.\n\n")
 		}
 		if !e.Pass {
 			for _, a := range s.Accepted {
 				fmt.Fprintf(ew, "**Disagreement accepted** by %s: %s\n\n", mdEscape(joinList(a.By)), mdEscape(a.Reason))
 			}
 		}
-		fmt.Fprintln(ew, "| criterion | value | adjusted | limit | result |")
-		fmt.Fprintln(ew, "| --- | ---: | ---: | ---: | --- |")
+		ew.s("| criterion | value | adjusted | limit | result |\n| --- | ---: | ---: | ---: | --- |\n")
 		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
 				res = "**FAIL**: " + mdEscape(c.Detail)
 			}
 			name, v, adj, lim := critCells(c)
-			fmt.Fprintf(ew, "| %s | %s | %s | %s | %s |\n", mdEscape(name), v, adj, mdEscape(lim), res)
+			ew.s("| ").s(mdEscape(name)).s(" | ").s(v).s(" | ").s(adj).s(" | ").s(mdEscape(lim)).s(" | ").s(res).s(" |\n")
 		}
 		if l := sourcesLine(e); l != "" {
-			fmt.Fprintf(ew, "\n%s\n", mdEscape(capitalize(l)))
+			ew.s("\n").s(mdEscape(capitalize(l))).s("\n")
 		}
-		fmt.Fprintf(ew, "\n%s.\n", mdEscape(capitalize(shapeLine(e))))
+		ew.s("\n").s(mdEscape(capitalize(shapeLine(e)))).s(".\n")
 		for _, wn := range e.Warnings {
 			fmt.Fprintf(ew, "\n> warning: %s\n", mdEscape(wn))
 		}
@@ -71,13 +70,15 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 			fmt.Fprintf(ew, "\nThe %d bins with the largest |pull| of %d:\n", len(idx), e.Bins)
 		}
 		a, b := e.Sides()
-		fmt.Fprintf(ew, "\n| bin | lo | hi | %s | ± | %s | ± | a − b | σ\\_d | pull |\n", mdEscape(a), mdEscape(b))
-		fmt.Fprintln(ew, "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
+		ew.s("\n| bin | lo | hi | ").s(mdEscape(a)).s(" | ± | ").s(mdEscape(b)).s(" | ± | a − b | σ\\_d | pull |\n| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |\n")
 		for _, i := range idx {
-			fmt.Fprintf(ew, "| %s |\n", strings.Join(binCells(e, i), " | "))
+			ew.s("|")
+			binRow(ew, e, i, " ", " |")
+			ew.s("\n")
 		}
+		ew.maybeFlush()
 	}
-	return ew.err
+	return ew.flush()
 }
 
 func capitalize(s string) string {
@@ -97,3 +98,18 @@ func mdVerdict(pass bool) string {
 var mdReplacer = strings.NewReplacer("|", "\\|", "<", "&lt;", ">", "&gt;", "*", "\\*", "_", "\\_", "`", "\\`", "\n", " ")
 
 func mdEscape(s string) string { return mdReplacer.Replace(s) }
+
+// mdSize is about the size of the text or Markdown report of s.
+func mdSize(s *compare.Summary, st Style) int {
+	limit := st.MaxRows
+	if limit <= 0 {
+		limit = 200
+	}
+	size := 4096
+	for _, e := range s.Entries {
+		if e.Result != nil {
+			size += 768 + 80*min(e.Bins, limit)
+		}
+	}
+	return size
+}

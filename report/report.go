@@ -86,11 +86,21 @@ func pval(p float64) string {
 	if p < 1e-2 && p > 0 {
 		return strconv.FormatFloat(p, 'e', 2, 64)
 	}
-	return strconv.FormatFloat(p, 'f', 4, 64)
+	return fixed(p, 4)
+}
+
+// fixed formats v with the given number of decimals, as
+// strconv.FormatFloat(v, 'f', places, 64) does.
+func fixed(v float64, places int) string {
+	var a [32]byte
+	return string(appendFixed(a[:0], v, places))
 }
 
 // val formats a table value exactly enough to read: six significant digits.
-func val(v float64) string { return strconv.FormatFloat(v, 'g', 6, 64) }
+func val(v float64) string {
+	var a [32]byte
+	return string(appendG6(a[:0], v))
+}
 
 // rows picks the bins a human table shows: all of them up to the limit,
 // else the worst by |pull| in bin order, and whether rows were left out.
@@ -151,9 +161,9 @@ func (h *pullHeap) Pop() any {
 func criterionLine(c compare.Criterion) string {
 	name, v, adj, lim := critCells(c)
 	if adj != "" {
-		return fmt.Sprintf("%s = %s (adjusted %s, limit %s)", name, v, adj, lim)
+		return name + " = " + v + " (adjusted " + adj + ", limit " + lim + ")"
 	}
-	return fmt.Sprintf("%s = %s (limit %s)", name, v, lim)
+	return name + " = " + v + " (limit " + lim + ")"
 }
 
 // critCells formats one criterion for a table: name, raw value, the
@@ -190,7 +200,7 @@ func sourcesLine(e compare.Entry) string {
 		if !math.IsNaN(s.Share) {
 			share = strconv.FormatFloat(100*s.Share, 'f', 0, 64) + "% of σ_d²"
 		}
-		parts = append(parts, fmt.Sprintf("%s ρ = %s, %s", s.Name, rho, share))
+		parts = append(parts, s.Name+" ρ = "+rho+", "+share)
 	}
 	if len(parts) == 0 {
 		return ""
@@ -212,29 +222,34 @@ func pullLimit(e compare.Entry) float64 {
 // what is undefined (a width needs two pulls).
 func shapeLine(e compare.Entry) string {
 	n := len(pullsUsed(e))
-	mean, width := "n/a", "n/a"
-	if n >= 1 {
-		mean = num(e.PullMean)
+	b := make([]byte, 0, 160)
+	b = append(b, "pulls: mean "...)
+	switch {
+	case n >= 2:
+		b = append(append(append(b, num(e.PullMean)...), " ± "...), num(e.PullMeanErr)...)
+		b = append(append(append(append(b, ", width "...), num(e.PullWidth)...), " ± "...), num(e.PullWidthEr)...)
+	case n == 1:
+		b = append(append(b, num(e.PullMean)...), ", width n/a"...)
+	default:
+		b = append(b, "n/a, width n/a"...)
 	}
-	if n >= 2 {
-		mean += " ± " + num(e.PullMeanErr)
-		width = num(e.PullWidth) + " ± " + num(e.PullWidthEr)
-	}
-	runs := fmt.Sprintf("%d runs", e.Runs)
+	b = append(append(append(append(append(b, "; KS D = "...), num(e.KSStat)...), " (p = "...), pval(e.KSP)...), "); "...)
 	if e.Runs == 1 {
-		runs = "1 run"
+		b = append(b, "1 run"...)
+	} else {
+		b = append(strconv.AppendInt(b, int64(e.Runs), 10), " runs"...)
 	}
-	return fmt.Sprintf("pulls: mean %s, width %s; KS D = %s (p = %s); %s (p = %s); χ²/ndf = %s",
-		mean, width, num(e.KSStat), pval(e.KSP), runs, pval(e.RunsP), chi2NDF(e))
+	b = append(append(append(append(b, " (p = "...), pval(e.RunsP)...), "); χ²/ndf = "...), chi2NDF(e)...)
+	return string(b)
 }
 
 // chi2NDF writes χ²/ndf as "12.3/10", or "n/a (ndf 0)" when no bin
 // carries a pull.
 func chi2NDF(e compare.Entry) string {
 	if e.NDF == 0 || math.IsNaN(e.Chi2) {
-		return fmt.Sprintf("n/a (ndf %d)", e.NDF)
+		return "n/a (ndf " + strconv.Itoa(e.NDF) + ")"
 	}
-	return fmt.Sprintf("%s/%d", num(e.Chi2), e.NDF)
+	return num(e.Chi2) + "/" + strconv.Itoa(e.NDF)
 }
 
 // filesShown says whether a report names the input files beside the
@@ -246,21 +261,48 @@ func filesShown(e compare.Entry) bool {
 
 // binCells formats one row of a per-bin table: bin number, edges, each
 // side's value and uncertainty, the difference, its uncertainty and the
-// pull. Each value is rounded where its uncertainty has its second
-// significant digit.
-func binCells(e compare.Entry, i int) []string {
+// pull, appended to dst. Each value is rounded where its uncertainty has
+// its second significant digit.
+func binCells(dst []string, e compare.Entry, i int) []string {
 	va, ea := withError(e.A[i], e.ErrA[i])
 	vb, eb := withError(e.B[i], e.ErrB[i])
 	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
 	p := pullText(e.Pulls[i]) // n/a when undefined, ±Inf when infinite
-	return []string{strconv.Itoa(i + 1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p}
+	return append(dst, strconv.Itoa(i+1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p)
+}
+
+// binRow appends the cells of [binCells] for bin i, each between pre and
+// post, without making strings of them. The cells are numbers (or n/a),
+// which need no escaping in HTML or Markdown.
+func binRow(p *page, e compare.Entry, i int, pre, post string) {
+	p.s(pre).d(i + 1).s(post).s(pre)
+	p.b = appendG6(p.b, e.Lo[i])
+	p.s(post).s(pre)
+	p.b = appendG6(p.b, e.Hi[i])
+	p.s(post)
+	for _, ve := range [3][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}, {e.Diff[i], e.SigmaDiff[i]}} {
+		var k int
+		p.scratch, k = appendWithError(p.scratch[:0], ve[0], ve[1])
+		p.s(pre)
+		p.b = append(p.b, p.scratch[:k]...)
+		p.s(post).s(pre)
+		p.b = append(p.b, p.scratch[k:]...)
+		p.s(post)
+	}
+	p.s(pre)
+	if pl := e.Pulls[i]; math.Abs(pl) < 1000 {
+		p.b = appendFixed(p.b, pl, 2)
+	} else {
+		p.s(num(pl))
+	}
+	p.s(post)
 }
 
 // pullText writes a pull with two decimals, so that a column of pulls
 // lines up on the decimal point; huge ones keep four significant digits.
 func pullText(p float64) string {
 	if math.Abs(p) < 1000 {
-		return strconv.FormatFloat(p, 'f', 2, 64)
+		return fixed(p, 2)
 	}
 	return num(p)
 }
@@ -271,24 +313,59 @@ func pullText(p float64) string {
 // decimals, others in exponent form. Without a positive uncertainty the
 // value keeps six significant digits.
 func withError(v, e float64) (string, string) {
+	var a [64]byte
+	b, k := appendWithError(a[:0], v, e)
+	return string(b[:k]), string(b[k:])
+}
+
+// appendWithError appends the value and the uncertainty of [withError]
+// one after the other, and returns where the uncertainty starts.
+func appendWithError(b []byte, v, e float64) ([]byte, int) {
 	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
-		return val(v), val(e)
+		b = appendG6(b, v)
+		k := len(b)
+		return appendG6(b, e), k
 	}
-	last := int(math.Floor(math.Log10(e))) - 1 // decimal exponent of the second digit
+	last := decade(e) - 1 // decimal exponent of the second digit
 	big := math.Max(math.Abs(v), e)
 	if big < 1e6 && e >= 1e-4 {
 		places := max(0, -last)
-		q := math.Pow(10, float64(last))
 		if last > 0 {
+			q := math.Pow(10, float64(last))
 			v, e = math.Round(v/q)*q, math.Round(e/q)*q
 		}
-		return strconv.FormatFloat(v, 'f', places, 64), strconv.FormatFloat(e, 'f', places, 64)
+		b = appendFixed(b, v, places)
+		k := len(b)
+		return appendFixed(b, e, places), k
 	}
 	ve := last + 1
 	if v != 0 {
 		ve = int(math.Floor(math.Log10(math.Abs(v))))
 	}
-	return strconv.FormatFloat(v, 'e', max(1, ve-last), 64), strconv.FormatFloat(e, 'e', 1, 64)
+	b = strconv.AppendFloat(b, v, 'e', max(1, ve-last), 64)
+	k := len(b)
+	return strconv.AppendFloat(b, e, 'e', 1, 64), k
+}
+
+// decades are the powers of ten decade finds x between.
+var decades = [...]float64{1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7}
+
+// decade is int(math.Floor(math.Log10(x))) for x > 0, as withError has
+// always computed it (math.Log10 is off by an ulp at some powers of ten,
+// e.g. it gives 2.9999999999999996 for 1000, and the reports keep what it
+// gives). Between 10⁻⁵ and 10⁷ and away from the powers of ten it finds
+// the decade by comparison, which cannot differ there.
+func decade(x float64) int {
+	for k := 1; k < len(decades); k++ {
+		if x < decades[k] {
+			lo, hi := decades[k-1], decades[k]
+			if x < lo*(1+1e-12) || x > hi*(1-1e-12) {
+				break
+			}
+			return k - 1 - 5
+		}
+	}
+	return int(math.Floor(math.Log10(x)))
 }
 
 func entryTitle(e compare.Entry) string {

@@ -4,7 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strings"
+	"unicode/utf8"
 
 	"tandem/compare"
 )
@@ -34,7 +34,7 @@ func verdictWord(st Style, pass bool) string {
 // disagreement beside it, one line per comparison, then for each
 // comparison its criteria (in a fixed order), warnings and a per-bin table.
 func Text(w io.Writer, s *compare.Summary, st Style) error {
-	ew := &errWriter{w: w}
+	ew := newPage(w, mdSize(s, st))
 	pass := s.Pass()
 	fmt.Fprintf(ew, "verdict: %s", verdictWord(st, pass))
 	if !pass {
@@ -50,28 +50,29 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 	for _, n := range s.Notes {
 		fmt.Fprintf(ew, "note: %s\n", n)
 	}
-	for _, e := range ordered(s) {
+	entries := ordered(s)
+	for _, e := range entries {
 		mark := "ok  "
 		if !e.Pass {
 			mark = paint(st, ansiRed, "FAIL")
 		}
-		fmt.Fprintf(ew, "  %s %s: χ²/ndf = %s, p = %s, max |pull| = %s\n",
-			mark, entryTitle(e), chi2NDF(e), pval(e.PValue), num(e.MaxAbsPull))
+		ew.s("  ").s(mark).s(" ").s(entryTitle(e)).s(": χ²/ndf = ").s(chi2NDF(e)).s(", p = ").s(pval(e.PValue)).s(", max |pull| = ").s(num(e.MaxAbsPull)).s("\n")
 	}
-	for _, e := range ordered(s) {
-		fmt.Fprintf(ew, "\n== %s", entryTitle(e))
+	var crit [][]string
+	for _, e := range entries {
+		ew.s("\n== ").s(entryTitle(e))
 		if e.Blinded {
-			fmt.Fprint(ew, " [blinded values]")
+			ew.s(" [blinded values]")
 		}
-		fmt.Fprintf(ew, ": %s\n", verdictWord(st, e.Pass))
+		ew.s(": ").s(verdictWord(st, e.Pass)).s("\n")
 		if e.Title != "" {
-			fmt.Fprintf(ew, "  %s\n", e.Title)
+			ew.s("  ").s(e.Title).s("\n")
 		}
 		if filesShown(e) {
 			a, b := e.Sides()
 			fmt.Fprintf(ew, "  %s: %s; %s: %s\n", a, e.Files[0], b, e.Files[1])
 		}
-		crit := [][]string{{"criterion", "value", "adjusted", "limit", "result"}}
+		crit = append(crit[:0], []string{"criterion", "value", "adjusted", "limit", "result"})
 		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
@@ -82,39 +83,45 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		}
 		alignTable(ew, "  ", crit, false)
 		if l := sourcesLine(e); l != "" {
-			fmt.Fprintf(ew, "  %s\n", l)
+			ew.s("  ").s(l).s("\n")
 		}
 		for _, c := range e.Criteria {
 			if !c.Pass && c.Detail != "" {
 				fmt.Fprintf(ew, "  why: %s: %s\n", c.Name, c.Detail)
 			}
 		}
-		fmt.Fprintf(ew, "  %s\n", shapeLine(e))
+		ew.s("  ").s(shapeLine(e)).s("\n")
 		for _, wn := range e.Warnings {
-			fmt.Fprintf(ew, "  warning: %s\n", wn)
+			ew.s("  warning: ").s(wn).s("\n")
 		}
 		idx, cut := rows(e.Result, st)
 		if cut {
 			fmt.Fprintf(ew, "  showing the %d bins with the largest |pull| of %d\n", len(idx), e.Bins)
 		}
 		a, b := e.Sides()
-		bins := [][]string{{"bin", "lo", "hi", shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull"}}
+		cells := make([]string, 0, 10*(len(idx)+1))
+		cells = append(cells, "bin", "lo", "hi", shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull")
+		bins := make([][]string, 1, len(idx)+1)
+		bins[0] = cells
 		for _, i := range idx {
-			c := binCells(e, i)
+			k := len(cells)
+			cells = binCells(cells, e, i)
+			c := cells[k:len(cells):len(cells)]
 			if e.MaxPullBin == i || (st.Color && !passPull(e, i)) {
 				c[9] = paint(st, ansiBold, c[9])
 			}
 			bins = append(bins, c)
 		}
 		alignTable(ew, "  ", bins, true)
+		ew.maybeFlush()
 	}
-	return ew.err
+	return ew.flush()
 }
 
 // alignTable writes rows as columns two spaces apart, right-aligned (or
 // left-aligned), measuring each cell by what a terminal shows: characters,
 // not bytes, and no ANSI escape sequences.
-func alignTable(w io.Writer, indent string, rows [][]string, right bool) {
+func alignTable(p *page, indent string, rows [][]string, right bool) {
 	var width []int
 	for _, r := range rows {
 		for j, c := range r {
@@ -125,28 +132,37 @@ func alignTable(w io.Writer, indent string, rows [][]string, right bool) {
 		}
 	}
 	for _, r := range rows {
-		var b strings.Builder
-		b.WriteString(indent)
+		p.s(indent)
 		for j, c := range r {
-			pad := strings.Repeat(" ", width[j]-visibleWidth(c))
+			pad := width[j] - visibleWidth(c)
 			if j > 0 {
-				b.WriteString("  ")
+				p.s("  ")
 			}
 			if right {
-				b.WriteString(pad + c)
+				p.spaces(pad).s(c)
 			} else if j < len(r)-1 {
-				b.WriteString(c + pad)
+				p.s(c).spaces(pad)
 			} else {
-				b.WriteString(c)
+				p.s(c)
 			}
 		}
-		fmt.Fprintln(w, b.String())
+		p.s("\n")
 	}
 }
 
 // visibleWidth counts the runes of s outside ANSI escape sequences
 // (ESC [ … final byte).
 func visibleWidth(s string) int {
+	ascii := true
+	for i := 0; i < len(s); i++ {
+		if c := s[i]; c >= utf8.RuneSelf || c == 0x1b {
+			ascii = false
+			break
+		}
+	}
+	if ascii {
+		return len(s)
+	}
 	n, esc := 0, false
 	for _, r := range s {
 		switch {
