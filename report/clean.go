@@ -6,6 +6,7 @@ import (
 	"unicode/utf8"
 
 	"tandem/compare"
+	"tandem/compare/events"
 )
 
 // unsafeRune reports whether r must not reach a terminal, a page or a
@@ -144,4 +145,53 @@ func summaryNeedsCleaning(s *compare.Summary) bool {
 		}
 	}
 	return false
+}
+
+// cleanResult returns r with every free text of an event-level sync (the
+// labels, the key, variable and cut names, the binning variable and the
+// failures) safe to show: r itself when nothing needs cleaning, else a
+// copy that shares the numbers with r. Names come from the tables' headers,
+// Parquet schemas and ROOT branches, which may hold anything.
+func cleanResult(r *events.Result) *events.Result {
+	s := r.Summary
+	need := needsCleaning(s.LabelA, s.LabelB) || needsCleaning(s.Keys...) || needsCleaning(s.Cuts...) || needsCleaning(r.Failures...)
+	for _, v := range r.Variables {
+		need = need || needsCleaning(v.Name)
+	}
+	for _, v := range s.Vars {
+		need = need || needsCleaning(v.Name)
+	}
+	for _, st := range r.Steps {
+		need = need || needsCleaning(st.Cut)
+	}
+	if s.Binning != nil {
+		need = need || needsCleaning(s.Binning.Var)
+	}
+	if !need {
+		return r
+	}
+	cs := *s
+	cs.LabelA, cs.LabelB = cleanText(s.LabelA), cleanText(s.LabelB)
+	cs.Keys, cs.Cuts = cleanList(s.Keys), cleanList(s.Cuts)
+	cs.Vars = append([]events.VarSpec(nil), s.Vars...)
+	for i := range cs.Vars {
+		cs.Vars[i].Name = cleanText(cs.Vars[i].Name)
+	}
+	if s.Binning != nil {
+		b := *s.Binning
+		b.Var = cleanText(b.Var)
+		cs.Binning = &b
+	}
+	c := *r
+	c.Summary = &cs
+	c.Variables = append([]events.VarResult(nil), r.Variables...)
+	for i := range c.Variables {
+		c.Variables[i].Name = cleanText(c.Variables[i].Name)
+	}
+	c.Steps = append([]events.Step(nil), r.Steps...)
+	for i := range c.Steps {
+		c.Steps[i].Cut = cleanText(c.Steps[i].Cut)
+	}
+	c.Failures = cleanList(r.Failures)
+	return &c
 }

@@ -15,6 +15,7 @@ import (
 var SyncFormats = []string{"text", "json", "html"}
 
 // RenderSync writes an event-level synchronisation in the named format.
+// Free text is shown escaped (see [EscapeText]).
 func RenderSync(w io.Writer, format string, r *events.Result, st Style) error {
 	switch format {
 	case "text", "":
@@ -64,6 +65,7 @@ func tolStr(t events.Tolerance) string {
 // SyncText writes a terminal report: verdict and failures, the matching,
 // each variable's agreement, the cut flow and the failing events.
 func SyncText(w io.Writer, r *events.Result, st Style) error {
+	r = cleanResult(r)
 	ew := &errWriter{w: w}
 	fmt.Fprintf(ew, "verdict: %s\n", verdictWord(st, r.Pass))
 	fmt.Fprintf(ew, "%s vs %s, key %s", r.LabelA, r.LabelB, strings.Join(r.Keys, ","))
@@ -302,6 +304,7 @@ func nonNil(k [][]int64) [][]int64 {
 // outside_tolerance, max_abs_diff, max_rel_diff, …}] and `cutflow` [{cut,
 // a, b, both, only_a, only_b, p_value, …}] in cut order, and more.
 func SyncJSON(w io.Writer, r *events.Result) error {
+	r = cleanResult(r)
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	return enc.Encode(SyncJSONValue(r))

@@ -14,6 +14,7 @@ import (
 // with each step's test (the step where the chains part is marked), the
 // failing events and the per-bin overlap.
 func SyncHTML(w io.Writer, r *events.Result) error {
+	r = cleanResult(r)
 	ew := &errWriter{w: w}
 	title := fmt.Sprintf("event sync: %s vs %s", r.LabelA, r.LabelB)
 	fmt.Fprintf(ew, `<!DOCTYPE html>

@@ -117,3 +117,30 @@ func TestSyncBlindedHidesCounts(t *testing.T) {
 		t.Errorf("overlap file: %q", ov.String()[:20])
 	}
 }
+
+// TestSyncEscapesNames: a variable, cut and label name carrying an ANSI
+// escape and a bidirectional override (possible in Parquet and ROOT
+// schemas) reaches no report raw, in any format.
+func TestSyncEscapesNames(t *testing.T) {
+	r := syncFixture(t, nil)
+	evil := "e\x1b[2J\u202egy"
+	s := *r.Summary
+	s.LabelA, s.Keys = evil, append([]string{evil}, s.Keys[1:]...)
+	r.Summary = &s
+	r.Variables[0].Name = evil
+	r.Steps[0].Cut = evil
+	r.Failures = append(r.Failures, evil)
+	for _, f := range SyncFormats {
+		var buf bytes.Buffer
+		if err := RenderSync(&buf, f, r, Style{}); err != nil {
+			t.Fatal(err)
+		}
+		out := buf.String()
+		if strings.ContainsAny(out, "\x1b\u202e") {
+			t.Errorf("%s: raw escape or override in the report", f)
+		}
+		if !strings.Contains(out, `\x1b`) && !strings.Contains(out, `\\x1b`) {
+			t.Errorf("%s: the escaped name is not shown", f)
+		}
+	}
+}
