@@ -8,6 +8,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 	"sync"
@@ -840,4 +841,34 @@ func TestDemoRangesPassAudit(t *testing.T) {
 	if worst < 1.2*audit.DefaultThreshold {
 		t.Errorf("the best attack reaches precision %.3g on some key (%s); the demo's ranges leave too little margin", worst, worstWhat)
 	}
+}
+
+// TestSealResultIsReplayed: the Seal a seal returns (built without
+// replaying the ledger again) is the one a fresh replay of the ledger
+// gives, for a first seal and for a revision.
+func TestSealResultIsReplayed(t *testing.T) {
+	dir := buildDemo(t, "blind")
+	c := open(t, dir)
+	check := func(res *campaign.SealResult, team, obs string) {
+		t.Helper()
+		got := open(t, dir).State().Observables[obs].Latest[team]
+		if !reflect.DeepEqual(res.Seal, got) {
+			t.Errorf("seal result %+v, replayed %+v", res.Seal, got)
+		}
+	}
+	tb := demoTable(t, dir, "otter", "zenith")
+	res, err := c.Seal("otter", "zenith", tb, signer(t, dir, "otter"), "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	check(res, "otter", "zenith")
+	blindStep(t, dir)
+	res, err = open(t, dir).Seal("otter", "zenith", tb, signer(t, dir, "otter"), "a second look")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !res.Revision {
+		t.Errorf("a seal after the opening is not a revision")
+	}
+	check(res, "otter", "zenith")
 }

@@ -17,17 +17,17 @@ func (s Slot) String() string { return s.Team + "/" + s.Observable }
 // SealedPath is the file of one sealed version; versions never overwrite
 // each other.
 func (s Slot) SealedPath(v int) string {
-	return fmt.Sprintf("sealed/%s/%s.v%d.age", s.Team, s.Observable, v)
+	return "sealed/" + s.Team + "/" + s.Observable + ".v" + strconv.Itoa(v) + ".age"
 }
 
 // OwnPath is the team-map blinded table of one version.
 func (s Slot) OwnPath(v int) string {
-	return fmt.Sprintf("blinded/%s/%s.v%d.own.csv", s.Team, s.Observable, v)
+	return "blinded/" + s.Team + "/" + s.Observable + ".v" + strconv.Itoa(v) + ".own.csv"
 }
 
 // BlindedPath is the common-map blinded table of one version.
 func (s Slot) BlindedPath(v int) string {
-	return fmt.Sprintf("blinded/%s/%s.v%d.csv", s.Team, s.Observable, v)
+	return "blinded/" + s.Team + "/" + s.Observable + ".v" + strconv.Itoa(v) + ".csv"
 }
 
 // UnblindedPath is the true table written by unblind.
@@ -202,7 +202,8 @@ func (c *Campaign) replay() *State {
 				continue
 			}
 			s := Slot{team, o.Name}
-			sl := &Seal{Slot: s, Version: v, Commitment: e.Data["commitment"], Path: s.SealedPath(v), Digest: e.Files[s.SealedPath(v)], Seq: e.Seq, Reason: e.Data["reason"], AfterRound: o.Round()}
+			path := s.SealedPath(v)
+			sl := &Seal{Slot: s, Version: v, Commitment: e.Data["commitment"], Path: path, Digest: e.Files[path], Seq: e.Seq, Reason: e.Data["reason"], AfterRound: o.Round()}
 			o.Latest[team] = sl
 			if sl.AfterRound > 0 {
 				o.Revisions = append(o.Revisions, sl)
@@ -229,7 +230,7 @@ func (c *Campaign) replay() *State {
 				}
 				l := o.Latest[t]
 				n, _ := strconv.Atoi(strings.Fields(v + " x")[0])
-				if l == nil || n != l.Version || v != fmt.Sprintf("%d %s", l.Version, l.Commitment) {
+				if l == nil || n != l.Version || v != strconv.Itoa(l.Version)+" "+l.Commitment {
 					bad(e, ProblemOrder, "blinds %s/%s %s, which is not its latest seal", t, o.Name, v)
 					ok = false
 					continue
@@ -250,9 +251,11 @@ func (c *Campaign) replay() *State {
 			for t, v := range seals {
 				s := Slot{t, o.Name}
 				if e.Step == string(StepOpen) {
-					o.Common[t] = &Published{Path: s.BlindedPath(v), Digest: e.Files[s.BlindedPath(v)], Version: v, Seq: e.Seq}
+					path := s.BlindedPath(v)
+					o.Common[t] = &Published{Path: path, Digest: e.Files[path], Version: v, Seq: e.Seq}
 				} else {
-					o.Own[t] = &Published{Path: s.OwnPath(v), Digest: e.Files[s.OwnPath(v)], Version: v, Seq: e.Seq}
+					path := s.OwnPath(v)
+					o.Own[t] = &Published{Path: path, Digest: e.Files[path], Version: v, Seq: e.Seq}
 				}
 			}
 		case StepSign:

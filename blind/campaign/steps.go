@@ -199,10 +199,13 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 	if reason = strings.TrimSpace(reason); reason != "" {
 		data["reason"] = reason
 	}
-	if err := c.appendEntry(format.Entry{Step: string(StepSeal), Actor: team, Files: map[string]string{rel: format.Digest(ciphertext)}, Data: data}, signer); err != nil {
+	digest := format.Digest(ciphertext)
+	if err := c.appendEntry(format.Entry{Step: string(StepSeal), Actor: team, Files: map[string]string{rel: digest}, Data: data}, signer); err != nil {
 		return nil, err
 	}
-	res.Seal = c.State().Observables[observable].Latest[team]
+	// what the replay of the new entry gives, without replaying the
+	// ledger again
+	res.Seal = &Seal{Slot: slot, Version: version, Commitment: com, Path: rel, Digest: digest, Seq: len(c.Ledger), Reason: reason, AfterRound: obs.Round()}
 	return res, nil
 }
 
