@@ -145,6 +145,17 @@ func BenchmarkCampaign(b *testing.B) {
 		bc := newBenchCampaign(b, n)
 		bc.sealAll(b)
 		sealed := bc.copyTo(b)
+		b.Run(fmt.Sprintf("N=%d/open", n), func(b *testing.B) {
+			// what every command pays first: the protocol read and
+			// checked, the ledger parsed and replayed
+			for b.Loop() {
+				c, err := campaign.Open(sealed)
+				if err != nil {
+					b.Fatal(err)
+				}
+				c.State()
+			}
+		})
 		b.Run(fmt.Sprintf("N=%d/seal", n), func(b *testing.B) {
 			// one seal into a campaign of that size
 			for i := 0; b.Loop(); i++ {

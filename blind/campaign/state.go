@@ -70,7 +70,8 @@ type Round struct {
 
 // ObservableState is what the ledger says about one observable.
 type ObservableState struct {
-	Name   string
+	Name string
+	// The maps are nil until the ledger sets an entry.
 	Latest map[string]*Seal      // team → latest seal
 	Own    map[string]*Published // team → team-map table of its latest seal
 	Common map[string]*Published // team → common-map table of its latest seal
@@ -144,9 +145,13 @@ func (c *Campaign) State() *State {
 
 func (c *Campaign) replay() *State {
 	p := c.Protocol
-	st := &State{Observables: map[string]*ObservableState{}, Signs: map[string]*SignEntry{}, Files: map[string]string{}}
-	for _, o := range p.Observables {
-		st.Observables[o.Name] = &ObservableState{Name: o.Name, Latest: map[string]*Seal{}, Own: map[string]*Published{}, Common: map[string]*Published{}}
+	st := &State{Observables: make(map[string]*ObservableState, len(p.Observables)), Signs: map[string]*SignEntry{}, Files: make(map[string]string, len(c.Ledger))}
+	// the maps of an observable are made when first written (a nil map
+	// reads as empty)
+	all := make([]ObservableState, len(p.Observables))
+	for i, o := range p.Observables {
+		all[i].Name = o.Name
+		st.Observables[o.Name] = &all[i]
 	}
 	bad := func(e *format.Entry, kind ProblemKind, f string, a ...any) {
 		st.Problems = append(st.Problems, Problem{Kind: kind, Path: LedgerFile, Party: e.Actor, Message: fmt.Sprintf("entry %d (%s by %s): ", e.Seq, e.Step, e.Actor) + fmt.Sprintf(f, a...)})
@@ -204,6 +209,9 @@ func (c *Campaign) replay() *State {
 			s := Slot{team, o.Name}
 			path := s.SealedPath(v)
 			sl := &Seal{Slot: s, Version: v, Commitment: e.Data["commitment"], Path: path, Digest: e.Files[path], Seq: e.Seq, Reason: e.Data["reason"], AfterRound: o.Round()}
+			if o.Latest == nil {
+				o.Latest = make(map[string]*Seal, len(teams))
+			}
 			o.Latest[team] = sl
 			if sl.AfterRound > 0 {
 				o.Revisions = append(o.Revisions, sl)
@@ -252,9 +260,15 @@ func (c *Campaign) replay() *State {
 				s := Slot{t, o.Name}
 				if e.Step == string(StepOpen) {
 					path := s.BlindedPath(v)
+					if o.Common == nil {
+						o.Common = make(map[string]*Published, len(teams))
+					}
 					o.Common[t] = &Published{Path: path, Digest: e.Files[path], Version: v, Seq: e.Seq}
 				} else {
 					path := s.OwnPath(v)
+					if o.Own == nil {
+						o.Own = make(map[string]*Published, len(teams))
+					}
 					o.Own[t] = &Published{Path: path, Digest: e.Files[path], Version: v, Seq: e.Seq}
 				}
 			}
