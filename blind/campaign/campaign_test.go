@@ -13,6 +13,7 @@ import (
 	"strings"
 	"sync"
 	"testing"
+	"time"
 
 	"tandem/blind"
 	"tandem/blind/audit"
@@ -871,4 +872,20 @@ func TestSealResultIsReplayed(t *testing.T) {
 		t.Errorf("a seal after the opening is not a revision")
 	}
 	check(res, "otter", "zenith")
+}
+
+// TestInitClock: the init entry takes its time from the campaign's clock.
+func TestInitClock(t *testing.T) {
+	dir := buildDemo(t, "init")
+	c := open(t, dir)
+	c.Now = func() time.Time { return time.Date(2031, 2, 3, 4, 5, 6, 0, time.FixedZone("x", 3600)) }
+	if err := c.Init(signer(t, dir, "custodian")); err != nil {
+		t.Fatal(err)
+	}
+	if got := open(t, dir).Ledger[0].Time; got != "2031-02-03T03:05:06Z" {
+		t.Errorf("init entry time %q, want the clock's time in UTC", got)
+	}
+	if err := open(t, dir).Init(signer(t, dir, "custodian")); err == nil {
+		t.Errorf("a second init accepted")
+	}
 }

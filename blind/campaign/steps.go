@@ -22,12 +22,27 @@ func hexDecode(s string) ([]byte, error) { return hex.DecodeString(s) }
 // Init starts a campaign whose protocol is in place: it draws the key K,
 // seals it to the custodian and logs the protocol digest and the key
 // commitment, signed with the custodian's signing key. It refuses a
-// campaign that has already started.
+// campaign that has already started. It is [Open] followed by
+// [Campaign.Init]; to fix the clock, open, set Now and call that.
 func Init(dir string, custodian ssh.Signer) (*Campaign, error) {
 	c, err := Open(dir)
 	if err != nil {
 		return nil, err
 	}
+	if err := c.Init(custodian); err != nil {
+		return nil, err
+	}
+	return c, nil
+}
+
+// Init starts an opened campaign (see the function [Init]); the init entry
+// takes its time from c.Now like every other step.
+func (c *Campaign) Init(custodian ssh.Signer) error {
+	_, err := c.start(custodian)
+	return err
+}
+
+func (c *Campaign) start(custodian ssh.Signer) (*Campaign, error) {
 	unlock, err := c.begin(StepInit)
 	if err != nil {
 		return nil, err
