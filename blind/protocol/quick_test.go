@@ -217,3 +217,20 @@ func TestValidName(t *testing.T) {
 		}
 	}
 }
+
+// TestQuickInterleaved: a column header after another table still belongs
+// to the latest observable, blank and comment lines anywhere, no final
+// LF, as BurntSushi/toml reads them.
+func TestQuickInterleaved(t *testing.T) {
+	for _, text := range []string{
+		"[[observable]]\nname = \"a\"\n[[party]]\nname = \"p\"\n[[observable.column]]\nname = \"c\"\n",
+		"[[observable]]\nname = \"a\"\n[[observable.column]]\nname = \"c\"\n[[observable]]\nname = \"b\"\n[[observable.column]]\nname = \"d\"\n[[observable.column]]\nname = \"e\"",
+		"# top\n\n  \t\nformat = \"x\" # c\n[[party]] # c\n\n# c\nname = \"p\"\nrole = \"team\"\n",
+		"quorum = []\nalpha = -0\n[[observable]]\nedges = [ ]\n[[observable.column]]\ncorrelations = {}\nscale = [1, -2.5e-3, 0.0]\n",
+		"",
+	} {
+		if !agree(t, []byte(text)) {
+			t.Errorf("%q: the quick path handed it to the general decoder", text)
+		}
+	}
+}
