@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"filippo.io/age"
 	"golang.org/x/crypto/ssh"
@@ -29,6 +30,17 @@ type benchCampaign struct {
 
 func newBenchCampaign(b *testing.B, n int) *benchCampaign {
 	b.Helper()
+	bc := newBenchProtocol(b, n)
+	if _, err := campaign.Init(bc.dir, bc.signers["custodian"]); err != nil {
+		b.Fatal(err)
+	}
+	return bc
+}
+
+// newBenchProtocol writes the protocol of a benchmark campaign, not
+// started.
+func newBenchProtocol(b *testing.B, n int) *benchCampaign {
+	b.Helper()
 	bc := &benchCampaign{dir: filepath.Join(b.TempDir(), "c"), signers: map[string]ssh.Signer{}, n: n}
 	pubs := map[string]string{}
 	for _, p := range []string{"heron", "otter", "ibis", "custodian"} {
@@ -45,14 +57,14 @@ func newBenchCampaign(b *testing.B, n int) *benchCampaign {
 		fmt.Fprintf(&sb, "[[party]]\nname = %q\nrole = \"team\"\nkey = %q\n", p, pubs[p])
 	}
 	fmt.Fprintf(&sb, "[[party]]\nname = \"ibis\"\nrole = \"reviewer\"\nkey = %q\n", pubs["ibis"])
+	// A fresh random key K per run: now and then one of the N tables draws
+	// a map the audit breaks (seen at N = 500), which would refuse blind.
+	// Accepting the risk keeps every run going; the audit runs all the same.
 	for i := 0; i < n; i++ {
-		fmt.Fprintf(&sb, "[[observable]]\nname = \"obs%03d\"\n  [[observable.column]]\n  name = \"counts\"\n  errors = [\"stat\"]\n  scale = [0.5, 2.0]\n  shift = [-2000.0, 2000.0]\n  correlation = 0.5\n", i)
+		fmt.Fprintf(&sb, "[[observable]]\nname = \"obs%03d\"\n  [[observable.column]]\n  name = \"counts\"\n  errors = [\"stat\"]\n  scale = [0.5, 2.0]\n  shift = [-2000.0, 2000.0]\n  correlation = 0.5\n  accept_risk = \"benchmark data\"\n", i)
 	}
 	os.MkdirAll(bc.dir, 0o755)
 	if err := os.WriteFile(filepath.Join(bc.dir, campaign.ProtocolFile), []byte(sb.String()), 0o644); err != nil {
-		b.Fatal(err)
-	}
-	if _, err := campaign.Init(bc.dir, bc.signers["custodian"]); err != nil {
 		b.Fatal(err)
 	}
 	return bc
@@ -123,11 +135,27 @@ func (bc *benchCampaign) copyTo(b *testing.B) string {
 // observables × 2 teams × 20 bins. Reproduce with
 //
 //	go test ./blind/campaign -run '^$' -bench Campaign -benchtime 3x
+//
+// N=…/campaign-total runs the whole campaign once per iteration, each
+// step opening the campaign afresh as a separate command does: init, every
+// seal (2N of them), blind, compare, report, status, a sign-off by each of
+// the three quorum parties, unblind and verify.
 func BenchmarkCampaign(b *testing.B) {
 	for _, n := range []int{50, 500} {
 		bc := newBenchCampaign(b, n)
 		bc.sealAll(b)
 		sealed := bc.copyTo(b)
+		b.Run(fmt.Sprintf("N=%d/open", n), func(b *testing.B) {
+			// what every command pays first: the protocol read and
+			// checked, the ledger parsed and replayed
+			for b.Loop() {
+				c, err := campaign.Open(sealed)
+				if err != nil {
+					b.Fatal(err)
+				}
+				c.State()
+			}
+		})
 		b.Run(fmt.Sprintf("N=%d/seal", n), func(b *testing.B) {
 			// one seal into a campaign of that size
 			for i := 0; b.Loop(); i++ {
@@ -208,5 +236,53 @@ func BenchmarkCampaign(b *testing.B) {
 				}
 			}
 		})
+		b.Run(fmt.Sprintf("N=%d/campaign-total", n), func(b *testing.B) {
+			var seals time.Duration
+			for b.Loop() {
+				b.StopTimer()
+				tc := newBenchProtocol(b, n)
+				b.StartTimer()
+				seals += tc.runAll(b)
+			}
+			// the seals' share of the total, in seconds per campaign
+			b.ReportMetric(seals.Seconds()/float64(b.N), "seals-s/op")
+		})
 	}
+}
+
+// runAll runs every step of a campaign whose protocol is written, each in
+// a campaign opened afresh, and returns the time the seals took.
+func (bc *benchCampaign) runAll(b *testing.B) time.Duration {
+	if _, err := campaign.Init(bc.dir, bc.signers["custodian"]); err != nil {
+		b.Fatal(err)
+	}
+	start := time.Now()
+	for _, team := range []string{"heron", "otter"} {
+		for i := 0; i < bc.n; i++ {
+			if _, err := open(b, bc.dir).Seal(team, fmt.Sprintf("obs%03d", i), benchTable(team, i), bc.signers[team], ""); err != nil {
+				b.Fatal(err)
+			}
+		}
+	}
+	seals := time.Since(start)
+	bc.blind(b)
+	if _, err := open(b, bc.dir).Compare(); err != nil {
+		b.Fatal(err)
+	}
+	if _, err := open(b, bc.dir).WriteBlindedReports(); err != nil {
+		b.Fatal(err)
+	}
+	if _, err := open(b, bc.dir).Status(); err != nil {
+		b.Fatal(err)
+	}
+	for _, p := range []string{"heron", "otter", "ibis"} {
+		bc.sign(b, p)
+	}
+	if _, err := open(b, bc.dir).Unblind(bc.ids, bc.signers["custodian"]); err != nil {
+		b.Fatal(err)
+	}
+	if r := campaign.Verify(bc.dir); !r.OK() {
+		b.Fatal(reportText(r))
+	}
+	return seals
 }

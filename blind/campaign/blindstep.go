@@ -107,6 +107,7 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 		return nil, &RefusedError{Step: StepBlind, Problems: probs}
 	}
 	var entries []format.Entry
+	files := c.root.batch()
 	for _, p := range work {
 		digests := map[string]string{}
 		for rel, data := range p.files {
@@ -116,7 +117,7 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 					return res, err
 				}
 			}
-			if err := c.root.CreateExclusive(rel, data, 0o644); err != nil {
+			if err := files.CreateExclusive(rel, data, 0o644); err != nil {
 				return res, err
 			}
 			digests[rel] = format.Digest(data)
@@ -126,6 +127,10 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 		if p.step == StepOpen {
 			res.Opened = append(res.Opened, p.obs)
 		}
+	}
+	// the entries make the files official: only once they are durable
+	if err := files.sync(); err != nil {
+		return res, err
 	}
 	crashPoint("blind")
 	if err := c.appendEntries(entries, custodian); err != nil {

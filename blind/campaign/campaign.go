@@ -224,7 +224,7 @@ func (c *Campaign) readLedger() error {
 		}
 		c.Ledger, c.raw = entries, ld
 	default:
-		entries, err := format.ParseLedger(c.root.abs(LedgerFile), ld)
+		entries, err := parseLedger(c.root.abs(LedgerFile), ld)
 		if err != nil {
 			return c.damaged(err)
 		}

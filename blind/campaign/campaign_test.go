@@ -8,10 +8,12 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 	"sync"
 	"testing"
+	"time"
 
 	"tandem/blind"
 	"tandem/blind/audit"
@@ -839,5 +841,51 @@ func TestDemoRangesPassAudit(t *testing.T) {
 	// a margin, so that no key of a demo run comes near the threshold
 	if worst < 1.2*audit.DefaultThreshold {
 		t.Errorf("the best attack reaches precision %.3g on some key (%s); the demo's ranges leave too little margin", worst, worstWhat)
+	}
+}
+
+// TestSealResultIsReplayed: the Seal a seal returns (built without
+// replaying the ledger again) is the one a fresh replay of the ledger
+// gives, for a first seal and for a revision.
+func TestSealResultIsReplayed(t *testing.T) {
+	dir := buildDemo(t, "blind")
+	c := open(t, dir)
+	check := func(res *campaign.SealResult, team, obs string) {
+		t.Helper()
+		got := open(t, dir).State().Observables[obs].Latest[team]
+		if !reflect.DeepEqual(res.Seal, got) {
+			t.Errorf("seal result %+v, replayed %+v", res.Seal, got)
+		}
+	}
+	tb := demoTable(t, dir, "otter", "zenith")
+	res, err := c.Seal("otter", "zenith", tb, signer(t, dir, "otter"), "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	check(res, "otter", "zenith")
+	blindStep(t, dir)
+	res, err = open(t, dir).Seal("otter", "zenith", tb, signer(t, dir, "otter"), "a second look")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !res.Revision {
+		t.Errorf("a seal after the opening is not a revision")
+	}
+	check(res, "otter", "zenith")
+}
+
+// TestInitClock: the init entry takes its time from the campaign's clock.
+func TestInitClock(t *testing.T) {
+	dir := buildDemo(t, "init")
+	c := open(t, dir)
+	c.Now = func() time.Time { return time.Date(2031, 2, 3, 4, 5, 6, 0, time.FixedZone("x", 3600)) }
+	if err := c.Init(signer(t, dir, "custodian")); err != nil {
+		t.Fatal(err)
+	}
+	if got := open(t, dir).Ledger[0].Time; got != "2031-02-03T03:05:06Z" {
+		t.Errorf("init entry time %q, want the clock's time in UTC", got)
+	}
+	if err := open(t, dir).Init(signer(t, dir, "custodian")); err == nil {
+		t.Errorf("a second init accepted")
 	}
 }

@@ -70,6 +70,35 @@ func (r root) CreateExclusive(rel string, data []byte, perm fs.FileMode) error {
 	return err
 }
 
+// batch is a set of new files made durable together (see [safefs.Batch]):
+// the caller writes the ledger entry that covers them only after sync.
+type batch struct {
+	r root
+	b *safefs.Batch
+}
+
+func (r root) batch() batch { return batch{r: r, b: r.fs.Batch()} }
+
+// CreateExclusive writes rel whole, only if it does not exist, unsynced.
+func (b batch) CreateExclusive(rel string, data []byte, perm fs.FileMode) error {
+	if err := b.r.mkdirs(rel); err != nil {
+		return err
+	}
+	err := b.b.CreateExclusive(rel, data, perm)
+	if errors.Is(err, fs.ErrExist) {
+		return fmt.Errorf("%s already exists; refusing to overwrite it", rel)
+	}
+	return err
+}
+
+// sync makes every file of the batch durable.
+func (b batch) sync() error {
+	if err := b.b.Sync(); err != nil {
+		return fmt.Errorf("making the new files durable: %w", err)
+	}
+	return nil
+}
+
 // Append adds data at the end of rel (created if missing) with one
 // O_APPEND write, then fsyncs it.
 func (r root) Append(rel string, data []byte) error { return r.fs.Append(rel, data) }

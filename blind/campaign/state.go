@@ -17,17 +17,17 @@ func (s Slot) String() string { return s.Team + "/" + s.Observable }
 // SealedPath is the file of one sealed version; versions never overwrite
 // each other.
 func (s Slot) SealedPath(v int) string {
-	return fmt.Sprintf("sealed/%s/%s.v%d.age", s.Team, s.Observable, v)
+	return "sealed/" + s.Team + "/" + s.Observable + ".v" + strconv.Itoa(v) + ".age"
 }
 
 // OwnPath is the team-map blinded table of one version.
 func (s Slot) OwnPath(v int) string {
-	return fmt.Sprintf("blinded/%s/%s.v%d.own.csv", s.Team, s.Observable, v)
+	return "blinded/" + s.Team + "/" + s.Observable + ".v" + strconv.Itoa(v) + ".own.csv"
 }
 
 // BlindedPath is the common-map blinded table of one version.
 func (s Slot) BlindedPath(v int) string {
-	return fmt.Sprintf("blinded/%s/%s.v%d.csv", s.Team, s.Observable, v)
+	return "blinded/" + s.Team + "/" + s.Observable + ".v" + strconv.Itoa(v) + ".csv"
 }
 
 // UnblindedPath is the true table written by unblind.
@@ -70,7 +70,8 @@ type Round struct {
 
 // ObservableState is what the ledger says about one observable.
 type ObservableState struct {
-	Name   string
+	Name string
+	// The maps are nil until the ledger sets an entry.
 	Latest map[string]*Seal      // team → latest seal
 	Own    map[string]*Published // team → team-map table of its latest seal
 	Common map[string]*Published // team → common-map table of its latest seal
@@ -144,9 +145,13 @@ func (c *Campaign) State() *State {
 
 func (c *Campaign) replay() *State {
 	p := c.Protocol
-	st := &State{Observables: map[string]*ObservableState{}, Signs: map[string]*SignEntry{}, Files: map[string]string{}}
-	for _, o := range p.Observables {
-		st.Observables[o.Name] = &ObservableState{Name: o.Name, Latest: map[string]*Seal{}, Own: map[string]*Published{}, Common: map[string]*Published{}}
+	st := &State{Observables: make(map[string]*ObservableState, len(p.Observables)), Signs: map[string]*SignEntry{}, Files: make(map[string]string, len(c.Ledger))}
+	// the maps of an observable are made when first written (a nil map
+	// reads as empty)
+	all := make([]ObservableState, len(p.Observables))
+	for i, o := range p.Observables {
+		all[i].Name = o.Name
+		st.Observables[o.Name] = &all[i]
 	}
 	bad := func(e *format.Entry, kind ProblemKind, f string, a ...any) {
 		st.Problems = append(st.Problems, Problem{Kind: kind, Path: LedgerFile, Party: e.Actor, Message: fmt.Sprintf("entry %d (%s by %s): ", e.Seq, e.Step, e.Actor) + fmt.Sprintf(f, a...)})
@@ -202,7 +207,11 @@ func (c *Campaign) replay() *State {
 				continue
 			}
 			s := Slot{team, o.Name}
-			sl := &Seal{Slot: s, Version: v, Commitment: e.Data["commitment"], Path: s.SealedPath(v), Digest: e.Files[s.SealedPath(v)], Seq: e.Seq, Reason: e.Data["reason"], AfterRound: o.Round()}
+			path := s.SealedPath(v)
+			sl := &Seal{Slot: s, Version: v, Commitment: e.Data["commitment"], Path: path, Digest: e.Files[path], Seq: e.Seq, Reason: e.Data["reason"], AfterRound: o.Round()}
+			if o.Latest == nil {
+				o.Latest = make(map[string]*Seal, len(teams))
+			}
 			o.Latest[team] = sl
 			if sl.AfterRound > 0 {
 				o.Revisions = append(o.Revisions, sl)
@@ -229,7 +238,7 @@ func (c *Campaign) replay() *State {
 				}
 				l := o.Latest[t]
 				n, _ := strconv.Atoi(strings.Fields(v + " x")[0])
-				if l == nil || n != l.Version || v != fmt.Sprintf("%d %s", l.Version, l.Commitment) {
+				if l == nil || n != l.Version || v != strconv.Itoa(l.Version)+" "+l.Commitment {
 					bad(e, ProblemOrder, "blinds %s/%s %s, which is not its latest seal", t, o.Name, v)
 					ok = false
 					continue
@@ -250,9 +259,17 @@ func (c *Campaign) replay() *State {
 			for t, v := range seals {
 				s := Slot{t, o.Name}
 				if e.Step == string(StepOpen) {
-					o.Common[t] = &Published{Path: s.BlindedPath(v), Digest: e.Files[s.BlindedPath(v)], Version: v, Seq: e.Seq}
+					path := s.BlindedPath(v)
+					if o.Common == nil {
+						o.Common = make(map[string]*Published, len(teams))
+					}
+					o.Common[t] = &Published{Path: path, Digest: e.Files[path], Version: v, Seq: e.Seq}
 				} else {
-					o.Own[t] = &Published{Path: s.OwnPath(v), Digest: e.Files[s.OwnPath(v)], Version: v, Seq: e.Seq}
+					path := s.OwnPath(v)
+					if o.Own == nil {
+						o.Own = make(map[string]*Published, len(teams))
+					}
+					o.Own[t] = &Published{Path: path, Digest: e.Files[path], Version: v, Seq: e.Seq}
 				}
 			}
 		case StepSign:

@@ -22,12 +22,27 @@ func hexDecode(s string) ([]byte, error) { return hex.DecodeString(s) }
 // Init starts a campaign whose protocol is in place: it draws the key K,
 // seals it to the custodian and logs the protocol digest and the key
 // commitment, signed with the custodian's signing key. It refuses a
-// campaign that has already started.
+// campaign that has already started. It is [Open] followed by
+// [Campaign.Init]; to fix the clock, open, set Now and call that.
 func Init(dir string, custodian ssh.Signer) (*Campaign, error) {
 	c, err := Open(dir)
 	if err != nil {
 		return nil, err
 	}
+	if err := c.Init(custodian); err != nil {
+		return nil, err
+	}
+	return c, nil
+}
+
+// Init starts an opened campaign (see the function [Init]); the init entry
+// takes its time from c.Now like every other step.
+func (c *Campaign) Init(custodian ssh.Signer) error {
+	_, err := c.start(custodian)
+	return err
+}
+
+func (c *Campaign) start(custodian ssh.Signer) (*Campaign, error) {
 	unlock, err := c.begin(StepInit)
 	if err != nil {
 		return nil, err
@@ -199,10 +214,13 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 	if reason = strings.TrimSpace(reason); reason != "" {
 		data["reason"] = reason
 	}
-	if err := c.appendEntry(format.Entry{Step: string(StepSeal), Actor: team, Files: map[string]string{rel: format.Digest(ciphertext)}, Data: data}, signer); err != nil {
+	digest := format.Digest(ciphertext)
+	if err := c.appendEntry(format.Entry{Step: string(StepSeal), Actor: team, Files: map[string]string{rel: digest}, Data: data}, signer); err != nil {
 		return nil, err
 	}
-	res.Seal = c.State().Observables[observable].Latest[team]
+	// what the replay of the new entry gives, without replaying the
+	// ledger again
+	res.Seal = &Seal{Slot: slot, Version: version, Commitment: com, Path: rel, Digest: digest, Seq: len(c.Ledger), Reason: reason, AfterRound: obs.Round()}
 	return res, nil
 }
 

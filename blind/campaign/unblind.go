@@ -87,16 +87,21 @@ func (c *Campaign) Unblind(ids []age.Identity, custodian ssh.Signer) (*UnblindRe
 	}
 	out[RevealedFile] = format.EncodeKey(k)
 	digests := map[string]string{}
+	files := c.root.batch()
 	for rel, data := range out {
 		if c.root.Exists(rel) {
 			if err := c.root.Remove(rel); err != nil { // left by an interrupted unblind
 				return nil, err
 			}
 		}
-		if err := c.root.CreateExclusive(rel, data, 0o644); err != nil {
+		if err := files.CreateExclusive(rel, data, 0o644); err != nil {
 			return nil, err
 		}
 		digests[rel] = format.Digest(data)
+	}
+	// the entry makes the files official: only once they are durable
+	if err := files.sync(); err != nil {
+		return nil, err
 	}
 	crashPoint("unblind-files")
 	var signers []string

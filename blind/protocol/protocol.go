@@ -13,6 +13,7 @@ import (
 	"fmt"
 	"regexp"
 	"slices"
+	"strconv"
 	"strings"
 
 	"filippo.io/age"
@@ -234,17 +235,43 @@ func Digest(data []byte) string {
 	return hex.EncodeToString(h[:])
 }
 
-var nameRE = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$`)
-
 // ValidName reports whether s is a valid campaign, party, observable or
 // column name: 1–64 ASCII letters, digits, '.', '_' or '-', starting with a
-// letter or digit.
-func ValidName(s string) bool { return nameRE.MatchString(s) }
+// letter or digit (the regular expression ^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$,
+// which TestValidName holds it to).
+func ValidName(s string) bool {
+	if len(s) == 0 || len(s) > 64 {
+		return false
+	}
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c >= 'A' && c <= 'Z', c >= 'a' && c <= 'z', c >= '0' && c <= '9':
+		case i > 0 && (c == '_' || c == '.' || c == '-'):
+		default:
+			return false
+		}
+	}
+	return true
+}
+
+// nameAnchor is the line "name = "NAME"" a validation error points at.
+func nameAnchor(name string) string { return "name = " + strconv.Quote(name) }
 
 // Parse reads campaign.toml strictly: unknown keys, wrong types and
 // impossible settings are errors that name the file and line. A tandem/v1
-// protocol is refused with a message saying so.
+// protocol is refused with a message saying so. A protocol of the plain
+// shape is decoded by a quick path with the same result (see quickDecode).
 func Parse(path string, data []byte) (*Protocol, error) {
+	var p Protocol
+	if !quickDecode(data, &p) {
+		return parseGeneral(path, data)
+	}
+	return p.check(path, data)
+}
+
+// parseGeneral is [Parse] with the general TOML decoder.
+func parseGeneral(path string, data []byte) (*Protocol, error) {
 	var p Protocol
 	md, err := toml.NewDecoder(bytes.NewReader(data)).Decode(&p)
 	if err != nil {
@@ -254,17 +281,24 @@ func Parse(path string, data []byte) (*Protocol, error) {
 		}
 		return nil, table.Errorf(path, 0, 0, "%v", err)
 	}
+	if p.Format != "tandem/v1" { // check words that refusal
+		if und := md.Undecoded(); len(und) > 0 {
+			k := und[0]
+			return nil, table.Errorf(path, keyLine(data, k[len(k)-1]), 0, "unknown key %q", k.String())
+		}
+	}
+	return p.check(path, data)
+}
+
+// check refuses a tandem/v1 protocol and validates a decoded one.
+func (p *Protocol) check(path string, data []byte) (*Protocol, error) {
 	if p.Format == "tandem/v1" {
 		return nil, table.Errorf(path, keyLine(data, "format"), 0, "a tandem/v1 protocol: this version of tandem reads %s campaigns only; start a new campaign with \"tandem init\"", blind.Version)
-	}
-	if und := md.Undecoded(); len(und) > 0 {
-		k := und[0]
-		return nil, table.Errorf(path, keyLine(data, k[len(k)-1]), 0, "unknown key %q", k.String())
 	}
 	if err := p.validate(); err != nil {
 		return nil, table.Errorf(path, errLine(data, err), 0, "%v", err)
 	}
-	return &p, nil
+	return p, nil
 }
 
 // keyLine finds the first line that assigns key.
@@ -329,7 +363,7 @@ func (p *Protocol) validate() error {
 	teams := 0
 	for i := range p.Parties {
 		q := &p.Parties[i]
-		anchor := fmt.Sprintf("name = %q", q.Name)
+		anchor := nameAnchor(q.Name)
 		if !ValidName(q.Name) {
 			return ferr(anchor, "party name %q must be 1-64 letters, digits, '.', '_' or '-'", q.Name)
 		}
@@ -400,7 +434,7 @@ func (p *Protocol) validate() error {
 }
 
 func (o *Observable) validate(seen map[string]bool, alpha float64) error {
-	anchor := fmt.Sprintf("name = %q", o.Name)
+	anchor := nameAnchor(o.Name)
 	if !ValidName(o.Name) {
 		return ferr(anchor, "observable name %q must be 1-64 letters, digits, '.', '_' or '-'", o.Name)
 	}
@@ -427,8 +461,8 @@ func (o *Observable) validate(seen map[string]bool, alpha float64) error {
 	defer func() { o.Extra = dedupe(extra) }()
 	for j := range o.Columns {
 		c := &o.Columns[j]
-		canchor := fmt.Sprintf("name = %q", c.Name)
-		where := fmt.Sprintf("observable %q column %q", o.Name, c.Name)
+		canchor := nameAnchor(c.Name)
+		where := "observable " + strconv.Quote(o.Name) + " column " + strconv.Quote(c.Name)
 		if !ValidName(c.Name) || seenCol[c.Name] {
 			return ferr(canchor, "%s: column names must be unique, valid names and not bin edges", where)
 		}

@@ -49,5 +49,8 @@
 // temporary file behind; [Root.Leftovers] lists such files so that the next
 // step can explain and remove them. [Root.CreateExclusive] writes the same
 // way and links the temporary file to the target name, which fails if the
-// name exists, so the new file appears whole or not at all.
+// name exists, so the new file appears whole or not at all. A [Batch]
+// creates many files unsynced and makes them durable together with
+// [Batch.Sync]; until Sync returns, a crash may leave any of them missing
+// or short, so nothing may record them before that.
 package safefs
