@@ -260,18 +260,8 @@ func nameAnchor(name string) string { return "name = " + strconv.Quote(name) }
 
 // Parse reads campaign.toml strictly: unknown keys, wrong types and
 // impossible settings are errors that name the file and line. A tandem/v1
-// protocol is refused with a message saying so. A protocol of the plain
-// shape is decoded by a quick path with the same result (see quickDecode).
+// protocol is refused with a message saying so.
 func Parse(path string, data []byte) (*Protocol, error) {
-	var p Protocol
-	if !quickDecode(data, &p) {
-		return parseGeneral(path, data)
-	}
-	return p.check(path, data)
-}
-
-// parseGeneral is [Parse] with the general TOML decoder.
-func parseGeneral(path string, data []byte) (*Protocol, error) {
 	var p Protocol
 	md, err := toml.NewDecoder(bytes.NewReader(data)).Decode(&p)
 	if err != nil {
