@@ -277,6 +277,19 @@ func (p *lineParser) str() string {
 		p.fail("expected a string")
 		return ""
 	}
+	// The common case, printable ASCII without escapes, is one slice;
+	// anything else takes the checking loop below from the start.
+	for j := p.i + 1; j < len(p.b); j++ {
+		c := p.b[j]
+		if c == '"' {
+			s := string(p.b[p.i+1 : j])
+			p.i = j + 1
+			return s
+		}
+		if c == '\\' || c < 0x20 || c >= 0x7f {
+			break
+		}
+	}
 	var out []byte
 	for j := p.i + 1; j < len(p.b); j++ {
 		switch c := p.b[j]; {
