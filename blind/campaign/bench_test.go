@@ -139,7 +139,9 @@ func (bc *benchCampaign) copyTo(b *testing.B) string {
 // N=…/campaign-total runs the whole campaign once per iteration, each
 // step opening the campaign afresh as a separate command does: init, every
 // seal (2N of them), blind, compare, report, status, a sign-off by each of
-// the three quorum parties, unblind and verify.
+// the three quorum parties, unblind and verify;
+// N=…/campaign-total-team-seals is the same with each team's seals in one
+// command.
 func BenchmarkCampaign(b *testing.B) {
 	for _, n := range []int{50, 500} {
 		bc := newBenchCampaign(b, n)
@@ -242,24 +244,41 @@ func BenchmarkCampaign(b *testing.B) {
 				b.StopTimer()
 				tc := newBenchProtocol(b, n)
 				b.StartTimer()
-				seals += tc.runAll(b)
+				seals += tc.runAll(b, false)
 			}
 			// the seals' share of the total, in seconds per campaign
+			b.ReportMetric(seals.Seconds()/float64(b.N), "seals-s/op")
+		})
+		b.Run(fmt.Sprintf("N=%d/campaign-total-team-seals", n), func(b *testing.B) {
+			// the same with each team sealing all its tables in one
+			// command (tandem seal --table OBS=FILE …, one open)
+			var seals time.Duration
+			for b.Loop() {
+				b.StopTimer()
+				tc := newBenchProtocol(b, n)
+				b.StartTimer()
+				seals += tc.runAll(b, true)
+			}
 			b.ReportMetric(seals.Seconds()/float64(b.N), "seals-s/op")
 		})
 	}
 }
 
 // runAll runs every step of a campaign whose protocol is written, each in
-// a campaign opened afresh, and returns the time the seals took.
-func (bc *benchCampaign) runAll(b *testing.B) time.Duration {
+// a campaign opened afresh, and returns the time the seals took. With
+// perTeam, each team seals all its tables in one opened campaign.
+func (bc *benchCampaign) runAll(b *testing.B, perTeam bool) time.Duration {
 	if _, err := campaign.Init(bc.dir, bc.signers["custodian"]); err != nil {
 		b.Fatal(err)
 	}
 	start := time.Now()
 	for _, team := range []string{"heron", "otter"} {
+		c := open(b, bc.dir)
 		for i := 0; i < bc.n; i++ {
-			if _, err := open(b, bc.dir).Seal(team, fmt.Sprintf("obs%03d", i), benchTable(team, i), bc.signers[team], ""); err != nil {
+			if !perTeam && i > 0 {
+				c = open(b, bc.dir)
+			}
+			if _, err := c.Seal(team, fmt.Sprintf("obs%03d", i), benchTable(team, i), bc.signers[team], ""); err != nil {
 				b.Fatal(err)
 			}
 		}

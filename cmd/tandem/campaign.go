@@ -173,12 +173,16 @@ func runInit(e *env, args []string) error {
 
 const sealHelp = `Usage:
     tandem seal DIR --team T --observable O [--key FILE] [--reason TEXT] [FILE]
+    tandem seal DIR --team T --table O=FILE [--table O=FILE ...] [--key FILE] [--reason TEXT]
 
 Checks a team's true table against the protocol, seals it to the custodian
 and logs a commitment to it, signed with the team's SSH key (--key FILE, or
 ssh-agent when --key is absent). Reads standard input when FILE is absent,
 so a chain can pipe its output in without writing plaintext:
     ./run-chain | tandem seal DIR --team heron --observable spectrum
+With --table, repeatable, one command seals many observables: every table
+is read and checked first, and nothing is sealed unless all pass; each is
+then sealed and logged in turn.
 Sealing again adds a new version (each its own file); earlier sign-offs
 become stale. A seal after the observable's comparison opened starts a new
 round and needs --reason, which every report shows.
@@ -187,19 +191,23 @@ round and needs --reason, which every report shows.
 func runSeal(e *env, args []string) error {
 	fs := newFlags(e, "seal", sealHelp)
 	var team, obs, keyFile, reason string
+	var pairs listFlag
 	fs.StringVar(&team, "team", "", "team `NAME` (required)")
-	fs.StringVar(&obs, "observable", "", "observable `NAME` (required)")
+	fs.StringVar(&obs, "observable", "", "observable `NAME` (required unless --table is given)")
+	fs.Var(&pairs, "table", "an observable and its table file, `O=FILE` (repeatable)")
 	fs.StringVar(&keyFile, "key", "", "the team's SSH private key `FILE` (default: ssh-agent)")
 	fs.StringVar(&reason, "reason", "", "why this table replaces an opened one (`TEXT`)")
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
 	}
-	if len(pos) < 1 || len(pos) > 2 {
+	switch {
+	case len(pairs) > 0 && (obs != "" || len(pos) != 1):
+		return withHint(usageErr("seal takes either --observable with one table, or --table O=FILE pairs, not both"), "tandem seal DIR --team T --table spectrum=spectrum.csv --table rate=rate.csv")
+	case len(pos) < 1 || len(pos) > 2:
 		return withHint(usageErr("seal wants DIR and at most one table file"), "tandem seal DIR --team T --observable O table.csv")
-	}
-	if team == "" || obs == "" {
-		return usageErr("seal needs --team and --observable")
+	case team == "" || (obs == "" && len(pairs) == 0):
+		return usageErr("seal needs --team and --observable (or --table O=FILE)")
 	}
 	if err := protocol.CleanText(reason); err != nil {
 		return usageErr("--reason: %v", err)
@@ -208,37 +216,77 @@ func runSeal(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	o := c.Protocol.Observable(obs)
-	if o == nil {
-		return withHint(usageErr("%q is not an observable of campaign %s", obs, c.Protocol.Campaign), "observables: "+strings.Join(c.Protocol.ObservableNames(), ", "))
-	}
 	q := c.Protocol.Party(team)
 	if q == nil || q.Role != protocol.RoleTeam {
 		return withHint(usageErr("%q is not a team of campaign %s", team, c.Protocol.Campaign), "teams: "+strings.Join(c.Protocol.Teams(), ", "))
+	}
+	// Every table is read and checked before anything is sealed.
+	type job struct {
+		obs string
+		t   *table.Table
+	}
+	var jobs []job
+	if len(pairs) == 0 {
+		pairs = listFlag{obs + "="}
+	}
+	seen := map[string]bool{}
+	for _, pr := range pairs {
+		name, file, ok := strings.Cut(pr, "=")
+		if !ok || name == "" || (file == "" && obs == "") {
+			return usageErr("--table %q: want O=FILE", pr)
+		}
+		if seen[name] {
+			return usageErr("--table: observable %q given twice", name)
+		}
+		seen[name] = true
+		o := c.Protocol.Observable(name)
+		if o == nil {
+			return withHint(usageErr("%q is not an observable of campaign %s", name, c.Protocol.Campaign), "observables: "+strings.Join(c.Protocol.ObservableNames(), ", "))
+		}
+		in := pos
+		if file != "" {
+			in = []string{pos[0], file}
+		}
+		t, err := readSealInput(e, o, in)
+		if err != nil {
+			return err
+		}
+		if _, err := campaign.Canonical(o, t); err != nil {
+			return campaignErr(err)
+		}
+		if c.State().Observables[name].Round() > 0 && strings.TrimSpace(reason) == "" {
+			return withHint(campaignErr(fmt.Errorf("%s was already opened for comparison; a new seal starts a new round and needs --reason, which every report shows", name)), "nothing was sealed")
+		}
+		jobs = append(jobs, job{name, t})
 	}
 	signer, err := findSigner(keyFile, q.PublicKey())
 	if err != nil {
 		return err
 	}
-	t, err := readSealInput(e, o, pos)
-	if err != nil {
-		return err
+	for i, j := range jobs {
+		res, err := c.Seal(team, j.obs, j.t, signer, reason)
+		if err != nil {
+			if i > 0 {
+				e.warnf("sealed %d of %d tables before this failure; the rest were not sealed", i, len(jobs))
+			}
+			return campaignErr(err)
+		}
+		for _, rel := range res.Removed {
+			e.warnf("%s: removed a file left by an interrupted seal", rel)
+		}
+		e.infof("sealed %s/%s v%d (%d bins) to the custodian", team, j.obs, res.Seal.Version, j.t.Len())
+		if res.Revision {
+			e.warnf("%s was already opened for comparison; this seal starts round %d, which every report shows", j.obs, res.Seal.AfterRound+1)
+		}
+		if len(res.Stale) > 0 && i == 0 {
+			e.warnf("this seal makes the sign-offs of %s stale: they must sign again", strings.Join(res.Stale, ", "))
+		}
+		if len(jobs) == 1 {
+			fmt.Fprintf(e.stdout, "commitment: %s\n", res.Seal.Commitment)
+		} else {
+			fmt.Fprintf(e.stdout, "commitment: %s %s\n", j.obs, res.Seal.Commitment)
+		}
 	}
-	res, err := c.Seal(team, obs, t, signer, reason)
-	if err != nil {
-		return campaignErr(err)
-	}
-	for _, rel := range res.Removed {
-		e.warnf("%s: removed a file left by an interrupted seal", rel)
-	}
-	e.infof("sealed %s/%s v%d (%d bins) to the custodian", team, obs, res.Seal.Version, t.Len())
-	if res.Revision {
-		e.warnf("%s was already opened for comparison; this seal starts round %d, which every report shows", obs, res.Seal.AfterRound+1)
-	}
-	if len(res.Stale) > 0 {
-		e.warnf("this seal makes the sign-offs of %s stale: they must sign again", strings.Join(res.Stale, ", "))
-	}
-	fmt.Fprintf(e.stdout, "commitment: %s\n", res.Seal.Commitment)
 	return nil
 }
 
