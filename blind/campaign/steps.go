@@ -149,17 +149,7 @@ type SealResult struct {
 // observable's comparison opened needs a reason.
 func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Signer, reason string) (*SealResult, error) {
 	p := c.Protocol
-	if q := p.Party(team); q == nil || q.Role != protocol.RoleTeam {
-		return nil, fmt.Errorf("%q is not a team of campaign %s (teams: %s)", team, p.Campaign, strings.Join(p.Teams(), ", "))
-	}
-	o := p.Observable(observable)
-	if o == nil {
-		return nil, fmt.Errorf("%q is not an observable of campaign %s (observables: %s)", observable, p.Campaign, strings.Join(p.ObservableNames(), ", "))
-	}
-	if err := protocol.CleanText(reason); err != nil {
-		return nil, fmt.Errorf("--reason: %v", err)
-	}
-	ct, err := Canonical(o, t)
+	ct, err := c.checkSeal(team, observable, t, reason)
 	if err != nil {
 		return nil, err
 	}
@@ -222,6 +212,36 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 	// ledger again
 	res.Seal = &Seal{Slot: slot, Version: version, Commitment: com, Path: rel, Digest: digest, Seq: len(c.Ledger), Reason: reason, AfterRound: obs.Round()}
 	return res, nil
+}
+
+// CheckSeal makes the checks [Campaign.Seal] makes before it writes
+// anything, on the state as it is now: the team, the observable, the
+// reason, the table against the protocol, and a reason for a seal after
+// the observable's comparison opened. A command sealing several tables
+// checks them all first, so that a bad one seals none.
+func (c *Campaign) CheckSeal(team, observable string, t *table.Table, reason string) error {
+	if _, err := c.checkSeal(team, observable, t, reason); err != nil {
+		return err
+	}
+	if n := c.State().Observables[observable].Round(); n > 0 && strings.TrimSpace(reason) == "" {
+		return refuse(StepSeal, ProblemState, "%s was already opened for comparison (round %d); a new seal starts round %d and needs --reason, which every report shows", observable, n, n+1)
+	}
+	return nil
+}
+
+func (c *Campaign) checkSeal(team, observable string, t *table.Table, reason string) (*table.Table, error) {
+	p := c.Protocol
+	if q := p.Party(team); q == nil || q.Role != protocol.RoleTeam {
+		return nil, fmt.Errorf("%q is not a team of campaign %s (teams: %s)", team, p.Campaign, strings.Join(p.Teams(), ", "))
+	}
+	o := p.Observable(observable)
+	if o == nil {
+		return nil, fmt.Errorf("%q is not an observable of campaign %s (observables: %s)", observable, p.Campaign, strings.Join(p.ObservableNames(), ", "))
+	}
+	if err := protocol.CleanText(reason); err != nil {
+		return nil, fmt.Errorf("--reason: %v", err)
+	}
+	return Canonical(o, t)
 }
 
 // Canonical checks a team's table against the observable's declaration and

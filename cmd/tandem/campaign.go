@@ -251,11 +251,11 @@ func runSeal(e *env, args []string) error {
 		if err != nil {
 			return err
 		}
-		if _, err := campaign.Canonical(o, t); err != nil {
+		if err := c.CheckSeal(team, name, t, reason); err != nil {
+			if len(pairs) > 1 {
+				return withHint(campaignErr(err), "nothing was sealed")
+			}
 			return campaignErr(err)
-		}
-		if c.State().Observables[name].Round() > 0 && strings.TrimSpace(reason) == "" {
-			return withHint(campaignErr(fmt.Errorf("%s was already opened for comparison; a new seal starts a new round and needs --reason, which every report shows", name)), "nothing was sealed")
 		}
 		jobs = append(jobs, job{name, t})
 	}
