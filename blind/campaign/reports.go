@@ -2,8 +2,10 @@ package campaign
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
 	"strings"
+	"sync"
 
 	"tandem/compare"
 	"tandem/report"
@@ -124,21 +126,39 @@ func ReportPath(stem, format string) string {
 }
 
 // WriteReports renders s in each format to reports/STEM.EXT, each file
-// atomically, and returns the paths written.
+// atomically, and returns the paths written. The formats are rendered at
+// once, on all cores (the renderers only read s), then written; a format
+// that fails to render writes nothing, and a failed write leaves the
+// others written.
 func (c *Campaign) WriteReports(s *compare.Summary, formats []string, stem string) ([]string, error) {
-	var out []string
-	for _, f := range formats {
-		var b bytes.Buffer
-		if err := report.Render(&b, f, s, report.Style{}); err != nil {
-			return out, err
-		}
-		rel := ReportPath(stem, f)
-		if err := c.root.WriteAtomic(rel, b.Bytes()); err != nil {
-			return out, fmt.Errorf("writing %s: %w", c.Path(rel), err)
-		}
-		out = append(out, rel)
+	bufs := make([]bytes.Buffer, len(formats))
+	errs := make([]error, len(formats))
+	var wg sync.WaitGroup
+	for i, f := range formats {
+		wg.Go(func() { errs[i] = report.Render(&bufs[i], f, s, report.Style{}) })
 	}
-	return out, nil
+	wg.Wait()
+	if err := errors.Join(errs...); err != nil {
+		return nil, err
+	}
+	// The files are written at once too: their syncs overlap.
+	out := make([]string, len(formats))
+	for i, f := range formats {
+		out[i] = ReportPath(stem, f)
+		wg.Go(func() {
+			if err := c.root.WriteAtomic(out[i], bufs[i].Bytes()); err != nil {
+				errs[i] = fmt.Errorf("writing %s: %w", c.Path(out[i]), err)
+			}
+		})
+	}
+	wg.Wait()
+	var written []string
+	for i := range out {
+		if errs[i] == nil {
+			written = append(written, out[i])
+		}
+	}
+	return written, errors.Join(errs...)
 }
 
 // WriteFinalReports writes the true-value reports in every format.
