@@ -85,33 +85,26 @@ func (j *jsonWriter) bool(v bool) {
 	}
 }
 
-// strs writes a list of strings, null for nil.
-func (j *jsonWriter) strs(xs []string) {
+// list writes xs as a list, each element by elem; null for nil, as
+// encoding/json writes a nil slice.
+func list[T any](j *jsonWriter, xs []T, elem func(*T)) {
 	if xs == nil {
 		j.b = append(j.b, "null"...)
 		return
 	}
 	j.open('[')
-	for _, x := range xs {
+	for i := range xs {
 		j.elem()
-		j.str(x)
+		elem(&xs[i])
 	}
 	j.close(']')
 }
 
+// strs writes a list of strings, null for nil.
+func (j *jsonWriter) strs(xs []string) { list(j, xs, func(x *string) { j.str(*x) }) }
+
 // ints writes a list of integers, null for nil.
-func (j *jsonWriter) ints(xs []int) {
-	if xs == nil {
-		j.b = append(j.b, "null"...)
-		return
-	}
-	j.open('[')
-	for _, x := range xs {
-		j.elem()
-		j.int(x)
-	}
-	j.close(']')
-}
+func (j *jsonWriter) ints(xs []int) { list(j, xs, func(x *int) { j.int(*x) }) }
 
 // nums writes a list of numbers from [numList]: a []float64 or [jnums].
 func (j *jsonWriter) nums(v any) {
@@ -177,35 +170,19 @@ func (j *jsonWriter) summary(s jsonSummary) {
 	j.key("accepted_disagreements")
 	j.acceptances(s.Accepted)
 	j.key("observables")
-	if s.Observables == nil {
-		j.b = append(j.b, "null"...)
-	} else {
-		j.open('[')
-		for i := range s.Observables {
-			j.elem()
-			j.entry(&s.Observables[i])
-		}
-		j.close(']')
-	}
+	list(j, s.Observables, j.entry)
 	j.close('}')
 }
 
 func (j *jsonWriter) acceptances(as []compare.Acceptance) {
-	if as == nil {
-		j.b = append(j.b, "null"...)
-		return
-	}
-	j.open('[')
-	for _, a := range as {
-		j.elem()
+	list(j, as, func(a *compare.Acceptance) {
 		j.open('{')
 		j.key("by")
 		j.strs(a.By)
 		j.key("reason")
 		j.str(a.Reason)
 		j.close('}')
-	}
-	j.close(']')
+	})
 }
 
 func (j *jsonWriter) entry(e *jsonEntry) {
@@ -269,16 +246,7 @@ func (j *jsonWriter) entry(e *jsonEntry) {
 	j.key("failures")
 	j.strs(e.Failures)
 	j.key("criteria")
-	if e.Criteria == nil {
-		j.b = append(j.b, "null"...)
-	} else {
-		j.open('[')
-		for i := range e.Criteria {
-			j.elem()
-			j.criterion(&e.Criteria[i])
-		}
-		j.close(']')
-	}
+	list(j, e.Criteria, j.criterion)
 	j.key("limits")
 	j.open('{')
 	j.key("alpha")
@@ -293,29 +261,22 @@ func (j *jsonWriter) entry(e *jsonEntry) {
 	j.key("family_size")
 	j.int(e.Family)
 	j.key("sources")
-	if e.Sources == nil {
-		j.b = append(j.b, "null"...)
-	} else {
-		j.open('[')
-		for _, so := range e.Sources {
-			j.elem()
-			j.open('{')
-			j.key("name")
-			j.str(so.Name)
-			j.key("rho")
-			j.num(so.Rho)
-			if so.PerBin != "" {
-				j.key("per_bin")
-				j.str(so.PerBin)
-			}
-			j.key("declared")
-			j.bool(so.Declared)
-			j.key("share")
-			j.num(so.Share)
-			j.close('}')
+	list(j, e.Sources, func(so *jsonSource) {
+		j.open('{')
+		j.key("name")
+		j.str(so.Name)
+		j.key("rho")
+		j.num(so.Rho)
+		if so.PerBin != "" {
+			j.key("per_bin")
+			j.str(so.PerBin)
 		}
-		j.close(']')
-	}
+		j.key("declared")
+		j.bool(so.Declared)
+		j.key("share")
+		j.num(so.Share)
+		j.close('}')
+	})
 	if len(e.Incomparable) > 0 {
 		j.key("incomparable_bins")
 		j.ints(e.Incomparable)

@@ -22,6 +22,7 @@ import (
 	"golang.org/x/crypto/ssh"
 
 	"tandem/blind"
+	"tandem/blind/internal/format"
 	"tandem/compare"
 	"tandem/compare/table"
 )
@@ -238,22 +239,9 @@ func Digest(data []byte) string {
 // ValidName reports whether s is a valid campaign, party, observable or
 // column name: 1–64 ASCII letters, digits, '.', '_' or '-', starting with a
 // letter or digit (the regular expression ^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$,
-// which TestValidName holds it to).
-func ValidName(s string) bool {
-	if len(s) == 0 || len(s) > 64 {
-		return false
-	}
-	for i := 0; i < len(s); i++ {
-		c := s[i]
-		switch {
-		case c >= 'A' && c <= 'Z', c >= 'a' && c <= 'z', c >= '0' && c <= '9':
-		case i > 0 && (c == '_' || c == '.' || c == '-'):
-		default:
-			return false
-		}
-	}
-	return true
-}
+// which TestValidName holds it to). It is the name rule of the campaign
+// format's common grammar.
+func ValidName(s string) bool { return format.ValidName(s) }
 
 // nameAnchor is the line "name = "NAME"" a validation error points at.
 func nameAnchor(name string) string { return "name = " + strconv.Quote(name) }
