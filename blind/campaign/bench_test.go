@@ -238,29 +238,22 @@ func BenchmarkCampaign(b *testing.B) {
 				}
 			}
 		})
-		b.Run(fmt.Sprintf("N=%d/campaign-total", n), func(b *testing.B) {
-			var seals time.Duration
-			for b.Loop() {
-				b.StopTimer()
-				tc := newBenchProtocol(b, n)
-				b.StartTimer()
-				seals += tc.runAll(b, false)
-			}
-			// the seals' share of the total, in seconds per campaign
-			b.ReportMetric(seals.Seconds()/float64(b.N), "seals-s/op")
-		})
-		b.Run(fmt.Sprintf("N=%d/campaign-total-team-seals", n), func(b *testing.B) {
-			// the same with each team sealing all its tables in one
+		for _, perTeam := range []bool{false, true} {
+			// with perTeam, each team seals all its tables in one
 			// command (tandem seal --table OBS=FILE …, one open)
-			var seals time.Duration
-			for b.Loop() {
-				b.StopTimer()
-				tc := newBenchProtocol(b, n)
-				b.StartTimer()
-				seals += tc.runAll(b, true)
-			}
-			b.ReportMetric(seals.Seconds()/float64(b.N), "seals-s/op")
-		})
+			name := map[bool]string{false: "campaign-total", true: "campaign-total-team-seals"}[perTeam]
+			b.Run(fmt.Sprintf("N=%d/%s", n, name), func(b *testing.B) {
+				var seals time.Duration
+				for b.Loop() {
+					b.StopTimer()
+					tc := newBenchProtocol(b, n)
+					b.StartTimer()
+					seals += tc.runAll(b, perTeam)
+				}
+				// the seals' share of the total, in seconds per campaign
+				b.ReportMetric(seals.Seconds()/float64(b.N), "seals-s/op")
+			})
+		}
 	}
 }
 
