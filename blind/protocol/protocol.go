@@ -11,6 +11,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"maps"
 	"regexp"
 	"slices"
 	"strconv"
@@ -475,7 +476,10 @@ func (o *Observable) validate(seen map[string]bool, alpha float64) error {
 		if c.Covariance && (len(c.Correlations) > 0 || c.Subset || c.Default.Column != "") {
 			return ferr(canchor, "%s: with covariance matrices give the correlation between the chains as one number (correlation = ρ), not per source, per bin or by the subset rule", where)
 		}
-		for k, rho := range c.Correlations {
+		// In key order: the per-bin columns follow the declared ones in
+		// this order in every canonical table.
+		for _, k := range slices.Sorted(maps.Keys(c.Correlations)) {
+			rho := c.Correlations[k]
 			if !slices.Contains(c.Errors, k) && !slices.Contains(c.Errors, c.Name+"_"+k) {
 				return ferr(canchor, "%s: correlations names %q, which is not one of its error columns", where, k)
 			}

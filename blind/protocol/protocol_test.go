@@ -62,3 +62,24 @@ func TestCleanText(t *testing.T) {
 		}
 	}
 }
+
+// TestExtraOrder: per-bin correlation columns follow the declared columns
+// in the order of their sources' names, whatever order Go's map iteration
+// takes (the canonical table, and so the seal commitment, depend on it).
+func TestExtraOrder(t *testing.T) {
+	id, _ := age.GenerateX25519Identity()
+	text := Template("spectrum-2026", id.Recipient().String(), pubLine(t, "custodian"))
+	for _, p := range []string{"team-a", "team-b", "reviewer"} {
+		text = strings.Replace(text, `"ssh-ed25519 AAAA... `+p+`"`, `"`+pubLine(t, p)+`"`, 1)
+	}
+	text = strings.Replace(text, "correlations = { stat = 0.0, syst = 0.0 }", `correlations = { syst = "rho_syst", stat = "rho_stat" }`, 1)
+	for n := 0; n < 50; n++ {
+		p, err := Parse("campaign.toml", []byte(text))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := strings.Join(p.Observables[0].Extra, ","); got != "rho_stat,rho_syst" {
+			t.Fatalf("parse %d: extra columns %s, want rho_stat,rho_syst", n, got)
+		}
+	}
+}
