@@ -87,29 +87,7 @@ func renderAll(b *testing.B, s *compare.Summary) int {
 //	go test -run '^$' -bench RenderAll -benchtime 10x ./report
 func BenchmarkRenderAll(b *testing.B) {
 	s := benchCampaignSummary(b, 500)
-	b.Run("all", func(b *testing.B) {
-		size := 0
-		start, ok := cpuTime()
-		for b.Loop() {
-			size = renderAll(b, s)
-		}
-		reportCPU(b, start, ok)
-		b.ReportMetric(float64(size), "bytes")
-	})
-	for _, f := range Formats {
-		b.Run(f, func(b *testing.B) {
-			var buf bytes.Buffer
-			start, ok := cpuTime()
-			for b.Loop() {
-				buf.Reset()
-				if err := Render(&buf, f, s, Style{}); err != nil {
-					b.Fatal(err)
-				}
-			}
-			reportCPU(b, start, ok)
-			b.ReportMetric(float64(buf.Len()), "bytes")
-		})
-	}
+	benchFormats(b, s)
 }
 
 // BenchmarkRenderTable1e5 renders every format of one table-mode
@@ -126,6 +104,12 @@ func BenchmarkRenderTable1e5(b *testing.B) {
 	}
 	r.LabelA, r.LabelB = "heron/spectrum.csv", "otter/spectrum.csv"
 	s := &compare.Summary{Entries: []compare.Entry{{Observable: "spectrum", Files: [2]string{"heron/spectrum.csv", "otter/spectrum.csv"}, XLabel: "energy [GeV]", Result: r}}}
+	benchFormats(b, s)
+}
+
+// benchFormats times every format of s together ("all", into new buffers
+// as the campaign writes them) and each on its own.
+func benchFormats(b *testing.B, s *compare.Summary) {
 	b.Run("all", func(b *testing.B) {
 		size := 0
 		start, ok := cpuTime()
