@@ -174,8 +174,8 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 		version = prev.Version + 1
 	}
 	res := &SealResult{Revision: obs.Round() > 0}
-	if res.Revision && strings.TrimSpace(reason) == "" {
-		return nil, refuse(StepSeal, ProblemState, "%s was already opened for comparison (round %d); a new seal starts round %d and needs --reason, which every report shows", observable, obs.Round(), obs.Round()+1)
+	if err := needsReason(observable, obs.Round(), reason); err != nil {
+		return nil, err
 	}
 	for party, s := range st.Signs {
 		if s.Seq > st.LastChange {
@@ -223,8 +223,14 @@ func (c *Campaign) CheckSeal(team, observable string, t *table.Table, reason str
 	if _, err := c.checkSeal(team, observable, t, reason); err != nil {
 		return err
 	}
-	if n := c.State().Observables[observable].Round(); n > 0 && strings.TrimSpace(reason) == "" {
-		return refuse(StepSeal, ProblemState, "%s was already opened for comparison (round %d); a new seal starts round %d and needs --reason, which every report shows", observable, n, n+1)
+	return needsReason(observable, c.State().Observables[observable].Round(), reason)
+}
+
+// needsReason refuses a seal without a reason after the observable's
+// comparison opened (round > 0).
+func needsReason(observable string, round int, reason string) error {
+	if round > 0 && strings.TrimSpace(reason) == "" {
+		return refuse(StepSeal, ProblemState, "%s was already opened for comparison (round %d); a new seal starts round %d and needs --reason, which every report shows", observable, round, round+1)
 	}
 	return nil
 }
