@@ -2,6 +2,8 @@ module tandem
 
 go 1.26.8
 
+toolchain go1.26.10
+
 require (
 	filippo.io/age v1.3.2
 	github.com/BurntSushi/toml v1.6.0
@@ -30,7 +32,7 @@ require (
 	github.com/klauspost/cpuid/v2 v2.4.2 // indirect
 	github.com/pierrec/lz4/v4 v4.1.33 // indirect
 	github.com/pierrec/xxHash v0.1.5 // indirect
-	github.com/ulikunitz/xz v0.5.12 // indirect
+	github.com/ulikunitz/xz v0.5.15 // indirect
 	github.com/zeebo/xxh3 v1.1.0 // indirect
 	golang.org/x/exp v0.0.0-20260112195511-716be5621a96 // indirect
 	golang.org/x/mod v0.42.0 // indirect
