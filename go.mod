@@ -8,12 +8,17 @@ require (
 	filippo.io/age v1.3.2
 	github.com/BurntSushi/toml v1.6.0
 	github.com/apache/arrow-go/v18 v18.9.0
-	github.com/google/go-cmp v0.7.0
-	github.com/rogpeppe/go-internal v1.16.0
 	go-hep.org/x/hep v0.36.0
 	golang.org/x/crypto v0.59.0
 	golang.org/x/sys v0.50.0
 	gonum.org/v1/gonum v0.17.0
+)
+
+// Test-only dependencies: go-cmp for structural diffs, testscript for the
+// CLI workflow scripts.
+require (
+	github.com/google/go-cmp v0.7.0
+	github.com/rogpeppe/go-internal v1.16.0
 )
 
 require (
