@@ -1,0 +1,5 @@
+//go:build !race
+
+package consistency
+
+const raceEnabled = false
