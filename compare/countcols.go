@@ -77,6 +77,9 @@ func countsColumn(a, b *table.Table, sel Selection, opt *Options) (*Result, erro
 			return nil, table.Errorf(t.Source, 0, 0, "no value column %q (columns: %s)", sel.Value, strings.Join(t.Names, ", "))
 		}
 	}
+	if e.SumW2 != "" {
+		return weightedColumn(a, b, sel, opt)
+	}
 	ca, cb := a.Column(sel.Value), b.Column(sel.Value)
 	if err := checkCounts(a, sel.Value, ca); err != nil {
 		return nil, err
@@ -192,4 +195,95 @@ func (r *Result) judgeCounts(e Options) {
 	r.Criteria = crit
 	r.Alpha = e.Alpha
 	r.settle()
+}
+
+// weightedColumn compares one column of weighted counts (sums of weights,
+// with the sums of squared weights in column opt.SumW2) by [WeightedTest].
+func weightedColumn(a, b *table.Table, sel Selection, opt *Options) (*Result, error) {
+	e := opt.effective()
+	var w, s2 [2][]float64
+	for k, t := range []*table.Table{a, b} {
+		w[k], s2[k] = t.Column(sel.Value), t.Column(e.SumW2)
+		if s2[k] == nil {
+			return nil, table.Errorf(t.Source, 0, 0, "no sum-of-squared-weights column %q (columns: %s)", e.SumW2, strings.Join(t.Names, ", "))
+		}
+		for i := range w[k] {
+			v, q := w[k][i], s2[k][i]
+			bad := ""
+			switch {
+			case v < 0:
+				bad = fmt.Sprintf("sum of weights %q is negative (%s)", sel.Value, table.Format(v))
+			case q < 0:
+				bad = fmt.Sprintf("sum of squared weights %q is negative (%s)", e.SumW2, table.Format(q))
+			case v > 0 && q == 0:
+				bad = fmt.Sprintf("sum of weights %s with a zero sum of squared weights %q", table.Format(v), e.SumW2)
+			}
+			if bad != "" {
+				return nil, table.Errorf(t.Source, binLine(t, i), 0, "bin %d: %s", i+1, bad)
+			}
+		}
+	}
+	ws, err := WeightedTest(w[0], s2[0], w[1], s2[1], e.ExposureRatio)
+	if err != nil {
+		return nil, fmt.Errorf("column %q: %w", sel.Value, err)
+	}
+	n := len(w[0])
+	sd := [2][]float64{make([]float64, n), make([]float64, n)}
+	cs := &CountStats{P0: 0.5, BinTests: make([]string, n), BinP: make([]float64, n), MinBin: -1, Weighted: ws}
+	r0 := e.ExposureRatio
+	if r0 == 0 {
+		r0 = 1
+	}
+	cs.P0 = r0 / (1 + r0)
+	nan := math.NaN()
+	cs.G, cs.GP, cs.MCError, cs.PITD, cs.PITP, cs.MinP, cs.MinPSidak, cs.RunsP = nan, nan, nan, nan, nan, nan, nan, nan
+	for i := range n {
+		sd[0][i], sd[1][i] = math.Sqrt(s2[0][i]), math.Sqrt(s2[1][i])
+		cs.BinP[i] = nan
+		cs.BinTests[i] = TestWeighted
+		if s2[0][i] == 0 && s2[1][i] == 0 {
+			cs.BinTests[i] = TestNone
+			continue
+		}
+		cs.Informative++
+	}
+	src := errSource{name: "stat (√Σw²)", downA: sd[0], upA: sd[0], downB: sd[1], upB: sd[1], declared: true}
+	s := &sides{column: sel.Value, labelA: a.Source, labelB: b.Source, lo: a.Lo, hi: a.Hi, a: w[0], b: w[1], src: []errSource{src}}
+	o := *opt
+	o.Counts, o.ExposureRatio, o.MCSamples, o.Seed, o.SumW2 = false, 0, 0, 0, ""
+	o.Overlap, o.Default = Overlap{}, Number(0)
+	r, err := compareSides(s, &o)
+	if err != nil {
+		return nil, err
+	}
+	r.Counts = cs
+	r.Warnings = nil
+	if k := n - cs.Informative; k > 0 {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("%d bin(s) with no weight in either chain carry no information and are left out (%d informative bins)", k, cs.Informative))
+	}
+	if ws.MinEffective < 10 {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("weighted counts: a bin holds only %s effective events (w²/Σw²); the weighted χ² and normalisation tests are asymptotic", fmtG(ws.MinEffective)))
+	}
+	if e.MaxPull > 0 {
+		r.Warnings = append(r.Warnings, "the max |pull| limit is a raw tolerance, not corrected for the number of bins")
+	}
+	r.Chi2, r.NDF, r.PValue = ws.Chi2, ws.NDF, ws.P
+	r.KSStat, r.KSP, r.MaxPullP = nan, nan, nan
+	c := Criterion{Name: CritCountBins, Kind: KindCheck, Value: float64(cs.Informative), Limit: 2, Op: ">=", Pass: cs.Informative >= 2 && !math.IsNaN(ws.P)}
+	if !c.Pass {
+		c.Detail = "the weighted χ² needs weight in both chains and in at least two bins"
+	}
+	crit := []Criterion{c}
+	if e.Alpha > 0 && c.Pass {
+		crit = append(crit,
+			Criterion{Name: CritWeightedChi2, Kind: KindPValue, Value: ws.P, Limit: e.Alpha, Op: ">", Pass: true, Note: "asymptotic; shape only",
+				why: fmt.Sprintf("the shapes differ: X² = %s for %d degrees of freedom", fmtG(ws.Chi2), ws.NDF)},
+			Criterion{Name: CritWeightedNorm, Kind: KindPValue, Value: ws.NormP, Limit: e.Alpha, Op: ">", Pass: true, Note: "asymptotic",
+				why: fmt.Sprintf("the totals differ by %s standard deviations", fmtG(ws.Z))})
+	}
+	crit = append(crit, r.tolerances(e, true)...)
+	r.Criteria = crit
+	r.Alpha = e.Alpha
+	r.settle()
+	return r, nil
 }

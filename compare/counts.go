@@ -139,6 +139,10 @@ type CountStats struct {
 	RunsPos int     `json:"runs_positive"`
 	RunsNeg int     `json:"runs_negative"`
 	RunsP   float64 `json:"runs_p_value"`
+	// Weighted holds the tests of weighted counts (Options.SumW2); the
+	// exact per-bin tests and the statistics above are then not made
+	// (bin tests "weighted", p-values NaN).
+	Weighted *WeightedStats `json:"weighted,omitempty"`
 }
 
 // CountTests runs the count tests on one column of two chains. It does not

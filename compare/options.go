@@ -90,6 +90,10 @@ type Options struct {
 	// MCSamples is, in counts mode, the number of Monte Carlo samples of
 	// the global statistic (0: DefaultMCSamples).
 	MCSamples int `toml:"mc_samples" json:"mc_samples,omitempty"`
+	// SumW2 names, in counts mode, the column of per-bin sums of squared
+	// weights: the value column then holds sums of weights (weighted
+	// counts), judged by [WeightedTest].
+	SumW2 string `toml:"sumw2" json:"sumw2,omitempty"`
 	// Seed seeds, in counts mode, the Monte Carlo and the randomized PIT,
 	// so every result is reproducible.
 	Seed uint64 `toml:"seed" json:"seed,omitempty"`
@@ -316,8 +320,8 @@ func (o *Options) Validate() error {
 // validateCounts checks the count-data settings.
 func (o *Options) validateCounts(e *Options) error {
 	if !o.Counts {
-		if o.ExposureRatio != 0 || o.MCSamples != 0 || o.Seed != 0 {
-			return errors.New("exposure_ratio, mc_samples and seed apply to counts only (counts = true)")
+		if o.ExposureRatio != 0 || o.MCSamples != 0 || o.Seed != 0 || o.SumW2 != "" {
+			return errors.New("exposure_ratio, mc_samples, seed and sumw2 apply to counts only (counts = true)")
 		}
 		return nil
 	}
@@ -334,6 +338,8 @@ func (o *Options) validateCounts(e *Options) error {
 		return errors.New("counts cannot be compared with covariance matrices")
 	case e.Default.Set || len(o.Correlations) > 0:
 		return errors.New("counts take no declared correlation: independent counts are compared as they are, shared events through the per-bin common count (overlap common)")
+	case o.SumW2 != "" && o.Overlap.Enabled():
+		return errors.New("weighted counts (sumw2) cannot be compared through shared events")
 	case o.Overlap.Enabled() && o.Overlap.Common == "":
 		return errors.New("in counts mode the overlap needs the column of common events per bin")
 	case o.Overlap.Enabled() && o.ExposureRatio != 0 && o.ExposureRatio != 1:

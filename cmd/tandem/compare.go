@@ -47,6 +47,9 @@ Counts: --counts declares that the value columns hold event counts
 the exact binomial test of N_A given N_A + N_B (p0 = R/(1+R) with
 --exposure-ratio R, default 1), or with --overlap-common C (events both
 chains select, per bin) by McNemar's exact test on the discordant events.
+Weighted counts: --sumw2 COL names the per-bin sum of squared weights (the
+value column holds the sum of weights); they are judged by Gagunashvili's
+chi-square test for weighted histograms and a test of the totals.
 Across bins: the likelihood-ratio G with a Monte Carlo p-value
 (--mc-samples, --seed), the randomized-PIT uniformity test, the Sidak
 trials-corrected smallest bin p-value and the runs test.
@@ -85,6 +88,7 @@ type compareFlags struct {
 	overlapSource                       string
 	labelA, labelB                      string
 	counts                              bool
+	sumw2                               string
 	exposureRatio                       float64
 	mcSamples                           int
 	seed                                uint64
@@ -93,7 +97,7 @@ type compareFlags struct {
 }
 
 // tableOnly are the flags that campaign mode refuses (the protocol sets them).
-var tableOnly = []string{"counts", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
+var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
@@ -107,6 +111,7 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&cf.overlapCommon, "overlap-common", "", "per-bin `COLUMN` with the number of events both chains select")
 	fs.StringVar(&cf.overlapSource, "overlap-source", compare.DefaultOverlapSource, "error `SOURCE` whose correlation the overlap sets")
 	fs.BoolVar(&cf.counts, "counts", false, "the value columns hold event counts: exact per-bin tests (binomial, or McNemar with --overlap-common) and calibrated tests across bins")
+	fs.StringVar(&cf.sumw2, "sumw2", "", "with --counts: the value columns hold sums of weights and `COLUMN` the per-bin sums of squared weights (weighted counts, Gagunashvili's χ² test)")
 	fs.Float64Var(&cf.exposureRatio, "exposure-ratio", 1, "with --counts: exposure `R` of A over that of B (the expected ratio of the counts)")
 	fs.IntVar(&cf.mcSamples, "mc-samples", compare.DefaultMCSamples, "with --counts: Monte Carlo samples `N` of the global statistic")
 	fs.Uint64Var(&cf.seed, "seed", 0, "with --counts: `SEED` of the Monte Carlo and the randomized PIT")
@@ -220,13 +225,16 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if cf.overlapCount != "" || cf.overlapCommon != "" {
 		o.Overlap = compare.Overlap{Count: cf.overlapCount, Common: cf.overlapCommon, Source: cf.overlapSource}
 	}
-	for _, f := range []string{"exposure-ratio", "mc-samples", "seed"} {
+	for _, f := range []string{"exposure-ratio", "mc-samples", "seed", "sumw2"} {
 		if cf.set[f] && !cf.counts {
 			return withHint(usageErr("--%s applies to counts only", f), "add --counts when the value columns hold event counts")
 		}
 	}
 	if cf.counts {
-		o.Counts, o.Seed = true, cf.seed
+		o.Counts, o.Seed, o.SumW2 = true, cf.seed, strings.TrimSpace(cf.sumw2)
+		if cf.set["sumw2"] && o.SumW2 == "" {
+			return usageErr("--sumw2 wants a column name")
+		}
 		if cf.set["exposure-ratio"] {
 			if !(cf.exposureRatio > 0) || math.IsInf(cf.exposureRatio, 0) {
 				return usageErr("--exposure-ratio must be a finite number > 0, got %v", cf.exposureRatio)
@@ -383,12 +391,12 @@ func runCompare(e *env, args []string) error {
 // that both tables have), each
 // with the --error sources or the conventionally named ones.
 func (cf *compareFlags) selections(a, b *table.Table) []compare.Selection {
-	if len(cf.values) == 0 && len(cf.errs) == 0 && !(cf.opt.Counts && cf.opt.Overlap.Enabled()) {
+	if len(cf.values) == 0 && len(cf.errs) == 0 && !(cf.opt.Counts && (cf.opt.Overlap.Enabled() || cf.opt.SumW2 != "")) {
 		return table.DefaultSelections(a)
 	}
 	values := cf.values
 	if len(values) == 0 {
-		aux := append(slices.Clone([]string(cf.errs)), cf.opt.Overlap.Count, cf.opt.Overlap.Common, cf.opt.Default.Column)
+		aux := append(slices.Clone([]string(cf.errs)), cf.opt.Overlap.Count, cf.opt.Overlap.Common, cf.opt.Default.Column, cf.opt.SumW2)
 		for _, r := range cf.opt.Correlations {
 			aux = append(aux, r.Column)
 		}

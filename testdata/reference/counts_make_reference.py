@@ -13,6 +13,9 @@ Nothing here imports or mirrors tandem's code:
   mcnemar     McNemar's exact test as scipy.stats.binomtest(n1, n1+n2, 0.5)
   ks_uniform  scipy.stats.kstest(u, "uniform", method="exact") on samples
               drawn with numpy (fixed seed), statistic and p-value
+  weighted    Pearson's chi-square of 2 x m tables with equal column totals
+              (scipy.stats.chi2_contingency, correction=False), to which the
+              chi-square for weighted histograms reduces with unit weights
 """
 import json
 import sys
@@ -48,6 +51,11 @@ def main():
         r = stats.kstest(u, "uniform", method="exact")
         ku.append({"u": [float(x) for x in u], "d": float(r.statistic), "p": float(r.pvalue)})
     out["ks_uniform"] = ku
+    wt = []
+    for a, b in [([10, 20, 30, 5], [12, 25, 20, 8]), ([3, 0, 7, 1, 9], [5, 2, 4, 3, 6]), ([100, 50], [80, 70])]:
+        chi2, p, dof, _ = stats.chi2_contingency(np.array([a, b]), correction=False)
+        wt.append({"a": a, "b": b, "chi2": float(chi2), "dof": int(dof), "p": float(p)})
+    out["weighted"] = wt
     json.dump(out, sys.stdout, indent=1)
     sys.stdout.write("\n")
 
