@@ -358,13 +358,17 @@ func gMonteCarlo(ks, ns []int64, p0 float64, samples int, seed uint64) (float64,
 			for c := range next {
 				rng := rand.New(rand.NewPCG(seed, mcStream+uint64(c)))
 				todo := min(mcChunk, samples-c*mcChunk)
-				hits := 0
-				for range todo {
-					gs := 0.0
-					for j := range ss {
-						gs += ss[j].draw(rng)
+				// bin by bin over the chunk's samples: each bin's table
+				// stays in cache
+				gs := make([]float64, todo)
+				for j := range ss {
+					for i := range gs {
+						gs[i] += ss[j].draw(rng)
 					}
-					if gs >= limit {
+				}
+				hits := 0
+				for _, x := range gs {
+					if x >= limit {
 						hits++
 					}
 				}
