@@ -234,6 +234,9 @@ func Series(a, b *table.Series, opt Options) (*Result, error) {
 	if e.Default.Column != "" {
 		return nil, fmt.Errorf("a per-bin correlation column (%q) needs tables, not series", e.Default.Column)
 	}
+	if opt.Counts {
+		return nil, errors.New("counts are compared from tables (Columns) or with CountTests, not as series")
+	}
 	s := &sides{column: a.Column, labelA: a.Source, labelB: b.Source, lo: a.Lo, hi: a.Hi, a: a.V, b: b.V,
 		asym: a.Asymmetric() || b.Asymmetric()}
 	if len(a.Down) > 0 || len(b.Down) > 0 {
