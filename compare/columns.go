@@ -30,6 +30,14 @@ func Columns(a, b *table.Table, sels []Selection, opt Options) ([]*Result, error
 	matched := map[string]bool{}
 	out := make([]*Result, 0, len(sels))
 	for _, sel := range sels {
+		if e.Counts {
+			r, err := countsColumn(a, b, sel, &opt)
+			if err != nil {
+				return nil, err
+			}
+			out = append(out, r)
+			continue
+		}
 		s, err := buildSides(a, b, sel, &e, matched)
 		if err != nil {
 			return nil, err
@@ -41,6 +49,9 @@ func Columns(a, b *table.Table, sels []Selection, opt Options) ([]*Result, error
 			return nil, err
 		case err != nil:
 			return nil, fmt.Errorf("column %q: %w", sel.Value, err)
+		}
+		if countsLikePair(a, b, sel) {
+			r.Warnings = append(r.Warnings, CountsLikeWarning)
 		}
 		out = append(out, r)
 	}

@@ -172,7 +172,14 @@ type Result struct {
 	Alpha    float64  `json:"alpha"`
 	Family   int      `json:"family_size"`
 	Warnings []string `json:"warnings,omitempty"`
-	Pass     bool     `json:"-"`
+	// Counts holds the count tests when the column was compared as
+	// counts (Options.Counts); nil otherwise. Chi2, NDF and PValue then
+	// are G, the number of informative bins and G's Monte Carlo p-value;
+	// KSStat and KSP the randomized PIT's KS test; MaxPullP the Šidák
+	// trials-corrected smallest per-bin p-value; the runs fields the runs
+	// test of the signs of k_i - n_i p0 (see [CountStats]).
+	Counts *CountStats `json:"counts,omitempty"`
+	Pass   bool        `json:"-"`
 }
 
 // ErrNotPositiveDefinite is returned (wrapped, with detail) when W is not
@@ -226,6 +233,9 @@ func Series(a, b *table.Series, opt Options) (*Result, error) {
 	e := opt.effective()
 	if e.Default.Column != "" {
 		return nil, fmt.Errorf("a per-bin correlation column (%q) needs tables, not series", e.Default.Column)
+	}
+	if opt.Counts {
+		return nil, errors.New("counts are compared from tables (Columns) or with CountTests, not as series")
 	}
 	s := &sides{column: a.Column, labelA: a.Source, labelB: b.Source, lo: a.Lo, hi: a.Hi, a: a.V, b: b.V,
 		asym: a.Asymmetric() || b.Asymmetric()}

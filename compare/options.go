@@ -73,8 +73,30 @@ type Options struct {
 	Default Rho `toml:"correlation,omitempty" json:"correlation"`
 	// Correlations gives per-source correlations.
 	Correlations map[string]Rho `toml:"correlations,omitempty" json:"correlations,omitempty"`
-	// Overlap derives a per-bin correlation from event counts.
+	// Overlap derives a per-bin correlation from event counts. In counts
+	// mode only Common is needed (the counts are the compared column), and
+	// the per-bin tests become McNemar's on the discordant events.
 	Overlap Overlap `toml:"overlap,omitempty" json:"overlap,omitzero"`
+
+	// Counts declares that the value column holds event counts: the
+	// comparison then uses the exact count tests of [CountTests] in place
+	// of the Gaussian χ², KS and largest-pull criteria, and refuses values
+	// that are not non-negative integers. Uncertainty columns are not
+	// used (the counts are their own uncertainty).
+	Counts bool `toml:"counts" json:"counts,omitempty"`
+	// ExposureRatio is, in counts mode, the exposure of A over that of B
+	// (the expected ratio of the counts); 0 means 1.
+	ExposureRatio float64 `toml:"exposure_ratio" json:"exposure_ratio,omitempty"`
+	// MCSamples is, in counts mode, the number of Monte Carlo samples of
+	// the global statistic (0: DefaultMCSamples).
+	MCSamples int `toml:"mc_samples" json:"mc_samples,omitempty"`
+	// SumW2 names, in counts mode, the column of per-bin sums of squared
+	// weights: the value column then holds sums of weights (weighted
+	// counts), judged by [WeightedTest].
+	SumW2 string `toml:"sumw2" json:"sumw2,omitempty"`
+	// Seed seeds, in counts mode, the Monte Carlo and the randomized PIT,
+	// so every result is reproducible.
+	Seed uint64 `toml:"seed" json:"seed,omitempty"`
 
 	// CovA and CovB are optional covariance matrices (n×n) of the two
 	// chains; when both are given, χ² is dᵀ W⁻¹ d with
@@ -269,10 +291,10 @@ func (o *Options) Validate() error {
 			return fmt.Errorf("correlation of source %q: %w", k, err)
 		}
 	}
-	if o.Overlap.Enabled() && (o.Overlap.Count == "" || o.Overlap.Common == "") {
+	if o.Overlap.Enabled() && (o.Overlap.Count == "" || o.Overlap.Common == "") && !o.Counts {
 		return errors.New("overlap needs both the per-bin count column and the common-events column")
 	}
-	if o.Overlap.Enabled() {
+	if o.Overlap.Enabled() && !o.Counts {
 		if _, ok := o.Correlations[o.overlapSource()]; ok {
 			return fmt.Errorf("source %q has both a declared correlation and an overlap", o.overlapSource())
 		}
@@ -291,6 +313,37 @@ func (o *Options) Validate() error {
 	}
 	if o.CovCross != nil && e.Default.Set {
 		return errors.New("give either a cross-covariance or a correlation, not both")
+	}
+	return o.validateCounts(&e)
+}
+
+// validateCounts checks the count-data settings.
+func (o *Options) validateCounts(e *Options) error {
+	if !o.Counts {
+		if o.ExposureRatio != 0 || o.MCSamples != 0 || o.Seed != 0 || o.SumW2 != "" {
+			return errors.New("exposure_ratio, mc_samples, seed and sumw2 apply to counts only (counts = true)")
+		}
+		return nil
+	}
+	if r := o.ExposureRatio; math.IsNaN(r) || r < 0 || math.IsInf(r, 0) {
+		return fmt.Errorf("exposure_ratio must be a finite number > 0, got %v", r)
+	}
+	if o.MCSamples < 0 || o.MCSamples > MaxMCSamples {
+		return fmt.Errorf("mc_samples must be in [0, %d] (0: %d), got %d", MaxMCSamples, DefaultMCSamples, o.MCSamples)
+	}
+	switch {
+	case o.Subset:
+		return errors.New("counts and the subset rule cannot be used together: give the common events per bin (overlap common) instead")
+	case o.CovA != nil:
+		return errors.New("counts cannot be compared with covariance matrices")
+	case e.Default.Set || len(o.Correlations) > 0:
+		return errors.New("counts take no declared correlation: independent counts are compared as they are, shared events through the per-bin common count (overlap common)")
+	case o.SumW2 != "" && o.Overlap.Enabled():
+		return errors.New("weighted counts (sumw2) cannot be compared through shared events")
+	case o.Overlap.Enabled() && o.Overlap.Common == "":
+		return errors.New("in counts mode the overlap needs the column of common events per bin")
+	case o.Overlap.Enabled() && o.ExposureRatio != 0 && o.ExposureRatio != 1:
+		return errors.New("shared events are compared through their discordant events with p = ½: an exposure ratio cannot be declared with them")
 	}
 	return nil
 }

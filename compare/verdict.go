@@ -64,6 +64,15 @@ func (r *Result) judge(e Options, statistical bool) {
 		p(CritRuns, r.RunsP, fmt.Sprintf("%d runs in %d positive and %d negative differences: a coherent trend", r.Runs, r.RunsPos, r.RunsNeg))
 		p(CritMaxPullP, r.MaxPullP, fmt.Sprintf("|pull| %s is unlikely among %d bins", fmtG(r.MaxAbsPull), r.NDF))
 	}
+	cs = append(cs, r.tolerances(e, statistical)...)
+	r.Criteria = cs
+	r.Alpha = e.Alpha
+	r.settle()
+}
+
+// tolerances are the declared raw |pull| and numerical tolerances.
+func (r *Result) tolerances(e Options, statistical bool) []Criterion {
+	var cs []Criterion
 	if statistical && e.MaxPull > 0 {
 		c := Criterion{Name: CritMaxPull, Kind: KindTolerance, Value: r.MaxAbsPull, Limit: e.MaxPull, Op: "<=",
 			Pass: r.MaxAbsPull <= e.MaxPull, Note: "raw limit, not trials-corrected"}
@@ -83,9 +92,7 @@ func (r *Result) judge(e Options, statistical bool) {
 	if e.AbsTol > 0 || e.RelTol > 0 {
 		cs = append(cs, r.tolerance(e.AbsTol, e.RelTol))
 	}
-	r.Criteria = cs
-	r.Alpha = e.Alpha
-	r.settle()
+	return cs
 }
 
 // tolerance is the numerical-agreement criterion.

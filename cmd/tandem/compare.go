@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -41,6 +42,18 @@ VALUE_syst, VALUE_sys (and bare err, stat, syst, sys when there is one value
 column). --overlap-count N --overlap-common C derive the correlation of the
 "stat" source per bin as C/sqrt(N_A N_B) from event counts.
 
+Counts: --counts declares that the value columns hold event counts
+(non-negative integers; anything else is refused). Each bin is judged by
+the exact binomial test of N_A given N_A + N_B (p0 = R/(1+R) with
+--exposure-ratio R, default 1), or with --overlap-common C (events both
+chains select, per bin) by McNemar's exact test on the discordant events.
+Weighted counts: --sumw2 COL names the per-bin sum of squared weights (the
+value column holds the sum of weights); they are judged by Gagunashvili's
+chi-square test for weighted histograms and a test of the totals.
+Across bins: the likelihood-ratio G with a Monte Carlo p-value
+(--mc-samples, --seed), the randomized-PIT uniformity test, the Sidak
+trials-corrected smallest bin p-value and the runs test.
+
 Verdict: the chi-square, Kolmogorov-Smirnov, runs and trials-corrected
 largest-pull p-values of every compared column are adjusted together
 (Holm-Bonferroni) so that agreeing tables fail with probability at most
@@ -74,12 +87,17 @@ type compareFlags struct {
 	overlapCount, overlapCommon         string
 	overlapSource                       string
 	labelA, labelB                      string
+	counts                              bool
+	sumw2                               string
+	exposureRatio                       float64
+	mcSamples                           int
+	seed                                uint64
 	set                                 map[string]bool
 	opt                                 compare.Options
 }
 
 // tableOnly are the flags that campaign mode refuses (the protocol sets them).
-var tableOnly = []string{"alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
+var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
@@ -92,6 +110,11 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&cf.overlapCount, "overlap-count", "", "per-bin event-count `COLUMN` of each table (N_A in A, N_B in B), for ρ from the overlap")
 	fs.StringVar(&cf.overlapCommon, "overlap-common", "", "per-bin `COLUMN` with the number of events both chains select")
 	fs.StringVar(&cf.overlapSource, "overlap-source", compare.DefaultOverlapSource, "error `SOURCE` whose correlation the overlap sets")
+	fs.BoolVar(&cf.counts, "counts", false, "the value columns hold event counts: exact per-bin tests (binomial, or McNemar with --overlap-common) and calibrated tests across bins")
+	fs.StringVar(&cf.sumw2, "sumw2", "", "with --counts: the value columns hold sums of weights and `COLUMN` the per-bin sums of squared weights (weighted counts, Gagunashvili's χ² test)")
+	fs.Float64Var(&cf.exposureRatio, "exposure-ratio", 1, "with --counts: exposure `R` of A over that of B (the expected ratio of the counts)")
+	fs.IntVar(&cf.mcSamples, "mc-samples", compare.DefaultMCSamples, "with --counts: Monte Carlo samples `N` of the global statistic")
+	fs.Uint64Var(&cf.seed, "seed", 0, "with --counts: `SEED` of the Monte Carlo and the randomized PIT")
 	fs.StringVar(&cf.covA, "cov-a", "", "covariance matrix `FILE` of A (CSV, one row and column per bin)")
 	fs.StringVar(&cf.covB, "cov-b", "", "covariance matrix `FILE` of B")
 	fs.StringVar(&cf.covAB, "cov-ab", "", "cross-covariance matrix `FILE` between A and B (optional)")
@@ -202,6 +225,35 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if cf.overlapCount != "" || cf.overlapCommon != "" {
 		o.Overlap = compare.Overlap{Count: cf.overlapCount, Common: cf.overlapCommon, Source: cf.overlapSource}
 	}
+	for _, f := range []string{"exposure-ratio", "mc-samples", "seed", "sumw2"} {
+		if cf.set[f] && !cf.counts {
+			return withHint(usageErr("--%s applies to counts only", f), "add --counts when the value columns hold event counts")
+		}
+	}
+	if cf.counts {
+		o.Counts, o.Seed, o.SumW2 = true, cf.seed, strings.TrimSpace(cf.sumw2)
+		if cf.set["sumw2"] && o.SumW2 == "" {
+			return usageErr("--sumw2 wants a column name")
+		}
+		if cf.set["exposure-ratio"] {
+			if !(cf.exposureRatio > 0) || math.IsInf(cf.exposureRatio, 0) {
+				return usageErr("--exposure-ratio must be a finite number > 0, got %v", cf.exposureRatio)
+			}
+			o.ExposureRatio = cf.exposureRatio
+		}
+		if cf.set["mc-samples"] {
+			if cf.mcSamples < 1 || cf.mcSamples > compare.MaxMCSamples {
+				return usageErr("--mc-samples must be in [1, %d], got %d", compare.MaxMCSamples, cf.mcSamples)
+			}
+			o.MCSamples = cf.mcSamples
+		}
+		for _, f := range []string{"error", "error-correlation", "correlation", "subset", "cov-a", "overlap-count", "overlap-source"} {
+			if cf.set[f] {
+				return withHint(usageErr("--%s does not apply to --counts", f),
+					"counts are their own uncertainty; give shared events per bin with --overlap-common COL")
+			}
+		}
+	}
 	if (cf.covA == "") != (cf.covB == "") {
 		return usageErr("--cov-a and --cov-b go together")
 	}
@@ -303,6 +355,11 @@ func runCompare(e *env, args []string) error {
 		}
 		return inputErr(err)
 	}
+	for _, r := range results {
+		if slices.Contains(r.Warnings, compare.CountsLikeWarning) {
+			e.warnf("column %q: %s", r.Column, compare.CountsLikeWarning)
+		}
+	}
 	name := cf.name
 	if name == "" {
 		name = strings.TrimSuffix(filepath.Base(a.Source), filepath.Ext(a.Source))
@@ -334,12 +391,12 @@ func runCompare(e *env, args []string) error {
 // that both tables have), each
 // with the --error sources or the conventionally named ones.
 func (cf *compareFlags) selections(a, b *table.Table) []compare.Selection {
-	if len(cf.values) == 0 && len(cf.errs) == 0 {
+	if len(cf.values) == 0 && len(cf.errs) == 0 && !(cf.opt.Counts && (cf.opt.Overlap.Enabled() || cf.opt.SumW2 != "")) {
 		return table.DefaultSelections(a)
 	}
 	values := cf.values
 	if len(values) == 0 {
-		aux := append(slices.Clone([]string(cf.errs)), cf.opt.Overlap.Count, cf.opt.Overlap.Common, cf.opt.Default.Column)
+		aux := append(slices.Clone([]string(cf.errs)), cf.opt.Overlap.Count, cf.opt.Overlap.Common, cf.opt.Default.Column, cf.opt.SumW2)
 		for _, r := range cf.opt.Correlations {
 			aux = append(aux, r.Column)
 		}

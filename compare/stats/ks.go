@@ -1,7 +1,11 @@
 // Package stats holds the distribution functions tandem's comparison needs
 // that gonum does not provide: the exact finite-n Kolmogorov–Smirnov
-// distribution and the exact Wald–Wolfowitz runs distribution. The χ² and
-// normal distributions come from gonum (stat/distuv, mathext).
+// distribution and the exact Wald–Wolfowitz runs distribution, and the
+// exact tests of count data: the two-sided binomial test ([BinomTest]),
+// McNemar's exact test ([McNemar]) and the randomized probability integral
+// transform with its uniformity test ([RandomizedPIT], [KSUniform]). The
+// χ², normal and binomial distributions come from gonum (stat/distuv,
+// mathext).
 package stats
 
 import (
