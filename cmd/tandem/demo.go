@@ -66,7 +66,7 @@ func runDemo(e *env, args []string) error {
 			fmt.Fprintf(w, "    %s\n", line)
 		}
 	}
-	fmt.Fprintf(w, "\ntry: tandem status %s\n     tandem verify %s\n(build the tool with: go build -o tandem ./cmd/tandem)\n", shellQuote(dir), shellQuote(dir))
+	fmt.Fprintf(w, "\ntry: tandem status %s\ntry: tandem verify %s\n(build the tool with: go build -o tandem ./cmd/tandem)\n", shellQuote(dir), shellQuote(dir))
 	return nil
 }
 
