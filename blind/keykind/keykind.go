@@ -166,4 +166,3 @@ func head(path string) ([]byte, bool) {
 	}
 	return data, true
 }
-
