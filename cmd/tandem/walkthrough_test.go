@@ -434,6 +434,7 @@ func TestWalkthroughREADME(t *testing.T) {
 		line = strings.ReplaceAll(line, dir+".keys", base+".keys")
 		ran++
 		code, o, e := shellRun(t, work, bareEnv, line)
+		t.Logf("README %q: exit %d", c, code)
 		reason, stale := staleREADME[c]
 		switch {
 		case code == 2 && stale:
