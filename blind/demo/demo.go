@@ -142,6 +142,9 @@ func Run(dir string, opt Options) (*Result, error) {
 		check = append(check, res.Tables)
 	}
 	for _, d := range check {
+		if fi, err := os.Stat(d); err == nil && !fi.IsDir() {
+			return nil, fmt.Errorf("%s exists and is not a folder; the demo needs a new folder %s and, beside it, %s", d, dir, keys)
+		}
 		if entries, err := os.ReadDir(d); err == nil && len(entries) > 0 {
 			return nil, fmt.Errorf("%s exists and is not empty; the demo needs a new folder %s and, beside it, %s", d, dir, keys)
 		}
