@@ -467,3 +467,20 @@ func placeholderIn(cmd string) bool {
 	}
 	return false
 }
+
+// TestShellQuote: what the demo prints through shellQuote reaches the
+// program as the same argument when a POSIX sh reads it.
+func TestShellQuote(t *testing.T) {
+	if _, err := exec.LookPath("sh"); err != nil {
+		t.Skip("skipping: no POSIX sh")
+	}
+	args := []string{"plain", "/tmp/a b/c", "otter's zenith; fixed", `a"b`, "it's $HOME `x` \\ !", "", "--key=v,w", "tab\there", "ünïcode", "*?[x]", "a'b\"c"}
+	line := "printf '%s\\n' " + shellJoin(args)
+	out, err := exec.Command("sh", "-c", line).Output()
+	if err != nil {
+		t.Fatalf("%s: %v", line, err)
+	}
+	if got := strings.Split(strings.TrimSuffix(string(out), "\n"), "\n"); !slices.Equal(got, args) {
+		t.Errorf("sh read %q\nfrom %s\nwant %q", got, line, args)
+	}
+}
