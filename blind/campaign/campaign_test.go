@@ -70,7 +70,7 @@ func TestDemoVerifies(t *testing.T) {
 func TestAgeToolOpensSealedFile(t *testing.T) {
 	agePath := needTool(t, "age")
 	dir := buildDemo(t, "blind")
-	out, err := exec.Command(agePath, "--decrypt", "-i", filepath.Join(dir, "keys", "custodian.key"),
+	out, err := exec.Command(agePath, "--decrypt", "-i", demo.IdentityFile(dir),
 		filepath.Join(dir, "sealed", "heron", "muon_rate.v1.age")).Output()
 	if err != nil {
 		t.Fatalf("age --decrypt: %v", err)
@@ -93,7 +93,7 @@ func TestSSHKeygenInterop(t *testing.T) {
 	allowed := filepath.Join(t.TempDir(), "allowed_signers")
 	var lines []string
 	for _, p := range []string{"heron", "otter", "ibis", "custodian"} {
-		pub, _ := os.ReadFile(filepath.Join(dir, "keys", p+".pub"))
+		pub, _ := os.ReadFile(demo.KeyFile(dir, p) + ".pub")
 		lines = append(lines, p+" "+strings.TrimSpace(string(pub)))
 	}
 	os.WriteFile(allowed, []byte(strings.Join(lines, "\n")+"\n"), 0o644)
@@ -126,7 +126,7 @@ func TestSSHKeygenInterop(t *testing.T) {
 	otterStmt := filepath.Join(dir, "signoffs", "otter.1.statement")
 	ours, _ := os.ReadFile(otterStmt + ".sig")
 	os.Remove(otterStmt + ".sig")
-	key := filepath.Join(dir, "keys", "otter")
+	key := demo.KeyFile(dir, "otter")
 	os.Chmod(key, 0o600)
 	if out, err := exec.Command(kg, "-Y", "sign", "-n", campaign.SignoffNamespace, "-f", key, otterStmt).CombinedOutput(); err != nil {
 		t.Fatalf("ssh-keygen -Y sign: %v\n%s", err, out)
@@ -196,7 +196,7 @@ func TestUnblindRefusals(t *testing.T) {
 // demoTable is a true table of the demo, read back from its sealed copy.
 func demoTable(t *testing.T, dir, team, obs string) *table.Table {
 	t.Helper()
-	out, err := exec.Command("age", "--decrypt", "-i", filepath.Join(dir, "keys", "custodian.key"),
+	out, err := exec.Command("age", "--decrypt", "-i", demo.IdentityFile(dir),
 		filepath.Join(dir, "sealed", team, obs+".v1.age")).Output()
 	if err != nil {
 		// without the age tool: a table of the right shape

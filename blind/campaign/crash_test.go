@@ -10,6 +10,7 @@ import (
 	"golang.org/x/crypto/ssh"
 
 	"tandem/blind/campaign"
+	"tandem/blind/demo"
 	"tandem/compare/table"
 )
 
@@ -34,13 +35,13 @@ func runStep(dir, point string) error {
 		return err
 	}
 	key := func(name string) ssh.Signer {
-		s, err := campaign.ReadSigner(filepath.Join(dir, "keys", name))
+		s, err := campaign.ReadSigner(demo.KeyFile(dir, name))
 		if err != nil {
 			panic(err)
 		}
 		return s
 	}
-	ids, _, err := campaign.ReadIdentityFile(filepath.Join(dir, "keys", "custodian.key"))
+	ids, _, err := campaign.ReadIdentityFile(demo.IdentityFile(dir))
 	if err != nil {
 		return err
 	}

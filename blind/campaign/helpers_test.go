@@ -51,7 +51,7 @@ func open(t testing.TB, dir string) *campaign.Campaign {
 
 func signer(t testing.TB, dir, name string) ssh.Signer {
 	t.Helper()
-	s, err := campaign.ReadSigner(filepath.Join(dir, "keys", name))
+	s, err := campaign.ReadSigner(demo.KeyFile(dir, name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -60,7 +60,7 @@ func signer(t testing.TB, dir, name string) ssh.Signer {
 
 func identity(t testing.TB, dir string) []age.Identity {
 	t.Helper()
-	id, _, err := campaign.ReadIdentityFile(filepath.Join(dir, "keys", "custodian.key"))
+	id, _, err := campaign.ReadIdentityFile(demo.IdentityFile(dir))
 	if err != nil {
 		t.Fatal(err)
 	}

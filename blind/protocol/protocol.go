@@ -16,6 +16,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 
 	"filippo.io/age"
 	"filippo.io/age/agessh"
@@ -61,6 +62,7 @@ type Protocol struct {
 	Events *Events `toml:"events"`
 
 	custodianPub ssh.PublicKey
+	raw          []byte // the parsed bytes, for Canonical
 }
 
 // Party is a team or a reviewer with the SSH public key it signs with.
@@ -266,6 +268,7 @@ func Parse(path string, data []byte) (*Protocol, error) {
 			return nil, table.Errorf(path, keyLine(data, k[len(k)-1]), 0, "unknown key %q", k.String())
 		}
 	}
+	p.raw = bytes.Clone(data)
 	return p.check(path, data)
 }
 
@@ -275,7 +278,8 @@ func (p *Protocol) check(path string, data []byte) (*Protocol, error) {
 		return nil, table.Errorf(path, keyLine(data, "format"), 0, "a tandem/v1 protocol: this version of tandem reads %s campaigns only; start a new campaign with \"tandem init\"", blind.Version)
 	}
 	if err := p.validate(); err != nil {
-		return nil, table.Errorf(path, errLine(data, err), 0, "%v", err)
+		line, col := errPos(data, err)
+		return nil, table.Errorf(path, line, col, "%v", err)
 	}
 	return p, nil
 }
@@ -292,28 +296,96 @@ func keyLine(data []byte, key string) int {
 }
 
 // fieldError is a validation error about a named thing, so the message can
-// point at the line that names it.
+// point at the line, and where it can the column, that names it.
 type fieldError struct {
-	anchor string
-	msg    string
+	// anchors are found in order, each on a line at or after the previous
+	// one: "name = "spectrum"" then "name = "rate"" finds a column of an
+	// observable. Spaces are ignored and 'literal' quotes count as "basic".
+	anchors []string
+	// key, when set, is a key assigned in the TOML table (block) that holds
+	// the last anchor, and token a string value of it, found for the nth
+	// time (1-based) from the key on.
+	key   string
+	token string
+	nth   int
+	msg   string
 }
 
 func (e *fieldError) Error() string { return e.msg }
 
-func errLine(data []byte, err error) int {
+// errPos finds the 1-based line and column an error points at (0 when
+// unknown).
+func errPos(data []byte, err error) (line, col int) {
 	var fe *fieldError
-	if errors.As(err, &fe) && fe.anchor != "" {
-		for i, line := range strings.Split(string(data), "\n") {
-			if strings.Contains(strings.ReplaceAll(line, " ", ""), strings.ReplaceAll(fe.anchor, " ", "")) {
-				return i + 1
+	if !errors.As(err, &fe) || len(fe.anchors) == 0 {
+		return 0, 0
+	}
+	lines := strings.Split(string(data), "\n")
+	norm := func(s string) string { return strings.ReplaceAll(strings.ReplaceAll(s, " ", ""), "'", `"`) }
+	at := -1
+	for _, a := range fe.anchors {
+		want := norm(a)
+		for i := at + 1; i < len(lines); i++ {
+			if strings.Contains(norm(lines[i]), want) {
+				at = i
+				break
 			}
 		}
 	}
-	return 0
+	if at < 0 {
+		return 0, 0
+	}
+	line = at + 1
+	if fe.key == "" {
+		return line, 0
+	}
+	// The block of the anchor: from the table header before it to the
+	// next header.
+	header := func(s string) bool { return strings.HasPrefix(strings.TrimSpace(s), "[") }
+	start, end := at, at+1
+	for start > 0 && !header(lines[start]) {
+		start--
+	}
+	for end < len(lines) && !header(lines[end]) {
+		end++
+	}
+	re := regexp.MustCompile(`^\s*["']?` + regexp.QuoteMeta(fe.key) + `["']?\s*=`)
+	for i := start; i < end; i++ {
+		if !re.MatchString(lines[i]) {
+			continue
+		}
+		line, col = i+1, strings.Index(lines[i], strings.TrimSpace(lines[i]))+1
+		if fe.token == "" {
+			return line, col
+		}
+		seen := 0
+		for j := i; j < end; j++ {
+			for _, q := range []string{strconv.Quote(fe.token), "'" + fe.token + "'"} {
+				rest, off := lines[j], 0
+				for {
+					k := strings.Index(rest, q)
+					if k < 0 {
+						break
+					}
+					if seen++; seen == max(fe.nth, 1) {
+						return j + 1, utf8.RuneCountInString(lines[j][:off+k]) + 1
+					}
+					rest, off = rest[k+len(q):], off+k+len(q)
+				}
+			}
+		}
+		return line, col
+	}
+	return line, 0
 }
 
 func ferr(anchor, format string, args ...any) error {
-	return &fieldError{anchor: anchor, msg: fmt.Sprintf(format, args...)}
+	return &fieldError{anchors: []string{anchor}, msg: fmt.Sprintf(format, args...)}
+}
+
+// colErr is an error about a value of key in a column's block.
+func colErr(o *Observable, c *Column, key, token string, nth int, format string, args ...any) error {
+	return &fieldError{anchors: []string{nameAnchor(o.Name), nameAnchor(c.Name)}, key: key, token: token, nth: nth, msg: fmt.Sprintf(format, args...)}
 }
 
 func parseSSHKey(s string) (ssh.PublicKey, error) {
@@ -430,69 +502,147 @@ func (o *Observable) validate(seen map[string]bool, alpha float64) error {
 		o.Edges = []string{table.DefaultLo, table.DefaultHi}
 	}
 	if len(o.Edges) != 2 || o.Edges[0] == o.Edges[1] || !ValidName(o.Edges[0]) || !ValidName(o.Edges[1]) {
-		return ferr(anchor, "observable %q: edges must name two different columns", o.Name)
+		return &fieldError{anchors: []string{anchor}, key: "edges", msg: fmt.Sprintf("observable %q: edges must name two different columns", o.Name)}
 	}
 	if len(o.Columns) == 0 {
 		return ferr(anchor, "observable %q declares no columns", o.Name)
 	}
-	seenCol := map[string]bool{o.Edges[0]: true, o.Edges[1]: true}
+	// Every name a table of this observable holds must be unique, or no
+	// table could carry the observable: the edges, each value column, the
+	// value's uncertainty columns, the covariance columns C.cov.j and the
+	// per-bin correlation columns.
+	isEdge := func(n string) bool { return n == o.Edges[0] || n == o.Edges[1] }
+	value := map[string]bool{}
+	for j := range o.Columns {
+		c := &o.Columns[j]
+		where := "observable " + strconv.Quote(o.Name) + " column " + strconv.Quote(c.Name)
+		switch {
+		case !ValidName(c.Name):
+			return colErr(o, c, "name", c.Name, 1, "%s: a column name must be 1-64 letters, digits, '.', '_' or '-'", where)
+		case isEdge(c.Name):
+			return colErr(o, c, "name", c.Name, 1, "%s: the name is a bin edge of the observable", where)
+		case value[c.Name]: // point at the second declaration
+			return &fieldError{anchors: []string{nameAnchor(o.Name), nameAnchor(c.Name), nameAnchor(c.Name)}, key: "name", token: c.Name, nth: 1, msg: where + " is declared twice"}
+		}
+		value[c.Name] = true
+	}
+	errOf := map[string]string{} // uncertainty column → the value column it belongs to
+	for j := range o.Columns {
+		c := &o.Columns[j]
+		where := "observable " + strconv.Quote(o.Name) + " column " + strconv.Quote(c.Name)
+		for k, e := range c.Errors {
+			switch {
+			case !ValidName(e):
+				return colErr(o, c, "errors", e, 1, "%s: error column %q must be 1-64 letters, digits, '.', '_' or '-'", where, e)
+			case isEdge(e):
+				return colErr(o, c, "errors", e, 1, "%s: error column %q is a bin edge", where, e)
+			case e == c.Name:
+				return colErr(o, c, "errors", e, 1, "%s: error column %q is the value column itself", where, e)
+			case value[e]:
+				return colErr(o, c, "errors", e, 1, "%s: error column %q is the value column of column %q; a table holds one column of each name", where, e, e)
+			case slices.Contains(c.Errors[:k], e):
+				return colErr(o, c, "errors", e, 2, "%s: error column %q is listed twice; a table holds one column of each name", where, e)
+			case errOf[e] != "":
+				return colErr(o, c, "errors", e, 1, "%s: error column %q is also an error column of column %q; give each column its own uncertainty columns (a table holds one column of each name)", where, e, errOf[e])
+			}
+			errOf[e] = c.Name
+		}
+	}
+	// Names C.cov.j are the covariance matrix of a column C that declares
+	// covariance = true.
+	covOwner := func(n string) string {
+		for _, c := range o.Columns {
+			if c.Covariance && strings.HasPrefix(n, c.Name+".cov.") {
+				return c.Name
+			}
+		}
+		return ""
+	}
+	for j := range o.Columns {
+		c := &o.Columns[j]
+		where := "observable " + strconv.Quote(o.Name) + " column " + strconv.Quote(c.Name)
+		if cv := covOwner(c.Name); cv != "" {
+			return colErr(o, c, "name", c.Name, 1, "%s: names %s.cov.N hold the covariance matrix of column %q", where, cv, cv)
+		}
+		for _, e := range c.Errors {
+			if cv := covOwner(e); cv != "" {
+				return colErr(o, c, "errors", e, 1, "%s: error column %q: names %s.cov.N hold the covariance matrix of column %q", where, e, cv, cv)
+			}
+		}
+	}
 	var extra []string
 	defer func() { o.Extra = dedupe(extra) }()
 	for j := range o.Columns {
 		c := &o.Columns[j]
-		canchor := nameAnchor(c.Name)
 		where := "observable " + strconv.Quote(o.Name) + " column " + strconv.Quote(c.Name)
-		if !ValidName(c.Name) || seenCol[c.Name] {
-			return ferr(canchor, "%s: column names must be unique, valid names and not bin edges", where)
-		}
-		seenCol[c.Name] = true
-		for _, e := range c.Errors {
-			if !ValidName(e) || e == c.Name || e == o.Edges[0] || e == o.Edges[1] {
-				return ferr(canchor, "%s: error column %q cannot be the value or an edge", where, e)
-			}
-		}
 		if len(c.Scale) != 2 {
-			return ferr(canchor, "%s: scale must be a range [lo, hi] (an undeclared or single-number range makes no map)", where)
+			return colErr(o, c, "scale", "", 0, "%s: scale must be a range [lo, hi] (an undeclared or single-number range makes no map)", where)
 		}
 		if len(c.Shift) != 2 {
-			return ferr(canchor, "%s: shift must be a range [lo, hi] comparable to the values (an undeclared range makes no map)", where)
+			return colErr(o, c, "shift", "", 0, "%s: shift must be a range [lo, hi] comparable to the values (an undeclared range makes no map)", where)
 		}
 		if err := blind.CheckScale(c.ScaleRange()); err != nil {
-			return ferr(canchor, "%s: scale %v", where, err)
+			return colErr(o, c, "scale", "", 0, "%s: scale %v", where, err)
 		}
 		if err := blind.CheckShift(c.ShiftRange()); err != nil {
-			return ferr(canchor, "%s: shift %v", where, err)
+			return colErr(o, c, "shift", "", 0, "%s: shift %v", where, err)
 		}
 		if err := CleanText(c.AcceptRisk); err != nil {
-			return ferr(canchor, "%s: accept_risk: %v", where, err)
+			return colErr(o, c, "accept_risk", "", 0, "%s: accept_risk: %v", where, err)
 		}
 		if c.Options.Alpha != 0 {
-			return ferr(canchor, "%s: alpha is the campaign's family-wise rate; set it once at the top of the protocol", where)
+			return colErr(o, c, "alpha", "", 0, "%s: alpha is the campaign's family-wise rate; set it once at the top of the protocol", where)
 		}
 		opt := c.CompareOptions(alpha)
 		if err := opt.Validate(); err != nil {
-			return ferr(canchor, "%s: %v", where, err)
+			return colErr(o, c, "", "", 0, "%s: %v", where, err)
 		}
 		if c.Covariance && (len(c.Correlations) > 0 || c.Subset || c.Default.Column != "") {
-			return ferr(canchor, "%s: with covariance matrices give the correlation between the chains as one number (correlation = ρ), not per source, per bin or by the subset rule", where)
+			return colErr(o, c, "covariance", "", 0, "%s: with covariance matrices give the correlation between the chains as one number (correlation = ρ), not per source, per bin or by the subset rule", where)
 		}
 		// In key order: the per-bin columns follow the declared ones in
 		// this order in every canonical table.
 		for _, k := range slices.Sorted(maps.Keys(c.Correlations)) {
 			rho := c.Correlations[k]
 			if !slices.Contains(c.Errors, k) && !slices.Contains(c.Errors, c.Name+"_"+k) {
-				return ferr(canchor, "%s: correlations names %q, which is not one of its error columns", where, k)
+				return colErr(o, c, "correlations", "", 0, "%s: correlations names %q, which is not one of its error columns", where, k)
 			}
-			if rho.Column != "" && !slices.Contains(c.Errors, rho.Column) && rho.Column != c.Name {
-				extra = append(extra, rho.Column)
+			if rho.Column != "" {
+				if err := o.checkRhoColumn(c, "correlations", rho.Column, isEdge, value, covOwner); err != nil {
+					return err
+				}
+				if !slices.Contains(c.Errors, rho.Column) {
+					extra = append(extra, rho.Column)
+				}
 			}
 		}
 		if c.Default.Column != "" {
+			if err := o.checkRhoColumn(c, "correlation", c.Default.Column, isEdge, value, covOwner); err != nil {
+				return err
+			}
 			extra = append(extra, c.Default.Column)
 		}
 		if c.Overlap.Enabled() {
-			return ferr(canchor, "%s: overlap is not available in a campaign: the per-bin event counts would publish the true counts; declare the correlation per source (a number or a per-bin column) instead", where)
+			return colErr(o, c, "overlap", "", 0, "%s: overlap is not available in a campaign: the per-bin event counts would publish the true counts; declare the correlation per source (a number or a per-bin column) instead", where)
 		}
+	}
+	return nil
+}
+
+// checkRhoColumn refuses a per-bin correlation column that a table could
+// not hold beside the others, or that blinding would change: an edge, a
+// value column or a covariance column.
+func (o *Observable) checkRhoColumn(c *Column, key, name string, isEdge func(string) bool, value map[string]bool, covOwner func(string) string) error {
+	where := "observable " + strconv.Quote(o.Name) + " column " + strconv.Quote(c.Name)
+	switch {
+	case !ValidName(name):
+		return colErr(o, c, key, name, 1, "%s: correlation column %q must be 1-64 letters, digits, '.', '_' or '-'", where, name)
+	case isEdge(name):
+		return colErr(o, c, key, name, 1, "%s: correlation column %q is a bin edge", where, name)
+	case value[name]:
+		return colErr(o, c, key, name, 1, "%s: correlation column %q is a blinded value column; per-bin correlations need a column of their own", where, name)
+	case covOwner(name) != "":
+		return colErr(o, c, key, name, 1, "%s: correlation column %q is part of the covariance matrix of column %q", where, name, covOwner(name))
 	}
 	return nil
 }

@@ -33,22 +33,37 @@ func TestTemplateParses(t *testing.T) {
 	}
 	col := p.Observables[0].Columns[0]
 	opt := col.CompareOptions(p.FamilyAlpha())
-	if opt.Alpha != 0.01 || opt.EdgeTol != EdgeTolerance || len(opt.Correlations) != 2 || !opt.Correlations["syst"].Set {
+	// The template declares no correlation it does not know, so the
+	// zero-correlation warning stays on until the user declares one.
+	if opt.Alpha != 0.01 || opt.EdgeTol != EdgeTolerance || opt.Declared() {
 		t.Errorf("options %+v", opt)
 	}
-	bad := strings.Replace(text, "correlations = { stat = 0.0, syst = 0.0 }", "correlations = { stat = 0.0, lumi = 1.0 }", 1)
+	// The example in its comment, uncommented, is a valid declaration.
+	good := strings.Replace(text, templateCorr, "correlations = { stat = 0.6, syst = 1.0 }", 1)
+	if good == text {
+		t.Fatalf("the template lost its example %q", templateCorr)
+	}
+	if p, err := Parse("campaign.toml", []byte(good)); err != nil {
+		t.Errorf("the template's example correlation: %v", err)
+	} else if o := p.Observables[0].Columns[0].CompareOptions(0.01); !o.Declared() || o.Correlations["syst"].Value != 1 {
+		t.Errorf("the template's example correlation decodes to %+v", o.Correlations)
+	}
+	bad := strings.Replace(text, templateCorr, "correlations = { stat = 0.0, lumi = 1.0 }", 1)
 	if _, err := Parse("campaign.toml", []byte(bad)); err == nil || !strings.Contains(err.Error(), `"lumi"`) {
 		t.Errorf("a correlation of an undeclared source: %v", err)
 	}
-	bad = strings.Replace(text, "correlations = { stat = 0.0, syst = 0.0 }", "correlations = { stat = 1.5 }", 1)
+	bad = strings.Replace(text, templateCorr, "correlations = { stat = 1.5 }", 1)
 	if _, err := Parse("campaign.toml", []byte(bad)); err == nil {
 		t.Errorf("a correlation of 1.5 accepted")
 	}
-	bad = strings.Replace(text, "correlations = {", "alpha = 0.05\n  correlations = {", 1)
+	bad = strings.Replace(text, templateCorr, "alpha = 0.05", 1)
 	if _, err := Parse("campaign.toml", []byte(bad)); err == nil || !strings.Contains(err.Error(), "family-wise") {
 		t.Errorf("a per-column alpha: %v", err)
 	}
 }
+
+// templateCorr is the commented example correlation of the template.
+const templateCorr = "#   correlations = { stat = 0.6, syst = 1.0 }"
 
 func TestCleanText(t *testing.T) {
 	for _, s := range []string{"ok — ünïcode", ""} {
@@ -72,7 +87,7 @@ func TestExtraOrder(t *testing.T) {
 	for _, p := range []string{"team-a", "team-b", "reviewer"} {
 		text = strings.Replace(text, `"ssh-ed25519 AAAA... `+p+`"`, `"`+pubLine(t, p)+`"`, 1)
 	}
-	text = strings.Replace(text, "correlations = { stat = 0.0, syst = 0.0 }", `correlations = { syst = "rho_syst", stat = "rho_stat" }`, 1)
+	text = strings.Replace(text, templateCorr, `correlations = { syst = "rho_syst", stat = "rho_stat" }`, 1)
 	for n := 0; n < 50; n++ {
 		p, err := Parse("campaign.toml", []byte(text))
 		if err != nil {

@@ -77,11 +77,16 @@ edges = ["lo", "hi"]
   # scaled by s_i, so pulls, chi-square and p-values do not change.
   scale = [0.5, 2.0]            # blinding factors, drawn from this range (> 0)
   shift = [-1000.0, 1000.0]     # blinding offsets: make this as wide as the values
-  # Correlation of the two chains' errors, per error source: a number in
-  # [-1, 1] or the name of a column with one value per bin. A systematic
-  # both teams take from the same source has 1; statistical errors of
-  # chains on the same events about N_common/sqrt(N_a N_b).
-  correlations = { stat = 0.0, syst = 0.0 }
+  # How the two chains' errors are correlated, per error source. Nothing
+  # is declared here, so every report warns that the correlation is taken
+  # as 0, which makes the test too lenient when the chains share events or
+  # systematics. Declare what you know, for each source a number in
+  # [-1, 1] or the name of a column with one value per bin, e.g.
+  #   correlations = { stat = 0.6, syst = 1.0 }
+  # (or "correlation = 0.5" for every source at once). A systematic both
+  # teams take from the same source has 1; the statistical errors of two
+  # chains that select N_a and N_b events, N_common of them the same, have
+  # about N_common/sqrt(N_a N_b).
   # max_pull = 4.0              # optional raw limit on the largest |pull|
   # accept_risk = "why publishing a map an attack breaks is acceptable"
 `, blind.Version, campaign, custodian, custodianKey), "\n")

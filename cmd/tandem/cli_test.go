@@ -49,7 +49,7 @@ func TestSignWithSSHAgent(t *testing.T) {
 		}
 		exec.Command("sleep", "0.05").Run()
 	}
-	add := exec.Command("ssh-add", filepath.Join(dir, "keys", "otter"))
+	add := exec.Command("ssh-add", filepath.Join(demo.KeysDir(dir), "otter"))
 	add.Env = append(os.Environ(), "SSH_AUTH_SOCK="+sock)
 	if out, err := add.CombinedOutput(); err != nil {
 		t.Fatalf("ssh-add: %v\n%s", err, out)
@@ -85,7 +85,7 @@ func TestBlindedReportsHoldNoTrueValue(t *testing.T) {
 	if code, _, stderr := runCLI(t, "report", dir); code != 0 {
 		t.Fatalf("report: %s", stderr)
 	}
-	ids, _, err := campaign.ReadIdentityFile(filepath.Join(dir, "keys", "custodian.key"))
+	ids, _, err := campaign.ReadIdentityFile(filepath.Join(demo.KeysDir(dir), demo.CustodianIdentity))
 	if err != nil {
 		t.Fatal(err)
 	}
