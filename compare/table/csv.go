@@ -98,10 +98,11 @@ func parse(name string, r io.Reader, size int64, opt CSVOptions, target int) (*T
 	}
 	s.ncols = 2 + len(t.Names)
 	first.cols = make([][]float64, s.ncols)
-	m := &merger{t: t, lineOff: first.first - 1, size: size}
+	m := &merger{t: t, lineOff: first.first - 1, size: size, maxCells: lim.MaxBytes / 8}
 	if err := parseBlocks(name, s, p, first, m); err != nil {
 		return nil, err
 	}
+	m.finish()
 	if len(t.Lo) == 0 {
 		return nil, Errorf(name, 0, 0, "table has a header but no bins")
 	}
