@@ -175,6 +175,10 @@ type merger struct {
 	// maxCells bounds the numbers held: Limits.MaxBytes of float64s.
 	maxCells int64
 
+	// index is the destination of a row-index column to check and leave
+	// out, or -1; indexBase is its first value (0 or 1).
+	index     int
+	indexBase float64
 	// chunks holds, for an input of unknown size, each destination's
 	// numbers in slabs: 0 lower edges, 1 upper edges, 2+k Cols[k].
 	chunks [][][]float64
@@ -204,6 +208,11 @@ func (m *merger) add(name string, b *block) *Error {
 		rows := m.rows
 		ncols := len(b.cols)
 		need := rows + b.nrows
+		if m.index >= 0 {
+			if err := m.checkIndex(name, b); err != nil {
+				return err
+			}
+		}
 		if m.maxCells > 0 && int64(need)*int64(ncols) > m.maxCells {
 			return cellLimit(name, m.lineOff+b.firstRow, need, ncols, m.maxCells*8)
 		}
@@ -216,7 +225,9 @@ func (m *merger) add(name string, b *block) *Error {
 			// the rows so far (at least 4096 rows), so the slack is
 			// bounded and nothing is copied twice before the end.
 			for d, c := range b.cols {
-				m.chunks[d] = appendSlab(m.chunks[d], c, rows)
+				if d != m.index {
+					m.chunks[d] = appendSlab(m.chunks[d], c, rows)
+				}
 			}
 		default:
 			if need > cap(t.Lo) {
@@ -269,6 +280,31 @@ func (m *merger) add(name string, b *block) *Error {
 		}
 	}
 	m.lineOff += b.nlines
+	return nil
+}
+
+// checkIndex checks that the row-index column of b numbers the rows on
+// from the rows merged so far: 0, 1, 2, … or 1, 2, 3, ….
+func (m *merger) checkIndex(name string, b *block) *Error {
+	for j, v := range b.cols[m.index] {
+		row := m.rows + j
+		if row == 0 && (v == 0 || v == 1) {
+			m.indexBase = v
+			continue
+		}
+		if want := m.indexBase + float64(row); v != want {
+			line := m.lineOff + b.firstRow + j
+			if b.lines != nil {
+				line = m.lineOff + int(b.lines[j])
+			}
+			if row == 0 {
+				want = 0
+			}
+			e := Errorf(name, line, 1, "the first column has no name and is not a row index: %s where %s was expected", Format(v), Format(want))
+			e.Hint = "name the column in the header, or write the table without its index (pandas: to_csv(path, index=False); R: write.csv(x, path, row.names=FALSE))"
+			return e
+		}
+	}
 	return nil
 }
 

@@ -94,10 +94,17 @@ func ReadTOMLFile(path string, opt CSVOptions) (*Table, error) {
 	return ParseTOML(path, data, opt)
 }
 
-// ParseJSON reads a table in tandem's JSON layout.
+// ParseJSON reads a table in tandem's JSON layout, or in one of the
+// layouts of pandas' to_json (see pandas.go).
 func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
 	if lim := opt.Limits.resolved(); int64(len(data)) > lim.MaxBytes {
 		return nil, tooLarge(name, lim)
+	}
+	if opt.Lo == "" {
+		opt.Lo = DefaultLo
+	}
+	if layout := pandasLayout(name, data, opt.Lo); layout != "" {
+		return parsePandas(name, data, layout, opt)
 	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()

@@ -159,7 +159,7 @@ func FuzzParseCSV(f *testing.F) {
 		if err != nil {
 			t.Fatalf("round trip failed: %v\n%s", err, b.String())
 		}
-		again.Source, again.Lines, again.FirstLine = tb.Source, tb.Lines, tb.FirstLine
+		again.Source, again.Lines, again.FirstLine, again.Notes = tb.Source, tb.Lines, tb.FirstLine, tb.Notes
 		if diff := cmp.Diff(tb, again); diff != "" {
 			t.Fatalf("round trip changed the table (-first +second)\n%s", diff)
 		}
