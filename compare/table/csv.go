@@ -171,7 +171,7 @@ func (t *Table) header(name string, s *splitter, opt CSVOptions) (*rowParser, *b
 			if lead == len(line) || line[lead] == '#' {
 				continue
 			}
-			if numericRow(line, opt.Delim) {
+			if numericRow(line, opt.Delim, t.LoName, t.HiName) {
 				// Numbers where the names should be: numpy's savetxt
 				// writes its header as a comment, "# lo,hi,…".
 				p, err := t.commentHeader(name, lineNo, line, firstComment, opt, s.lim)
@@ -258,8 +258,9 @@ func (t *Table) rowParser(name string, lineNo int, fields [][]byte, starts []int
 }
 
 // numericRow reports whether every field of line is a number (quoted or
-// not): such a line is data, not a header of column names.
-func numericRow(line []byte, delim byte) bool {
+// not) and the fields do not name both edge columns lo and hi (which a
+// caller may name "0" and "1"): such a line is data, not a header.
+func numericRow(line []byte, delim byte, lo, hi string) bool {
 	if delim == 0 {
 		delim = ','
 		if bytes.IndexByte(line, '\t') >= 0 && bytes.IndexByte(line, ',') < 0 {
@@ -270,12 +271,16 @@ func numericRow(line []byte, delim byte) bool {
 	if err != nil {
 		return false
 	}
+	named := 0
 	for _, f := range fields {
 		if _, msg := parseNumber(f); msg != "" {
 			return false
 		}
+		if string(f) == lo || string(f) == hi {
+			named++
+		}
 	}
-	return true
+	return named < 2
 }
 
 // commentHeader takes the column names from the commented first line of

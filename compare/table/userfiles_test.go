@@ -127,6 +127,10 @@ func TestUserFileRefusals(t *testing.T) {
 	if tb.Names[0] != "rate y" || tb.Cols[0][0] != 2.5 || tb.Lo[0] != 0 {
 		t.Errorf("got %q %v %v", tb.Names, tb.Lo, tb.Cols)
 	}
+	// Edge columns named by numbers keep a numeric header.
+	if tb, err := ParseCSV("t.csv", []byte("0,1,2\n5,6,7\n"), CSVOptions{Lo: "0", Hi: "1"}); err != nil || tb.Names[0] != "2" || tb.Lo[0] != 5 {
+		t.Errorf("numeric names: %v %v", tb, err)
+	}
 	for _, c := range []struct{ in, want string }{
 		{`[{"lo":0,"hi":1,"y":null}]`, `t.json:1:21: null where a number should be (pandas writes NaN as null)`},
 		{"[{\"lo\":0,\"hi\":1,\"y\":1},\n {\"lo\":1,\"hi\":2,\"z\":1}]", `t.json:2:21: record 2 has the key "z", which the first record lacks`},
