@@ -217,7 +217,11 @@ func (t *Table) headerRow(name string, lineNo int, line []byte, delim byte, lim 
 	if qerr != nil {
 		return nil, qerr
 	}
-	return t.rowParser(name, lineNo, fields, starts, delim, lim)
+	p, err := t.rowParser(name, lineNo, fields, starts, delim, lim)
+	if e, ok := err.(*Error); ok && len(fields) == 1 && bytes.ContainsAny(bytes.TrimSpace(line), " ") && e.Hint == "" {
+		e.Hint = "the fields seem separated by spaces; tandem reads comma- or tab-separated tables (numpy: savetxt(..., delimiter=','))"
+	}
+	return p, err
 }
 
 // rowParser sets the columns of t from the header fields and returns the

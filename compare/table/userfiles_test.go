@@ -102,6 +102,8 @@ func TestUserFileRefusals(t *testing.T) {
 		{"# lo,hi\n0,1,2\n", "t.csv:2:1: expected a header of column names, found a row of numbers", "comments=''"},
 		{"# written by a script\n0,1,2\n", "t.csv:2:1: expected a header of column names", "comments=''"},
 		{"0,1,2\n", "t.csv:1:1: expected a header of column names", "put the column names on the first line"},
+		// numpy's savetxt with its default delimiter, a space.
+		{"# lo hi y\n0.0e+00 1.0e+00 2.0e+00\n", `t.csv:2:1: missing bin-edge column "lo"`, "delimiter=','"},
 		// Quoting (RFC 4180) that tandem refuses.
 		{"lo,hi,y\n0,1,\"2\n3\"\n", "t.csv:2:5: quoted field is not closed on its line", "may not span lines"},
 		{"\"lo\"x,hi,y\n0,1,2\n", "t.csv:1:5: text after the closing quote", ""},
