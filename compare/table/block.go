@@ -87,6 +87,18 @@ func (s *splitter) get() *block {
 	return b
 }
 
+// drop lets go of the blocks kept for reuse and of the carried text.
+func (s *splitter) drop() {
+	for {
+		select {
+		case <-s.free:
+		default:
+			s.carry = nil
+			return
+		}
+	}
+}
+
 // release returns b for reuse.
 func (s *splitter) release(b *block) {
 	select {

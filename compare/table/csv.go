@@ -112,6 +112,9 @@ func parse(name string, r io.Reader, size int64, opt CSVOptions, target int) (*T
 	if err := parseBlocks(name, s, p, first, m); err != nil {
 		return nil, err
 	}
+	// Let the blocks go before the slabs of a stream are joined.
+	first = nil
+	s.drop()
 	m.finish()
 	if p.index >= 0 && m.rows > 0 {
 		t.Notes = append(t.Notes, fmt.Sprintf("%s: the unnamed first column numbers the rows %s to %s (a row index, as pandas' to_csv and R's write.csv write by default); left out", name, Format(m.indexBase), Format(m.indexBase+float64(m.rows-1))))
