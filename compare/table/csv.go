@@ -519,33 +519,11 @@ func (p *rowParser) row(b *block, rel int, line []byte, plain bool, prev *edgeMe
 			}
 		}
 		if !ok {
-			if plain {
-				if err := checkText(p.name, rel, line); err != nil {
-					return err
-				}
-				plain = false
+			var err *Error
+			if v, end, err = p.slowField(line, rel, pos, k, plain); err != nil {
+				return err
 			}
-			var start, stop int
-			var msg string
-			start, stop, end = NextField(line, pos, delim)
-			field := line[start:stop]
-			if start < len(line) && line[start] == '"' {
-				var err *Error
-				if field, end, err = quotedField(p.name, rel, line, start, delim); err != nil {
-					return err
-				}
-			}
-			v, msg = parseNumber(field)
-			if msg != "" {
-				if n := countFields(line, delim); n != len(p.header) {
-					return raggedErr(p.name, rel, line, delim, len(p.header))
-				}
-				col := p.header[k]
-				if d == p.index {
-					col = "(unnamed index)"
-				}
-				return Errorf(p.name, rel, start+1, "column %q: %s", col, msg)
-			}
+			plain = false
 		}
 		b.cols[d] = append(b.cols[d], v)
 		k++
@@ -559,6 +537,38 @@ func (p *rowParser) row(b *block, rel int, line []byte, plain bool, prev *edgeMe
 	}
 	*prev = hi
 	return nil
+}
+
+// slowField parses the field at pos that the one-pass scan did not: a
+// field with blanks, a quoted field, or a bad one. It checks the line's
+// text first when it is still taken for plain ASCII.
+func (p *rowParser) slowField(line []byte, rel, pos, k int, plain bool) (float64, int, *Error) {
+	if plain {
+		if err := checkText(p.name, rel, line); err != nil {
+			return 0, 0, err
+		}
+	}
+	delim := p.delim
+	start, stop, end := NextField(line, pos, delim)
+	field := line[start:stop]
+	if start < len(line) && line[start] == '"' {
+		var err *Error
+		if field, end, err = quotedField(p.name, rel, line, start, delim); err != nil {
+			return 0, 0, err
+		}
+	}
+	v, msg := parseNumber(field)
+	if msg != "" {
+		if n := countFields(line, delim); n != len(p.header) {
+			return 0, 0, raggedErr(p.name, rel, line, delim, len(p.header))
+		}
+		col := p.header[k]
+		if p.dest[k] == p.index {
+			col = "(unnamed index)"
+		}
+		return 0, 0, Errorf(p.name, rel, start+1, "column %q: %s", col, msg)
+	}
+	return v, end, nil
 }
 
 func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int) ([]string, []int, error) {
