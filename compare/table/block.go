@@ -345,6 +345,12 @@ func (m *merger) finish() {
 	}
 	t := m.t
 	join := func(d int) []float64 {
+		if len(m.chunks[d]) == 1 {
+			// A table that fits one slab (most piped tables) keeps it.
+			out := m.chunks[d][0]
+			m.chunks[d] = nil
+			return out
+		}
 		out := make([]float64, 0, m.rows)
 		for j, c := range m.chunks[d] {
 			out = append(out, c...)

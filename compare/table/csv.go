@@ -48,9 +48,19 @@ func ReadFile(path string, opt CSVOptions) (*Table, error) {
 }
 
 // ReadCSV reads a table from r; name is used in messages ([StdinName] for
-// the standard input).
+// the standard input). When r is a regular file (a standard input
+// redirected from a file) its size sizes the columns, as [ReadFile] does;
+// otherwise (a pipe) the numbers are gathered in slabs and joined once.
 func ReadCSV(name string, r io.Reader, opt CSVOptions) (*Table, error) {
-	return parse(name, r, 0, opt, blockBytes)
+	var size int64
+	if f, ok := r.(*os.File); ok {
+		if fi, err := f.Stat(); err == nil && fi.Mode().IsRegular() {
+			if off, err := f.Seek(0, io.SeekCurrent); err == nil && off <= fi.Size() {
+				size = fi.Size() - off
+			}
+		}
+	}
+	return parse(name, r, size, opt, blockBytes)
 }
 
 func unwrapPath(err error) error {
