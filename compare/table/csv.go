@@ -619,11 +619,12 @@ func (t *Table) setHeader(name string, lineNo int, fields [][]byte, starts []int
 
 // badName says what makes h unfit for a column name, or "": tandem writes
 // names unquoted in its canonical tables, so a name may not hold a comma,
-// tab, double quote or control character, start with '#' (a comment) or
-// start or end with a blank (trimmed when read).
+// tab, double quote, line break or NUL, start with '#' (a comment) or
+// start or end with a blank (trimmed when read). Other control characters
+// read back as written; reports show them escaped.
 func badName(h string) string {
-	if i := strings.IndexFunc(h, func(r rune) bool { return r < 0x20 || r == 0x7f || r == ',' || r == '"' }); i >= 0 {
-		return fmt.Sprintf("holds %q; column names may not hold commas, tabs, double quotes or control characters", h[i])
+	if i := strings.IndexAny(h, ",\"\t\n\r\x00"); i >= 0 {
+		return fmt.Sprintf("holds %q; column names may not hold commas, double quotes, tabs, line breaks or NUL", h[i])
 	}
 	if h[0] == '#' {
 		return "starts with '#', which marks a comment line"
