@@ -326,7 +326,7 @@ func runCompare(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	ts, err := input.ReadAllFrom(e.stdin, opt, pos[0], pos[1])
+	ts, err := input.ReadAllWaiting(e.stdin, opt, e.waitNotice(), pos[0], pos[1])
 	if err != nil {
 		return inputErr(err)
 	}
@@ -519,4 +519,21 @@ func sameFile(a, b string) bool {
 	aa, _ := filepath.Abs(a)
 	bb, _ := filepath.Abs(b)
 	return aa == bb
+}
+
+// waitNotice tells, on a terminal, of an input (a named pipe, a device,
+// the standard input) that has given nothing for a few seconds, so that
+// tandem never waits in silence.
+func (e *env) waitNotice() input.Wait {
+	f, ok := e.stderr.(*os.File)
+	if !ok || !isTerminal(f) {
+		return input.Wait{}
+	}
+	return input.Wait{After: input.DefaultWaitAfter, Notify: func(spec string) {
+		if spec == input.Stdin {
+			e.infof("waiting for the table on standard input (nothing has arrived for %v)", input.DefaultWaitAfter)
+			return
+		}
+		e.infof("waiting for %s: nothing has been written to it for %v (a named pipe or device reads only once its writer starts)", spec, input.DefaultWaitAfter)
+	}}
 }

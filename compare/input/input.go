@@ -50,14 +50,8 @@ func ReadAll(opt table.CSVOptions, specs ...string) ([]*table.Table, error) {
 
 // ReadAllFrom is [ReadAll] with stdin as the standard input.
 func ReadAllFrom(stdin io.Reader, opt table.CSVOptions, specs ...string) ([]*table.Table, error) {
-	n := 0
-	for _, s := range specs {
-		if s == Stdin {
-			n++
-		}
-	}
-	if n > 1 {
-		return nil, table.Errorf("", 0, 0, "the standard input (-) can be read only once, but is named %d times", n)
+	if err := checkStdinOnce(specs); err != nil {
+		return nil, err
 	}
 	out := make([]*table.Table, len(specs))
 	errs := make([]error, len(specs))
@@ -76,4 +70,18 @@ func ReadAllFrom(stdin io.Reader, opt table.CSVOptions, specs ...string) ([]*tab
 		}
 	}
 	return out, nil
+}
+
+// checkStdinOnce refuses specs that name the standard input more than once.
+func checkStdinOnce(specs []string) error {
+	n := 0
+	for _, s := range specs {
+		if s == Stdin {
+			n++
+		}
+	}
+	if n > 1 {
+		return table.Errorf("", 0, 0, "the standard input (-) can be read only once, but is named %d times", n)
+	}
+	return nil
 }

@@ -32,6 +32,7 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"slices"
 	"strings"
 
 	"go-hep.org/x/hep/groot/rhist"
@@ -101,14 +102,18 @@ func readHist(spec string) (t *table.Table, err error) {
 	}
 	obj, err := riofs.Dir(f).Get(path)
 	if err != nil {
-		return nil, table.Errorf(spec, 0, 0, "no object %q in the file: %v", path, err)
+		e := table.Errorf(file, 0, 0, "no object %q in the file; it holds %s", path, contents(f))
+		e.Hint = "name one of them as " + file + ":PATH"
+		return nil, e
 	}
 	t = &table.Table{Source: spec, LoName: table.DefaultLo, HiName: table.DefaultHi}
 	switch o := obj.(type) {
 	case rhist.H2, rhist.H1 /* H2 checked first: a 2-D histogram is not 1-D */ :
 		h1, ok := o.(rhist.H1)
 		if _, is2 := o.(rhist.H2); is2 || !ok {
-			return nil, table.Errorf(spec, 0, 0, "%s is a %s, a histogram of more than one dimension; tandem compares 1-D results", path, obj.Class())
+			e := table.Errorf(spec, 0, 0, "%s is a %s, a 2-D histogram: not yet supported in this release", path, obj.Class())
+			e.Hint = "compare its projections (TH2::ProjectionX or ProjectionY, saved as TH1D), or export its cells as CSV with columns for the x and y edges"
+			return nil, e
 		}
 		if err := fromH1(t, h1); err != nil {
 			return nil, table.Errorf(spec, 0, 0, "%v", err)
@@ -144,8 +149,7 @@ func onlyObject(f *riofs.File) (string, error) {
 		}
 		switch obj.(type) {
 		case rhist.H1, rhist.Graph:
-			_, rel, _ := strings.Cut(path, "/")
-			found = append(found, rel)
+			found = append(found, strings.TrimPrefix(strings.TrimPrefix(path, f.Name()), "/"))
 		}
 		return nil
 	})
@@ -155,9 +159,44 @@ func onlyObject(f *riofs.File) (string, error) {
 	case len(found) == 1:
 		return found[0], nil
 	case len(found) == 0:
-		return "", fmt.Errorf("the file holds no histogram or graph")
+		return "", fmt.Errorf("the file holds no 1-D histogram or graph; it holds %s", contents(f))
 	}
 	return "", fmt.Errorf("the file holds %d histograms and graphs (%s); name one as FILE.root:PATH", len(found), strings.Join(found, ", "))
+}
+
+// maxListed bounds the objects that [contents] names.
+const maxListed = 20
+
+// contents lists the objects of f with their classes, "h_rate (TH1D),
+// spectra/h_map (TH2D), …", at most maxListed of them, for messages.
+func contents(f *riofs.File) string {
+	var names []string
+	n := 0
+	_ = riofs.Walk(f, func(path string, obj root.Object, err error) error {
+		if err != nil {
+			return nil
+		}
+		rel := strings.TrimPrefix(strings.TrimPrefix(path, f.Name()), "/")
+		if rel == "" || rel == path {
+			return nil // the file itself
+		}
+		if _, dir := obj.(riofs.Directory); dir {
+			return nil
+		}
+		n++
+		if len(names) < maxListed {
+			names = append(names, fmt.Sprintf("%s (%s)", rel, obj.Class()))
+		}
+		return nil
+	})
+	slices.Sort(names)
+	switch {
+	case n == 0:
+		return "no objects"
+	case n > len(names):
+		return strings.Join(names, ", ") + fmt.Sprintf(" and %d more", n-len(names))
+	}
+	return strings.Join(names, ", ")
 }
 
 // h1 is what tandem needs of a TH1D or TH1F.

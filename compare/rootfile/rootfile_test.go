@@ -212,11 +212,30 @@ func TestRoundTrip(t *testing.T) {
 	if diff := cmp.Diff(wantG, gg); diff != "" {
 		t.Errorf("graph round trip (-want +got):\n%s", diff)
 	}
-	if _, err := Read(path + ":h2"); err == nil || !strings.Contains(err.Error(), "more than one dimension") {
+	_, err = Read(path + ":h2")
+	if e, ok := err.(*table.Error); !ok || !strings.Contains(e.Error(), "h2 is a TH2D, a 2-D histogram: not yet supported in this release") || !strings.Contains(e.Hint, "projections") || !strings.Contains(e.Hint, "CSV") {
 		t.Errorf("2-D histogram: %v", err)
 	}
-	if _, err := Read(path + ":nothing"); err == nil || !strings.Contains(err.Error(), `no object "nothing"`) {
+	// A missing object: the message lists what the file holds, not the
+	// library's text.
+	_, err = Read(path + ":nothing")
+	if e, ok := err.(*table.Error); !ok || e.Error() != path+`: no object "nothing" in the file; it holds g (TGraphAsymmErrors), h (TH1D), h2 (TH2D)` || !strings.Contains(e.Hint, path+":PATH") {
 		t.Errorf("missing object: %v", err)
+	}
+	// A file with a 2-D histogram only names it.
+	only2 := filepath.Join(t.TempDir(), "h2.root")
+	f2, err := groot.Create(only2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := f2.Put("map", rhist.NewH2DFrom(h2)); err != nil {
+		t.Fatal(err)
+	}
+	if err := f2.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Read(only2); err == nil || !strings.Contains(err.Error(), "holds no 1-D histogram or graph; it holds map (TH2D)") {
+		t.Errorf("file of one 2-D histogram: %v", err)
 	}
 }
 

@@ -58,6 +58,7 @@ type wireError struct {
 	Line int    `json:"line"`
 	Col  int    `json:"col"`
 	Msg  string `json:"msg"`
+	Hint string `json:"hint,omitempty"`
 }
 
 // errMalformed marks a stream that breaks the protocol.
@@ -116,7 +117,7 @@ func (fw *frameWriter) fail(spec string, err error) error {
 	if !errors.As(err, &te) {
 		te = table.Errorf(spec, 0, 0, "%v", err)
 	}
-	return fw.json('e', wireError{te.File, te.Line, te.Col, te.Msg})
+	return fw.json('e', wireError{te.File, te.Line, te.Col, te.Msg, te.Hint})
 }
 
 func (fw *frameWriter) table(t *table.Table) error {
@@ -189,7 +190,7 @@ func errorFrame(spec string, payload []byte) error {
 	if w.File == "" {
 		w.File = spec
 	}
-	return &table.Error{File: clean(w.File, 4096), Line: max(w.Line, 0), Col: max(w.Col, 0), Msg: clean(w.Msg, 2000)}
+	return &table.Error{File: clean(w.File, 4096), Line: max(w.Line, 0), Col: max(w.Col, 0), Msg: clean(w.Msg, 2000), Hint: clean(w.Hint, 2000)}
 }
 
 // readTable decodes a histogram answer.

@@ -87,6 +87,18 @@ func (s *splitter) get() *block {
 	return b
 }
 
+// drop lets go of the blocks kept for reuse and of the carried text.
+func (s *splitter) drop() {
+	for {
+		select {
+		case <-s.free:
+		default:
+			s.carry = nil
+			return
+		}
+	}
+}
+
 // release returns b for reuse.
 func (s *splitter) release(b *block) {
 	select {
@@ -160,11 +172,36 @@ func (s *splitter) next() (*block, *Error) {
 }
 
 // merger appends parsed blocks to the table in file order.
+//
+// When the input size is known (a regular file) the columns are sized
+// once from the rows per byte seen so far. When it is not (a pipe), the
+// numbers are copied into slabs and joined once at the
+// end ([merger.finish]), so a stream costs the memory of its numbers, as
+// a file does, instead of regrowing every column at every block.
 type merger struct {
 	t       *Table
 	lineOff int   // file lines before the next block
 	size    int64 // input size when known, for sizing the columns
 	bytes   int64 // input bytes up to the next block
+	rows    int   // rows merged so far
+	// maxCells bounds the numbers held: Limits.MaxBytes of float64s.
+	maxCells int64
+
+	// index is the destination of a row-index column to check and leave
+	// out, or -1; indexBase is its first value (0 or 1).
+	index     int
+	indexBase float64
+	// chunks holds, for an input of unknown size, each destination's
+	// numbers in slabs: 0 lower edges, 1 upper edges, 2+k Cols[k].
+	chunks [][][]float64
+}
+
+// cellLimit is the refusal of a table whose numbers would take more memory
+// than the input limit allows.
+func cellLimit(name string, line, rows, ncols int, lim int64) *Error {
+	e := Errorf(name, line, 0, "the table's numbers need more than the limit of %d bytes of memory (%d rows of %d columns so far, 8 bytes a number)", lim, rows, ncols)
+	e.Hint = "raise the limit with " + flagMaxBytes + ", which bounds both the input and the memory of its numbers"
+	return e
 }
 
 // add appends b to the table, or returns b's error with file lines.
@@ -180,25 +217,55 @@ func (m *merger) add(name string, b *block) *Error {
 	m.bytes += int64(len(b.data))
 	t := m.t
 	if b.nrows > 0 {
-		rows := len(t.Lo)
-		if need := rows + b.nrows; need > cap(t.Lo) {
-			// Size the columns from the rows per byte so far, with a
-			// margin, instead of growing them by halves.
-			want := need
-			if m.size > 0 && m.bytes > 0 {
-				want = max(need, int(float64(need)*float64(m.size)/float64(m.bytes)*1.03)+64)
+		rows := m.rows
+		ncols := len(b.cols)
+		need := rows + b.nrows
+		if m.index >= 0 {
+			if err := m.checkIndex(name, b); err != nil {
+				return err
 			}
-			t.Lo = growTo(t.Lo, want)
-			t.Hi = growTo(t.Hi, want)
+		}
+		if m.maxCells > 0 && int64(need)*int64(ncols) > m.maxCells {
+			return cellLimit(name, m.lineOff+b.firstRow, need, ncols, m.maxCells*8)
+		}
+		switch {
+		case m.size <= 0:
+			if m.chunks == nil {
+				m.chunks = make([][][]float64, ncols)
+			}
+			// Copy the block's columns into slabs of an eighth of
+			// the rows so far (at least 4096 rows), so the slack is
+			// bounded and nothing is copied twice before the end.
+			for d, c := range b.cols {
+				if d != m.index {
+					m.chunks[d] = appendSlab(m.chunks[d], c, rows)
+				}
+			}
+		default:
+			if need > cap(t.Lo) {
+				// Size the columns from the rows per byte so far,
+				// with a margin, instead of growing them by halves;
+				// never beyond what the limit allows.
+				want := need
+				if m.bytes > 0 {
+					want = max(need, int(float64(need)*float64(m.size)/float64(m.bytes)*1.03)+64)
+				}
+				if m.maxCells > 0 {
+					want = max(need, min(want, int(m.maxCells/int64(ncols))))
+				}
+				t.Lo = growTo(t.Lo, want)
+				t.Hi = growTo(t.Hi, want)
+				for k := range t.Cols {
+					t.Cols[k] = growTo(t.Cols[k], want)
+				}
+			}
+			t.Lo = append(t.Lo, b.cols[0]...)
+			t.Hi = append(t.Hi, b.cols[1]...)
 			for k := range t.Cols {
-				t.Cols[k] = growTo(t.Cols[k], want)
+				t.Cols[k] = append(t.Cols[k], b.cols[2+k]...)
 			}
 		}
-		t.Lo = append(t.Lo, b.cols[0]...)
-		t.Hi = append(t.Hi, b.cols[1]...)
-		for k := range t.Cols {
-			t.Cols[k] = append(t.Cols[k], b.cols[2+k]...)
-		}
+		m.rows = need
 		// Line numbers are kept only once rows stop being consecutive.
 		first := m.lineOff + b.firstRow
 		switch {
@@ -207,7 +274,7 @@ func (m *merger) add(name string, b *block) *Error {
 		case t.Lines == nil && b.lines == nil && first == t.FirstLine+rows:
 		default:
 			if t.Lines == nil {
-				t.Lines = make([]int32, rows, cap(t.Lo))
+				t.Lines = make([]int32, rows, max(cap(t.Lo), need))
 				for j := range t.Lines {
 					t.Lines[j] = int32(t.FirstLine + j)
 				}
@@ -226,6 +293,78 @@ func (m *merger) add(name string, b *block) *Error {
 	}
 	m.lineOff += b.nlines
 	return nil
+}
+
+// checkIndex checks that the row-index column of b numbers the rows on
+// from the rows merged so far: 0, 1, 2, … or 1, 2, 3, ….
+func (m *merger) checkIndex(name string, b *block) *Error {
+	for j, v := range b.cols[m.index] {
+		row := m.rows + j
+		if row == 0 && (v == 0 || v == 1) {
+			m.indexBase = v
+			continue
+		}
+		if want := m.indexBase + float64(row); v != want {
+			line := m.lineOff + b.firstRow + j
+			if b.lines != nil {
+				line = m.lineOff + int(b.lines[j])
+			}
+			if row == 0 {
+				want = 0
+			}
+			e := Errorf(name, line, 1, "the first column has no name and is not a row index: %s where %s was expected", Format(v), Format(want))
+			e.Hint = "name the column in the header, or write the table without its index (pandas: to_csv(path, index=False); R: write.csv(x, path, row.names=FALSE))"
+			return e
+		}
+	}
+	return nil
+}
+
+// appendSlab appends v to the last slab of slabs, starting a new slab
+// of max(4096, rows/8) elements (or len(v), if larger) when it is full.
+func appendSlab(slabs [][]float64, v []float64, rows int) [][]float64 {
+	for len(v) > 0 {
+		n := len(slabs)
+		if n == 0 || len(slabs[n-1]) == cap(slabs[n-1]) {
+			slabs = append(slabs, make([]float64, 0, max(4096, rows/8)))
+			n++
+		}
+		last := slabs[n-1]
+		k := min(len(v), cap(last)-len(last))
+		slabs[n-1] = append(last, v[:k]...)
+		v = v[k:]
+	}
+	return slabs
+}
+
+// finish joins the chunks of an input of unknown size into the table's
+// columns, one column at a time, dropping each column's chunks as it goes.
+func (m *merger) finish() {
+	if m.chunks == nil {
+		return
+	}
+	t := m.t
+	join := func(d int) []float64 {
+		if len(m.chunks[d]) == 1 {
+			// A table that fits one slab (most piped tables) keeps it.
+			out := m.chunks[d][0]
+			m.chunks[d] = nil
+			return out
+		}
+		out := make([]float64, 0, m.rows)
+		for j, c := range m.chunks[d] {
+			out = append(out, c...)
+			m.chunks[d][j] = nil
+		}
+		m.chunks[d] = nil
+		return out
+	}
+	t.Lo = join(0)
+	t.Hi = join(1)
+	for k := range t.Cols {
+		t.Cols[k] = join(2 + k)
+	}
+	m.chunks = nil
 }
 
 // growTo returns s with room for n elements.

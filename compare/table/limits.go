@@ -16,14 +16,17 @@ type Limits struct {
 	MaxLineBytes int
 	// MaxColumns is the largest number of columns of a table header.
 	MaxColumns int
-	// MaxBytes is the largest input, in bytes.
+	// MaxBytes is the largest input, in bytes, and the most memory the
+	// numbers of a text table may take (8 bytes a number).
 	MaxBytes int64
 }
 
 // DefaultLimits are generous for binned tables: a 10⁶-bin table of five
 // columns written with "%.18e" is 125 MB, a quarter of the default size.
-// The memory a table needs is at most four times its size in bytes (one
-// float64 per two bytes of "0,0,…"), so the defaults bound it to 2 GiB.
+// MaxBytes also bounds the memory of a text table's numbers (8 bytes
+// each), which short numbers ("0,0,…") would otherwise make four times
+// the input: whatever the input, file or endless pipe, the numbers held
+// stay within MaxBytes.
 var DefaultLimits = Limits{MaxLineBytes: 1 << 20, MaxColumns: 10_000, MaxBytes: 512 << 20}
 
 // resolved returns l with zero fields replaced by the defaults.

@@ -94,10 +94,37 @@ func ReadTOMLFile(path string, opt CSVOptions) (*Table, error) {
 	return ParseTOML(path, data, opt)
 }
 
-// ParseJSON reads a table in tandem's JSON layout.
+// ReadJSON reads a JSON table from r (a pipe, say) under the same limits
+// as [ReadJSONFile].
+func ReadJSON(name string, r io.Reader, opt CSVOptions) (*Table, error) {
+	data, err := readBounded(name, r, 0, opt.Limits.resolved(), "a text table")
+	if err != nil {
+		return nil, err
+	}
+	return ParseJSON(name, data, opt)
+}
+
+// ReadTOML reads a TOML table from r under the same limits as
+// [ReadTOMLFile].
+func ReadTOML(name string, r io.Reader, opt CSVOptions) (*Table, error) {
+	data, err := readBounded(name, r, 0, opt.Limits.resolved(), "a text table")
+	if err != nil {
+		return nil, err
+	}
+	return ParseTOML(name, data, opt)
+}
+
+// ParseJSON reads a table in tandem's JSON layout, or in one of the
+// layouts of pandas' to_json (see pandas.go).
 func ParseJSON(name string, data []byte, opt CSVOptions) (*Table, error) {
 	if lim := opt.Limits.resolved(); int64(len(data)) > lim.MaxBytes {
 		return nil, tooLarge(name, lim)
+	}
+	if opt.Lo == "" {
+		opt.Lo = DefaultLo
+	}
+	if layout := pandasLayout(name, data, opt.Lo); layout != "" {
+		return parsePandas(name, data, layout, opt)
 	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
