@@ -72,7 +72,7 @@ func (c *Campaign) Compare() (*Comparison, error) {
 	if len(cmp.Incomplete) > 0 {
 		cmp.Verdict = Incomplete
 	}
-	cmp.Digest = ComparisonDigest(format.Digest(c.ProtocolBytes), cmp)
+	cmp.Digest = ComparisonDigest(c.protocolDigest(), cmp)
 	c.cmp = cmp
 	return cmp, nil
 }
