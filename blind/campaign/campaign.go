@@ -159,7 +159,7 @@ type Campaign struct {
 	paths    []string         // the file of each entry of Ledger
 	logs     map[string][]int // log name → indices into Ledger, by seq
 	logProbs []Problem        // damaged, forked or cut logs
-	forks    []string         // entry files on a fork not kept
+	forks    []forkEntry      // entries on a fork's branch not kept
 	drafted  View             // the heads when Draft ran
 	state    *State
 	cmp      *Comparison
@@ -191,6 +191,10 @@ func Open(dir string) (*Campaign, error) {
 	}
 	return c, nil
 }
+
+// OpenAny opens a campaign whatever the state of its logs, for the
+// commands that repair them ([Campaign.Resolve]).
+func OpenAny(dir string) (*Campaign, error) { return open(dir) }
 
 func open(dir string) (*Campaign, error) {
 	r, err := openRoot(dir)

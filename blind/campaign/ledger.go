@@ -255,23 +255,31 @@ func (c *Campaign) readLogs() error {
 		}
 		var off []string
 		fork, maxSeq := false, 0
+		var offEntries []forkEntry
 		for seq, idx := range seqs {
 			maxSeq = max(maxSeq, seq)
 			fork = fork || len(idx) > 1
 			for _, i := range idx {
 				if !onChain[i] {
 					off = append(off, all[i].path)
+					offEntries = append(offEntries, forkEntry{all[i].path, all[i].e})
 				}
 			}
 		}
 		slices.Sort(off)
 		switch {
 		case fork:
+			from := maxSeq
+			for _, f := range offEntries {
+				from = min(from, f.e.Seq)
+			}
 			var keep []string
 			for _, i := range chain {
-				keep = append(keep, all[i].path)
+				if all[i].e.Seq >= from {
+					keep = append(keep, all[i].path)
+				}
 			}
-			c.forks = append(c.forks, off...)
+			c.forks = append(c.forks, offEntries...)
 			bad(ProblemFork, LogDir+"/"+n, "the log of %s forked: two clones each extended it. Kept: %s; not kept: %s. Run \"tandem resolve %s\" to remove the entries not kept (and the files only they logged), then take their steps again", n, strings.Join(keep, ", "), strings.Join(off, ", "), c.Dir)
 		case len(off) > 0 && len(seqs[len(chain)+1]) == 0:
 			bad(ProblemChain, LogDir+"/"+n, "entry %d of %s's log is missing (entries up to %d exist)", len(chain)+1, n, maxSeq)
@@ -542,4 +550,76 @@ func (c *Campaign) initEntry() *format.Entry {
 		}
 	}
 	return nil
+}
+
+// forkEntry is an entry on a fork's branch not kept.
+type forkEntry struct {
+	path string
+	e    format.Entry
+}
+
+// ResolveResult says what [Campaign.Resolve] removed.
+type ResolveResult struct {
+	// Entries are the entry files removed, Files the files only they
+	// logged.
+	Entries, Files []string
+	// Retake describes the steps removed, to be taken again.
+	Retake []string
+}
+
+// Resolve removes the entries of every fork's branch that is not kept
+// (the kept branch starts with the earliest entry, then the smallest
+// hash) and the files that only those entries logged. Every clone that
+// runs it removes the same files, so the result merges in git. It refuses
+// when an entry of the kept branches names a removed one, or when the
+// logs have other problems.
+func (c *Campaign) Resolve() (*ResolveResult, error) {
+	unlock, err := c.root.Lock()
+	if err != nil {
+		return nil, err
+	}
+	defer unlock()
+	if err := c.readLogs(); err != nil {
+		return nil, err
+	}
+	if len(c.forks) == 0 {
+		return nil, refuse("resolve", ProblemState, "no log has forked; there is nothing to resolve")
+	}
+	var other []Problem
+	for _, p := range c.logProbs {
+		if p.Kind != ProblemFork {
+			other = append(other, p)
+		}
+	}
+	if len(other) > 0 {
+		return nil, &RefusedError{Step: "resolve", Problems: other}
+	}
+	st := c.State()
+	res := &ResolveResult{}
+	files := map[string]bool{}
+	for _, f := range c.forks {
+		res.Entries = append(res.Entries, f.path)
+		res.Retake = append(res.Retake, describeEntry(&f.e))
+		for rel := range f.e.Files {
+			if _, kept := st.Files[rel]; !kept && c.root.Exists(rel) {
+				files[rel] = true
+			}
+		}
+	}
+	for rel := range files {
+		res.Files = append(res.Files, rel)
+	}
+	slices.Sort(res.Entries)
+	slices.Sort(res.Files)
+	for _, rel := range res.Files {
+		if err := c.root.Remove(rel); err != nil {
+			return nil, err
+		}
+	}
+	for _, rel := range res.Entries {
+		if err := c.root.Remove(rel); err != nil {
+			return nil, err
+		}
+	}
+	return res, c.readLogs()
 }

@@ -91,9 +91,15 @@ func (c *Campaign) audit() *Report {
 			r.Notes = append(r.Notes, rel+": temporary file of an interrupted write; safe to remove")
 		}
 	}
+	onFork := map[string]bool{}
+	for _, f := range c.forks {
+		for rel := range f.e.Files {
+			onFork[rel] = true
+		}
+	}
 	for _, rel := range all {
-		if _, ok := files[rel]; ok || rel == ProtocolFile {
-			continue
+		if _, ok := files[rel]; ok || rel == ProtocolFile || onFork[rel] {
+			continue // a fork's files: the fork problem names them
 		}
 		if leftoverRE.MatchString(rel) {
 			r.Notes = append(r.Notes, rel+": left by an interrupted step (no entry logs it); the next step of that kind removes it")

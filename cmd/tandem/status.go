@@ -182,6 +182,52 @@ func runVerify(e *env, args []string) error {
 	return nil
 }
 
+const resolveHelp = `Usage:
+    tandem resolve DIR
+
+When two clones extended one party's log at the same time (two runs of
+the custodian's job, or a party that signed on two machines) and git
+merged both, that log has forked and every step is refused. resolve keeps
+the branch whose first entry is earliest (then the smallest hash), removes
+the entry files of the other branch and the files only they logged, and
+lists the steps removed, to be taken again. Every clone that runs it
+removes the same files, so commit and push the result as any step. It
+refuses when an entry of another log names a removed entry.
+`
+
+func runResolve(e *env, args []string) error {
+	fs := newFlags(e, "resolve", resolveHelp)
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	dir, err := oneDir(pos, "resolve")
+	if err != nil {
+		return err
+	}
+	if _, err := os.Stat(filepath.Join(dir, campaign.ProtocolFile)); err != nil {
+		return inputErr(fmt.Errorf("%s: not a campaign folder (no %s)", dir, campaign.ProtocolFile))
+	}
+	c, err := campaign.OpenAny(dir)
+	if err != nil {
+		return campaignErr(err)
+	}
+	res, err := c.Resolve()
+	if err != nil {
+		return campaignErr(err)
+	}
+	for _, rel := range res.Entries {
+		fmt.Fprintf(e.stdout, "removed entry %s\n", rel)
+	}
+	for _, rel := range res.Files {
+		fmt.Fprintf(e.stdout, "removed %s\n", rel)
+	}
+	for _, r := range res.Retake {
+		e.infof("to take again: %s", r)
+	}
+	return nil
+}
+
 const reportHelp = `Usage:
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
 
