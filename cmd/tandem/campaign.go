@@ -433,7 +433,7 @@ func runBlind(e *env, args []string) error {
 const unblindHelp = `Usage:
     tandem unblind DIR --identity FILE [--key FILE]
 
-Custodian step. Checks the ledger (chain, order, every signature), every
+Custodian step. Checks the logs (chains, order, every signature), every
 file digest, every sign-off and the quorum; refuses (exit 1) listing every
 problem, writing nothing. If all holds, opens the key, checks it against
 its commitment, decrypts every latest seal, checks it against its seal-time

@@ -63,9 +63,12 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 const statusHelp = `Usage:
     tandem status DIR [--format text|json]
 
-Shows where the campaign stands: each observable's state (waiting for
-seals, sealed, open for comparison, unblinded) with each team's sealed
-version, every sign-off, and the next action of each party.
+Shows where the campaign stands as this folder holds it: each
+observable's state (waiting for seals, sealed, open for comparison,
+unblinded) with each team's sealed version, every sign-off, each party's
+log (entries and last step, so a site can see what others have pushed
+after a pull), and whose turn it is: the next action of each party.
+tandem never runs git; pull first to see the other sites' steps.
 `
 
 func runStatus(e *env, args []string) error {
@@ -121,6 +124,13 @@ func runStatus(e *env, args []string) error {
 			fmt.Fprintf(w, "  sign-off %-15s INVALID: %s\n", so.Party, so.Problems[0])
 		}
 	}
+	for _, l := range s.Logs {
+		if l.Entries == 0 {
+			fmt.Fprintf(w, "  log %-20s no entry yet\n", l.Party)
+			continue
+		}
+		fmt.Fprintf(w, "  log %-20s %d entries, last: %s at %s\n", l.Party, l.Entries, l.Last, l.Time)
+	}
 	for _, n := range s.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
 	}
@@ -146,7 +156,7 @@ func publishedWord(p string) string {
 const verifyHelp = `Usage:
     tandem verify DIR
 
-Checks everything anyone can check without secrets: the ledger chain, the
+Checks everything anyone can check without secrets: every log's chain, the
 order of its entries and every entry's signature by the key the protocol
 gives its actor, the protocol lock, every file digest, every sign-off
 signature, and after unblinding the quorum, the key against its
