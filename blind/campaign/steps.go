@@ -80,10 +80,11 @@ func (c *Campaign) start(custodian ssh.Signer) (*Campaign, error) {
 	if err != nil {
 		return nil, err
 	}
-	if !c.root.Exists(AttributesFile) {
-		// git must never change a byte of a logged file (line ends above all)
-		if err := c.root.CreateExclusive(AttributesFile, []byte(gitAttributes), 0o644); err != nil {
-			return nil, err
+	for _, f := range []struct{ name, body string }{{AttributesFile, gitAttributes}, {ignoreFile, gitIgnore}} {
+		if !c.root.Exists(f.name) {
+			if err := c.root.CreateExclusive(f.name, []byte(f.body), 0o644); err != nil {
+				return nil, err
+			}
 		}
 	}
 	com := k.Commitment(salt)
@@ -146,6 +147,13 @@ func (c *Campaign) openKey(step Step, ids []age.Identity) (*blind.Key, error) {
 // campaign is text to git, so no checkout setting (core.autocrlf, eol)
 // changes a byte whose digest an entry logs.
 const gitAttributes = "# written by tandem init: git must not change a byte of a campaign file\n* -text\n"
+
+// ignoreFile keeps out of git what every clone writes for itself: the
+// lock, and the reports (rewritten by "tandem report" on any site, so two
+// sites committing them would conflict; any site can render them again).
+const ignoreFile = ".gitignore"
+
+const gitIgnore = "# written by tandem init: what each clone writes for itself\n/.tandem.lock\n/reports/\n"
 
 // SealResult says what a seal did.
 type SealResult struct {
