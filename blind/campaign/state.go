@@ -243,6 +243,10 @@ func (c *Campaign) replay() *State {
 			bad(e, ProblemOrder, "an entry after unblinding")
 			continue
 		}
+		if m := unknownMember(e, teams); m != "" {
+			bad(e, ProblemEntry, "holds the member %q, which a %s entry does not have", m, e.Step)
+			continue
+		}
 		// a path is logged once, by the step that writes it
 		fresh := true
 		for f := range e.Files {
@@ -528,4 +532,34 @@ func (st *State) unstale() []string {
 	}
 	slices.Sort(out)
 	return out
+}
+
+// stepMembers are the data members each step may hold, besides the
+// after.LOG members every entry may hold and the seal.TEAM members of
+// blind and open.
+var stepMembers = map[Step][]string{
+	StepInit:    {"campaign", "key_salt", "key_commitment", "protocol"},
+	StepSeal:    {"team", "observable", "version", "commitment", "reason"},
+	StepBlind:   {"observable"},
+	StepOpen:    {"observable", "round"},
+	StepSign:    {"party", "verdict", "accepted_disagreement"},
+	StepAmend:   {"reason", "protocol"},
+	StepUnblind: {"signed_by", "key_salt"},
+}
+
+// unknownMember returns a data member e's step does not have, or "".
+func unknownMember(e *format.Entry, teams []string) string {
+	allowed, ok := stepMembers[Step(e.Step)]
+	if !ok {
+		return "" // an unknown step is reported as such
+	}
+	for _, k := range keys(e.Data) {
+		switch {
+		case strings.HasPrefix(k, afterPrefix), slices.Contains(allowed, k):
+		case (e.Step == string(StepBlind) || e.Step == string(StepOpen)) && strings.HasPrefix(k, "seal.") && slices.Contains(teams, k[len("seal."):]):
+		default:
+			return k
+		}
+	}
+	return ""
 }

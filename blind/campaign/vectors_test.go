@@ -1394,6 +1394,13 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.blinded()
 			g.forgeSeal("team-a", "flux", "team-a/flux2", 2, 1, "a corrected efficiency")
 		}},
+		{"bad-entry-reserved-member", "bad-entry", "team-a's sign entry holds the member observable, reserved for staged unblinding and not a v3 member", func(g *gen) {
+			g.blinded()
+			g.forgeSignMod("team-a", "team-a", nil, func(sig []byte, _, data map[string]string) []byte {
+				data["observable"] = "flux"
+				return sig
+			})
+		}},
 		{"private-key", "private-key", "as ok-blinded, with the custodian's age identity copied into the campaign folder", func(g *gen) {
 			g.blinded()
 			id := g.ids[0].(*age.X25519Identity)

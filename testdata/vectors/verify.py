@@ -487,6 +487,16 @@ def sshsig_hash_alg(raw):
     return alg.decode("ascii", "replace")
 
 
+# SPEC.md section 8, the steps table: the data members of each step
+STEP_MEMBERS = {
+    "init": {"campaign", "key_salt", "key_commitment", "protocol"},
+    "seal": {"team", "observable", "version", "commitment", "reason"},
+    "blind": {"observable"}, "open": {"observable", "round"},
+    "sign": {"party", "verdict", "accepted_disagreement"},
+    "amend": {"reason", "protocol"}, "unblind": {"signed_by", "key_salt"},
+}
+
+
 def short(d):
     return d[:12]
 
@@ -780,6 +790,12 @@ class Campaign:
                     continue
             if st["unblind"] is not None and self.sees(e, st["unblind"]):
                 self.bad("out-of-order", where + "an entry after unblinding")
+                continue
+            allowed = STEP_MEMBERS.get(step)
+            if allowed is not None and any(not (k.startswith("after.") or k in allowed or
+                                                (step in ("blind", "open") and k.startswith("seal.") and k[5:] in teams))
+                                           for k in d):
+                self.bad("bad-entry", where + "holds a member its step does not have")
                 continue
             if any(f in st["files"] for f in files):
                 self.bad("bad-entry", where + "logs a path already logged")
