@@ -867,6 +867,8 @@ type gen struct {
 	signers map[string]ssh.Signer
 	ids     []age.Identity
 	tick    int
+	// statementHash, when set, is the SSHSIG hash forgeSign signs with.
+	statementHash string
 	// unblindData, when set, edits the data of forgeUnblind's entry.
 	unblindData func(map[string]string)
 }
@@ -1175,7 +1177,11 @@ func (g *gen) forgeSignMod(party, sigBy string, alter func(*Statement), mod func
 		alter(st)
 	}
 	body := st.Encode()
-	sig, err := sshsig.Sign(g.signers[sigBy], SignoffNamespace, body)
+	alg := "sha512"
+	if g.statementHash != "" {
+		alg = g.statementHash
+	}
+	sig, err := sshsig.SignHash(g.signers[sigBy], SignoffNamespace, body, alg)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -1376,6 +1382,17 @@ func campaignVectors(t *testing.T, out string) []*vector {
 				return sig
 			})
 		}},
+		{"bad-entry-key-age", "bad-entry", "the reviewer replaced key.age with an age file of its own and its sign entry logs the new digest", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.editFile(KeyFile, func(s string) string { return s + "\n" })
+			data, _ := os.ReadFile(filepath.Join(g.dir, KeyFile))
+			g.forgeSignMod("reviewer", "reviewer", nil, func(sig []byte, files, _ map[string]string) []byte {
+				files[KeyFile] = format.Digest(data)
+				return sig
+			})
+		}},
 		{"bad-entry-signed-by", "bad-entry", "unblinded after the quorum signed, but the unblind entry names team-a alone in signed_by (re-signed by the custodian)", func(g *gen) {
 			g.signed()
 			g.unblindData = func(d map[string]string) { d["signed_by"] = "team-a" }
@@ -1428,6 +1445,30 @@ func campaignVectors(t *testing.T, out string) []*vector {
 				data["verdict"], data["accepted_disagreement"] = "fail", "we think flux differs"
 				return sig
 			})
+		}},
+		{"bad-signoff-reason", "bad-signoff", "the reviewer signed a failing statement with one accepted-disagreement reason; its sign entry logs another", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.forgeSignMod("reviewer", "reviewer", func(st *Statement) {
+				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				d, err := st.ComparisonDigest()
+				if err != nil {
+					t.Fatal(err)
+				}
+				st.Comparison = d
+			}, func(sig []byte, _, data map[string]string) []byte {
+				data["accepted_disagreement"] = "a reason the statement does not give"
+				return sig
+			})
+		}},
+		{"bad-signoff-sha256", "bad-signoff", "the reviewer's statement signed by the reviewer with the SSHSIG hash sha256 (SPEC requires sha512)", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.statementHash = "sha256"
+			g.forgeSign("reviewer", "reviewer", nil)
 		}},
 		{"bad-signoff-armor", "bad-signoff", "the reviewer's statement signature re-armored in lines of 76 columns (SPEC requires 70), its digest logged as it stands", func(g *gen) {
 			g.blinded()
