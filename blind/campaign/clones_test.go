@@ -160,3 +160,79 @@ func actions(st *campaign.Status) []string {
 	}
 	return out
 }
+
+// TestResolveFork: heron signs in two clones; merged, heron's log has
+// forked and every step is refused. resolve removes the branch not kept,
+// unless another party's entry follows it, which it refuses.
+func TestResolveFork(t *testing.T) {
+	dir := buildDemo(t, "sign")
+	base := snapshot(t, dir)
+	a, b := clone(t, dir), clone(t, dir)
+	for i, c := range []string{a, b} {
+		cp := open(t, c)
+		st, _, err := cp.Draft("heron", []string{"understood", "understood, on the second machine"}[i])
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := cp.Sign(st, signer(t, dir, "heron")); err != nil {
+			t.Fatal(err)
+		}
+	}
+	merged := clone(t, dir)
+	merge(t, base, merged, a, b)
+	if _, err := campaign.Open(merged); err == nil || !strings.Contains(err.Error(), "forked") && !strings.Contains(problems(err), "forked") {
+		t.Fatalf("open of a forked campaign: %v", err)
+	}
+	c, err := campaign.OpenAny(merged)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// which clone holds the branch not kept: otter signs there, after it
+	r := campaign.Verify(merged)
+	notKept := ""
+	for _, p := range r.Problems {
+		if p.Kind == campaign.ProblemFork {
+			notKept = p.Message[strings.Index(p.Message, "not kept: ")+len("not kept: "):]
+			notKept = notKept[:strings.Index(notKept, ".")]
+		}
+	}
+	if notKept == "" {
+		t.Fatalf("no fork reported: %s", reportText(r))
+	}
+	loser := a
+	if _, err := os.Stat(filepath.Join(b, filepath.FromSlash(notKept))); err == nil {
+		loser = b
+	}
+	withOtter := clone(t, merged)
+	lb := snapshot(t, loser)
+	cp := open(t, loser)
+	st, _, err := cp.Draft("otter", "understood")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := cp.Sign(st, signer(t, dir, "otter")); err != nil {
+		t.Fatal(err)
+	}
+	merge(t, lb, withOtter, loser)
+	co, err := campaign.OpenAny(withOtter)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := co.Resolve(); err == nil || !strings.Contains(problems(err), "not kept") {
+		t.Errorf("resolve removed an entry another log follows: %v (%s)", err, problems(err))
+	}
+	// without otter's entry, resolve removes the branch and the campaign goes on
+	res, err := c.Resolve()
+	if err != nil {
+		t.Fatalf("resolve: %s", problems(err))
+	}
+	if len(res.Entries) != 1 || res.Entries[0] != notKept || len(res.Files) != 2 {
+		t.Errorf("resolve removed %v and %v", res.Entries, res.Files)
+	}
+	if r := campaign.Verify(merged); !r.OK() {
+		t.Fatalf("verify after resolve: %s", reportText(r))
+	}
+	if _, err := open(t, merged).Status(); err != nil {
+		t.Fatal(err)
+	}
+}
