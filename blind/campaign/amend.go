@@ -42,7 +42,7 @@ func (c *Campaign) Amend(actor string, next []byte, reason string, signer ssh.Si
 	if err != nil {
 		return nil, err
 	}
-	if digest == c.protocolDigest() {
+	if digest == c.protocolDigest() && c.amendProblem() == nil {
 		return nil, refuse(StepAmend, ProblemProtocol, "the new protocol means what the one in force means (only comments, white space, line ends or key order differ); there is nothing to amend")
 	}
 	stale := c.State().unstale()

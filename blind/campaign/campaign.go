@@ -250,6 +250,29 @@ func (c *Campaign) protocolProblem() *Problem {
 		"the protocol means something else than the one entry %s locked (comments, white space, line ends and key order do not count); restore it, or record the change with \"tandem amend\" (which makes every earlier sign-off stale)", at)}
 }
 
+// amendProblem reports amendments made at once in two places: the latest
+// amend entry must follow every other, else which protocol is in force
+// depends on an order no one chose.
+func (c *Campaign) amendProblem() *Problem {
+	var amends []*format.Entry
+	for i := range c.Ledger {
+		if e := &c.Ledger[i]; e.Step == string(StepAmend) {
+			amends = append(amends, e)
+		}
+	}
+	if len(amends) < 2 {
+		return nil
+	}
+	last := amends[len(amends)-1]
+	for _, a := range amends[:len(amends)-1] {
+		if !sees(last, a) {
+			return &Problem{Kind: ProblemProtocol, Path: ProtocolFile, Message: fmt.Sprintf(
+				"amendments %s and %s were made at once (neither follows the other), so no one chose the protocol in force; agree on it and record it with \"tandem amend\" (its entry follows both)", EntryName(a), EntryName(last))}
+		}
+	}
+	return nil
+}
+
 // lockedProtocol is the protocol digest of the latest init or amend entry
 // and the entry's name.
 func (c *Campaign) lockedProtocol() (digest, at string) {

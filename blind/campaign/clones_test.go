@@ -236,3 +236,54 @@ func TestResolveFork(t *testing.T) {
 		t.Fatal(err)
 	}
 }
+
+// TestConcurrentAmends: two parties amend the protocol in two clones at
+// once. However git joins campaign.toml, no one chose the protocol in
+// force: verify says so and steps are refused, until an amend that
+// follows both records the protocol agreed on.
+func TestConcurrentAmends(t *testing.T) {
+	dir := buildDemo(t, "sign")
+	base := snapshot(t, dir)
+	a, b := clone(t, dir), clone(t, dir)
+	good, _ := os.ReadFile(filepath.Join(dir, campaign.ProtocolFile))
+	next := map[string][]byte{
+		a: []byte(strings.Replace(string(good), "shift = [-10000.0, 10000.0]", "shift = [-10000.0, 10000.0]\n  max_pull = 5.0", 1)),
+		b: []byte(strings.Replace(string(good), "shift = [-10000.0, 10000.0]", "shift = [-10000.0, 10000.0]\n  max_pull = 4.0", 1)),
+	}
+	for c, who := range map[string]string{a: "ibis", b: "heron"} {
+		if _, err := open(t, c).Amend(who, next[c], "a pull limit", signer(t, dir, who)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	// git stops on campaign.toml (both changed it); someone keeps a's
+	for _, c := range []string{a, b} {
+		os.WriteFile(filepath.Join(c, campaign.ProtocolFile), good, 0o644)
+	}
+	merge(t, base, dir, a, b)
+	os.WriteFile(filepath.Join(dir, campaign.ProtocolFile), next[a], 0o644)
+	r := campaign.Verify(dir)
+	if r.OK() || !strings.Contains(reportText(r), "made at once") {
+		t.Fatalf("verify after two amends at once: %s", reportText(r))
+	}
+	c := open(t, dir)
+	if _, _, err := c.Draft("otter", "understood"); err == nil {
+		if _, err := c.Sign(mustDraft(t, c, "otter"), signer(t, dir, "otter")); err == nil || !strings.Contains(problems(err), "made at once") {
+			t.Errorf("sign after two amends at once: %v", err)
+		}
+	}
+	if _, err := open(t, dir).Amend("ibis", next[a], "agreed: the limit of 5", signer(t, dir, "ibis")); err != nil {
+		t.Fatalf("the amend that follows both: %v", problems(err))
+	}
+	if r := campaign.Verify(dir); !r.OK() {
+		t.Fatalf("verify after the agreeing amend: %s", reportText(r))
+	}
+}
+
+func mustDraft(t *testing.T, c *campaign.Campaign, party string) *campaign.Statement {
+	t.Helper()
+	st, _, err := c.Draft(party, "understood")
+	if err != nil {
+		t.Fatal(err)
+	}
+	return st
+}

@@ -533,6 +533,9 @@ func (c *Campaign) begin(step Step) (func(), error) {
 	if p := c.protocolProblem(); p != nil {
 		return fail(&RefusedError{Step: step, Problems: []Problem{*p}})
 	}
+	if p := c.amendProblem(); p != nil && step != StepAmend {
+		return fail(&RefusedError{Step: step, Problems: []Problem{*p}})
+	}
 	if step != StepInit && !c.Started() {
 		return fail(fmt.Errorf("%s: the campaign has not been started (run tandem init)", c.Dir))
 	}

@@ -48,6 +48,9 @@ func (c *Campaign) audit() *Report {
 	if p := c.protocolProblem(); p != nil {
 		r.Problems = append(r.Problems, *p)
 	}
+	if p := c.amendProblem(); p != nil {
+		r.Problems = append(r.Problems, *p)
+	}
 	r.Problems = append(r.Problems, c.logProbs...)
 	st := c.State()
 	r.Problems = append(r.Problems, st.Problems...)

@@ -759,6 +759,9 @@ class Campaign:
             got = ""
         if want and got != want:
             self.bad("protocol-changed", "campaign.toml means something else than the protocol locked")
+        amends = [e for e in order if e["step"] == "amend"]
+        if any(not self.sees(amends[-1], a) for a in amends[:-1]):
+            self.bad("protocol-changed", "two amendments made at once: the latest does not follow every other")
 
     def replay(self, order, init, p, parties, teams, obs):
         st = {"files": {}, "latest": {}, "history": {}, "own": {}, "common": {}, "rounds": {}, "signs": {},
