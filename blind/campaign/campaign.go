@@ -186,7 +186,8 @@ func Open(dir string) (*Campaign, error) {
 	if len(c.logProbs) > 0 {
 		return nil, &RefusedError{Step: "open", Problems: c.logProbs}
 	}
-	if p := c.protocolProblem(); p != nil {
+	if p := c.protocolProblem(); p != nil && c.amendProblem() == nil {
+		// (after two amendments made at once, the steps explain it)
 		return nil, &RefusedError{Step: "open", Problems: []Problem{*p}}
 	}
 	return c, nil

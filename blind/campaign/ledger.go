@@ -530,10 +530,14 @@ func (c *Campaign) begin(step Step) (func(), error) {
 	if len(c.logProbs) > 0 {
 		return fail(&RefusedError{Step: step, Problems: c.logProbs})
 	}
-	if p := c.protocolProblem(); p != nil {
-		return fail(&RefusedError{Step: step, Problems: []Problem{*p}})
+	// After two amendments made at once the protocol in force is
+	// undecided: only an amend that follows both may run, whatever
+	// campaign.toml holds.
+	amendAtOnce := c.amendProblem()
+	if amendAtOnce != nil && step != StepAmend {
+		return fail(&RefusedError{Step: step, Problems: []Problem{*amendAtOnce}})
 	}
-	if p := c.amendProblem(); p != nil && step != StepAmend {
+	if p := c.protocolProblem(); p != nil && amendAtOnce == nil {
 		return fail(&RefusedError{Step: step, Problems: []Problem{*p}})
 	}
 	if step != StepInit && !c.Started() {

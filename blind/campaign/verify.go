@@ -10,6 +10,7 @@ import (
 
 	"tandem/blind"
 	"tandem/blind/internal/format"
+	"tandem/blind/keykind"
 )
 
 // Report is the outcome of verify.
@@ -305,8 +306,10 @@ func (c *Campaign) privateKeys() []Problem {
 		if err != nil {
 			continue
 		}
+		kind := keykind.Detect(data)
 		for _, m := range privateKeyMarkers {
-			if bytes.Contains(data, m) {
+			// a key file, or a key pasted anywhere into another file
+			if kind == keykind.SSHPrivateKey || kind == keykind.AgeIdentity || bytes.Contains(data, m) {
 				probs = append(probs, Problem{Kind: ProblemPrivateKey, Path: rel, Message: "holds a private key or age identity; no secret belongs in a campaign folder (move it out, and replace the key if the folder was ever shared)"})
 				break
 			}
