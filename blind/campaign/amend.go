@@ -38,19 +38,16 @@ func (c *Campaign) Amend(actor string, next []byte, reason string, signer ssh.Si
 		return nil, err
 	}
 	defer unlock()
-	if string(next) == string(c.ProtocolBytes) {
-		return nil, refuse(StepAmend, ProblemProtocol, "the new protocol is the one in force")
+	digest, err := ProtocolDigest(next)
+	if err != nil {
+		return nil, err
 	}
-	var stale []string
-	st := c.State()
-	for party, s := range st.Signs {
-		if s.Seq > st.LastChange {
-			stale = append(stale, party)
-		}
+	if digest == c.protocolDigest() && c.amendProblem() == nil {
+		return nil, refuse(StepAmend, ProblemProtocol, "the new protocol means what the one in force means (only comments, white space, line ends or key order differ); there is nothing to amend")
 	}
+	stale := c.State().unstale()
 	if err := c.appendEntry(format.Entry{Step: string(StepAmend), Actor: actor,
-		Files: map[string]string{ProtocolFile: format.Digest(next)},
-		Data:  map[string]string{"reason": strings.TrimSpace(reason)}}, signer); err != nil {
+		Data: map[string]string{"reason": strings.TrimSpace(reason), "protocol": digest}}, signer); err != nil {
 		return nil, err
 	}
 	if err := c.root.WriteAtomic(ProtocolFile, next); err != nil {

@@ -89,17 +89,20 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 			if err != nil {
 				return nil, err
 			}
-			sc, rel := scope, s.BlindedPath(s.Version)
+			sc, rel := scope, s.BlindedPath(s.Version, s.Commitment)
 			if step == StepBlind {
-				sc, rel = blind.TeamScope(t), s.OwnPath(s.Version)
+				sc, rel = blind.TeamScope(t), s.OwnPath(s.Version, s.Commitment)
 			}
 			bf, err := c.blindTable(k, f, sc, s.Commitment)
 			if err != nil {
 				return nil, err
 			}
 			cols = append(cols, auditColumns(&o, f, bf)...)
-			p.files[rel] = bf.Encode()
 			p.data["seal."+t] = fmt.Sprintf("%d %s", s.Version, s.Commitment)
+			if _, done := st.Files[rel]; !done {
+				// a table is published once; a later round names it only
+				p.files[rel] = bf.Encode()
+			}
 		}
 		work = append(work, p)
 	}

@@ -18,9 +18,9 @@
 package campaign
 
 import (
-	"bytes"
 	"errors"
 	"fmt"
+	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -33,17 +33,19 @@ import (
 // File names inside a campaign folder.
 const (
 	ProtocolFile = protocol.File
-	LedgerFile   = "ledger"
-	KeyFile      = "key.age"
-	RevealedFile = "key.revealed"
-	ReportsDir   = "reports"
-	lockFile     = ".tandem.lock"
+	// v2LedgerFile is the one shared ledger of a tandem/v2 campaign.
+	v2LedgerFile = "ledger"
+	// AttributesFile tells git never to change a byte of the campaign.
+	AttributesFile = ".gitattributes"
+	KeyFile        = "key.age"
+	RevealedFile   = "key.revealed"
+	ReportsDir     = "reports"
+	lockFile       = ".tandem.lock"
 )
 
 // Size limits for files tandem reads in a campaign.
 const (
 	maxProtocol = 16 << 20
-	maxLedger   = 1 << 30
 	maxTable    = 256 << 20
 	maxSmall    = 1 << 20
 )
@@ -93,6 +95,18 @@ const (
 	ProblemSignoff    ProblemKind = "bad-signoff"
 	ProblemSymlink    ProblemKind = "symlink"
 	ProblemState      ProblemKind = "state"
+	// ProblemFork: a log with two entries of one seq (two clones extended
+	// it at the same time).
+	ProblemFork ProblemKind = "fork"
+	// ProblemEntry: an entry whose members disagree with each other or
+	// with the step (a missing REQUIRED member, a file that is not the
+	// step's own, a path logged twice).
+	ProblemEntry ProblemKind = "bad-entry"
+	// ProblemPrivateKey: a private SSH key or age identity inside the
+	// campaign folder.
+	ProblemPrivateKey ProblemKind = "private-key"
+	// ProblemFormat: a campaign of another format version.
+	ProblemFormat ProblemKind = "other-version"
 )
 
 // Problem is one thing that does not hold in a campaign.
@@ -134,13 +148,19 @@ type Campaign struct {
 	Dir           string
 	Protocol      *protocol.Protocol
 	ProtocolBytes []byte
-	Ledger        []format.Entry
+	// Ledger holds every entry of every log, in an order that keeps each
+	// log's order and puts every entry after the entries it names (see
+	// [Campaign.readLogs]).
+	Ledger []format.Entry
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
 
 	root     root
-	raw      []byte // the ledger bytes parsed so far
-	torn     int    // bytes of a partial last line left by an interrupted append
+	paths    []string         // the file of each entry of Ledger
+	logs     map[string][]int // log name → indices into Ledger, by seq
+	logProbs []Problem        // damaged, forked or cut logs
+	forks    []forkEntry      // entries on a fork's branch not kept
+	drafted  View             // the heads when Draft ran
 	state    *State
 	cmp      *Comparison
 	signoffs []SignoffStatus
@@ -153,20 +173,29 @@ func (c *Campaign) now() time.Time {
 	return time.Now()
 }
 
-// Open reads a campaign's protocol and ledger and replays the ledger. A
-// folder with a protocol but no ledger is open but not started. A damaged
-// ledger or a protocol that differs from the one the ledger records is
-// refused ([ErrRefused]); [Verify] reports those as problems instead.
+// Open reads a campaign's protocol and logs and replays them. A folder
+// with a protocol but no log is open but not started. Damaged, cut or
+// forked logs, or a protocol whose meaning differs from the one the logs
+// record, are refused ([ErrRefused]); [Verify] reports those as problems
+// instead.
 func Open(dir string) (*Campaign, error) {
 	c, err := open(dir)
 	if err != nil {
 		return nil, err
 	}
-	if p := c.protocolProblem(); p != nil {
+	if len(c.logProbs) > 0 {
+		return nil, &RefusedError{Step: "open", Problems: c.logProbs}
+	}
+	if p := c.protocolProblem(); p != nil && c.amendProblem() == nil {
+		// (after two amendments made at once, the steps explain it)
 		return nil, &RefusedError{Step: "open", Problems: []Problem{*p}}
 	}
 	return c, nil
 }
+
+// OpenAny opens a campaign whatever the state of its logs, for the
+// commands that repair them ([Campaign.Resolve]).
+func OpenAny(dir string) (*Campaign, error) { return open(dir) }
 
 func open(dir string) (*Campaign, error) {
 	r, err := openRoot(dir)
@@ -188,60 +217,14 @@ func open(dir string) (*Campaign, error) {
 		return nil, err
 	}
 	c := &Campaign{Dir: dir, Protocol: p, ProtocolBytes: data, root: r}
-	if err := c.readLedger(); err != nil {
+	if err := c.readLogs(); err != nil {
 		return nil, err
 	}
 	return c, nil
 }
 
-func (c *Campaign) readLedger() error {
-	ld, err := c.root.ReadFile(LedgerFile, maxLedger)
-	switch {
-	case errors.Is(err, ErrSymlink):
-		return refuse("open", ProblemSymlink, "%v", err)
-	case err != nil && isNotExist(err):
-		c.Ledger, c.raw = nil, nil
-	case err != nil:
-		return table.Errorf(c.root.abs(LedgerFile), 0, 0, "%v", unwrapPath(err))
-	}
-	c.torn = 0
-	if err == nil && len(ld) > 0 && ld[len(ld)-1] != '\n' {
-		// An append interrupted mid-line: the partial line was never
-		// committed. Read the whole lines; the next step removes the rest.
-		cut := bytes.LastIndexByte(ld, '\n') + 1
-		c.torn = len(ld) - cut
-		ld = ld[:cut]
-	}
-	switch {
-	case err != nil:
-	case len(c.raw) > 0 && len(ld) >= len(c.raw) && bytes.Equal(ld[:len(c.raw)], c.raw):
-		if len(ld) == len(c.raw) {
-			return nil // nothing appended since
-		}
-		entries, err := format.ParseMore(c.root.abs(LedgerFile), c.Ledger, ld[len(c.raw):])
-		if err != nil {
-			return c.damaged(err)
-		}
-		c.Ledger, c.raw = entries, ld
-	default:
-		entries, err := parseLedger(c.root.abs(LedgerFile), ld)
-		if err != nil {
-			return c.damaged(err)
-		}
-		c.Ledger, c.raw = entries, ld
-	}
-	c.state, c.cmp, c.signoffs = nil, nil, nil
-	return nil
-}
-
-// damaged reports a ledger that does not parse: a failed integrity check,
-// not bad input.
-func (c *Campaign) damaged(err error) error {
-	return &RefusedError{Step: "open", Problems: []Problem{{Kind: ProblemChain, Path: LedgerFile, Message: strings.TrimSpace(trimPath(err.Error(), c.root.abs(LedgerFile)))}}}
-}
-
-// trimPath turns "DIR/ledger:4: msg" into "4: msg" for a Problem whose
-// Path is the ledger.
+// trimPath turns "DIR/file:4: msg" into "4: msg" for a Problem whose
+// Path is the file.
 func trimPath(msg, path string) string {
 	return strings.TrimPrefix(msg, path+":")
 }
@@ -252,20 +235,75 @@ func (c *Campaign) Started() bool { return len(c.Ledger) > 0 }
 // Path returns the absolute path of a campaign-relative file.
 func (c *Campaign) Path(rel string) string { return c.root.abs(rel) }
 
-// protocolProblem compares campaign.toml with the digest the ledger
-// recorded last (at init or at the latest amend).
+// protocolProblem compares the meaning of campaign.toml (its
+// [ProtocolDigest]) with the digest the logs recorded last (at init or at
+// the latest amend).
 func (c *Campaign) protocolProblem() *Problem {
-	want, seq := "", 0
-	for _, e := range c.Ledger {
-		if (e.Step == string(StepInit) || e.Step == string(StepAmend)) && e.Files[ProtocolFile] != "" {
-			want, seq = e.Files[ProtocolFile], e.Seq
-		}
+	want, at := c.lockedProtocol()
+	if want == "" {
+		return nil
 	}
-	if want == "" || format.Digest(c.ProtocolBytes) == want {
+	got, err := ProtocolDigest(c.ProtocolBytes)
+	if err == nil && got == want {
 		return nil
 	}
 	return &Problem{Kind: ProblemProtocol, Path: ProtocolFile, Message: fmt.Sprintf(
-		"the protocol differs from the one the ledger locked at entry %d; restore it, or record the change with \"tandem amend\" (which makes every earlier sign-off stale)", seq)}
+		"the protocol means something else than the one entry %s locked (comments, white space, line ends and key order do not count); restore it, or record the change with \"tandem amend\" (which makes every earlier sign-off stale)", at)}
+}
+
+// amendProblem reports amendments made at once in two places: the latest
+// amend entry must follow every other, else which protocol is in force
+// depends on an order no one chose.
+func (c *Campaign) amendProblem() *Problem {
+	var amends []*format.Entry
+	for i := range c.Ledger {
+		if e := &c.Ledger[i]; e.Step == string(StepAmend) {
+			amends = append(amends, e)
+		}
+	}
+	if len(amends) < 2 {
+		return nil
+	}
+	last := amends[len(amends)-1]
+	for _, a := range amends[:len(amends)-1] {
+		if !sees(last, a) {
+			return &Problem{Kind: ProblemProtocol, Path: ProtocolFile, Message: fmt.Sprintf(
+				"amendments %s and %s were made at once (neither follows the other), so no one chose the protocol in force; agree on it and record it with \"tandem amend\" (its entry follows both)", EntryName(a), EntryName(last))}
+		}
+	}
+	return nil
+}
+
+// lockedProtocol is the protocol digest of the latest init or amend entry
+// and the entry's name.
+func (c *Campaign) lockedProtocol() (digest, at string) {
+	for i := range c.Ledger {
+		e := &c.Ledger[i]
+		if (e.Step == string(StepInit) || e.Step == string(StepAmend)) && e.Data["protocol"] != "" {
+			digest, at = e.Data["protocol"], EntryName(e)
+		}
+	}
+	return digest, at
+}
+
+// ProtocolDigestOf is the digest of the protocol in force, as statements
+// and the comparison digest name it.
+func (c *Campaign) protocolDigest() string {
+	d, err := ProtocolDigest(c.ProtocolBytes)
+	if err != nil {
+		return format.Digest(c.ProtocolBytes)
+	}
+	return d
+}
+
+func isNotExist(err error) bool { return errors.Is(err, os.ErrNotExist) }
+
+func unwrapPath(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
 }
 
 // crashHook, when set (by the crash tests only), is called at the points

@@ -3,6 +3,7 @@ package campaign_test
 import (
 	"bytes"
 	"errors"
+	"golang.org/x/crypto/ssh"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -71,7 +72,7 @@ func TestAgeToolOpensSealedFile(t *testing.T) {
 	agePath := needTool(t, "age")
 	dir := buildDemo(t, "blind")
 	out, err := exec.Command(agePath, "--decrypt", "-i", demo.IdentityFile(dir),
-		filepath.Join(dir, "sealed", "heron", "muon_rate.v1.age")).Output()
+		one(t, dir, "sealed/heron/muon_rate.v1-*.age")).Output()
 	if err != nil {
 		t.Fatalf("age --decrypt: %v", err)
 	}
@@ -105,7 +106,7 @@ func TestSSHKeygenInterop(t *testing.T) {
 		}
 		return nil
 	}
-	stmt := filepath.Join(dir, "signoffs", "heron.1.statement")
+	stmt := one(t, dir, "signoffs/heron.1-*.statement")
 	body, _ := os.ReadFile(stmt)
 	if err := verify(campaign.SignoffNamespace, "heron", stmt+".sig", body); err != nil {
 		t.Fatalf("ssh-keygen -Y verify rejected tandem's sign-off: %v", err)
@@ -123,7 +124,7 @@ func TestSSHKeygenInterop(t *testing.T) {
 		}
 	}
 	// Now replace otter's signature with one made by ssh-keygen.
-	otterStmt := filepath.Join(dir, "signoffs", "otter.1.statement")
+	otterStmt := one(t, dir, "signoffs/otter.1-*.statement")
 	ours, _ := os.ReadFile(otterStmt + ".sig")
 	os.Remove(otterStmt + ".sig")
 	key := demo.KeyFile(dir, "otter")
@@ -154,14 +155,14 @@ func TestUnblindRefusals(t *testing.T) {
 		{"missing heron", func(t *testing.T, dir string) { removeSignoffEntry(t, dir, "heron") }, "missing sign-off: heron"},
 		{"missing ibis", func(t *testing.T, dir string) { removeSignoffEntry(t, dir, "ibis") }, "missing sign-off: ibis"},
 		{"corrupted signature", func(t *testing.T, dir string) {
-			p := filepath.Join(dir, "signoffs", "ibis.1.statement.sig")
+			p := one(t, dir, "signoffs/ibis.1-*.statement.sig")
 			b, _ := os.ReadFile(p)
 			b[len(b)/2] ^= 1
 			os.WriteFile(p, b, 0o644)
-		}, "ibis.1.statement.sig"},
+		}, "ibis.1-"},
 		{"foreign key", func(t *testing.T, dir string) {
 			// otter's statement signed with heron's key
-			p := filepath.Join(dir, "signoffs", "otter.1.statement")
+			p := one(t, dir, "signoffs/otter.1-*.statement")
 			body, _ := os.ReadFile(p)
 			sig, _ := sshsig.Sign(signer(t, dir, "heron"), campaign.SignoffNamespace, body)
 			os.WriteFile(p+".sig", sig, 0o644)
@@ -197,7 +198,7 @@ func TestUnblindRefusals(t *testing.T) {
 func demoTable(t *testing.T, dir, team, obs string) *table.Table {
 	t.Helper()
 	out, err := exec.Command("age", "--decrypt", "-i", demo.IdentityFile(dir),
-		filepath.Join(dir, "sealed", team, obs+".v1.age")).Output()
+		one(t, dir, "sealed/"+team+"/"+obs+".v1-*.age")).Output()
 	if err != nil {
 		// without the age tool: a table of the right shape
 		tb, _ := table.ParseCSV("x.csv", []byte("lo,hi,rate,stat,syst\n1,2,2400,49,9.6\n"), table.CSVOptions{})
@@ -220,8 +221,9 @@ func removeSignoffEntry(t *testing.T, dir, party string) {
 	var keep []format.Entry
 	for _, e := range c.Ledger {
 		if e.Step == "sign" && e.Actor == party {
-			os.Remove(filepath.Join(dir, filepath.FromSlash("signoffs/"+party+".1.statement")))
-			os.Remove(filepath.Join(dir, filepath.FromSlash("signoffs/"+party+".1.statement.sig")))
+			for f := range e.Files {
+				os.Remove(filepath.Join(dir, filepath.FromSlash(f)))
+			}
 			continue
 		}
 		keep = append(keep, e)
@@ -229,30 +231,31 @@ func removeSignoffEntry(t *testing.T, dir, party string) {
 	rewriteLedger(t, dir, keep)
 }
 
-// rewriteLedger writes entries as a fresh chain, each signed by its
-// actor's demo key (or by the key named in keyOf).
+// rewriteLedger writes entries as fresh logs, each entry following those
+// before it and signed by its actor's demo key (or by the key named in
+// keyOf, by index from 1).
 func rewriteLedger(t *testing.T, dir string, entries []format.Entry, keyOf ...map[int]string) {
 	t.Helper()
-	out := []byte(format.LedgerHeader + "\n")
-	prev := format.Genesis
-	for i, e := range entries {
-		e.Seq, e.Prev, e.Sig = i+1, prev, ""
+	err := campaign.RewriteLogs(dir, entries, func(i int, e *format.Entry) ssh.Signer {
 		who := e.Actor
 		if len(keyOf) > 0 && keyOf[0][i+1] != "" {
 			who = keyOf[0][i+1]
 		}
-		sig, err := sshsig.Sign(signer(t, dir, who), format.LedgerNamespace, e.SignedBytes())
-		if err != nil {
-			t.Fatal(err)
-		}
-		e.Sig = sshsig.Flatten(sig)
-		line := e.Line()
-		prev = format.HashLine(line)
-		out = append(append(out, line...), '\n')
-	}
-	if err := os.WriteFile(filepath.Join(dir, campaign.LedgerFile), out, 0o644); err != nil {
+		return signer(t, dir, who)
+	})
+	if err != nil {
 		t.Fatal(err)
 	}
+}
+
+// one is the one file of the campaign matching a glob pattern.
+func one(t testing.TB, dir, pattern string) string {
+	t.Helper()
+	m, _ := filepath.Glob(filepath.Join(dir, filepath.FromSlash(pattern)))
+	if len(m) != 1 {
+		t.Fatalf("%s matches %d files in %s", pattern, len(m), dir)
+	}
+	return m[0]
 }
 
 // TestForgedEntries: entries made in another party's name, by an unknown
@@ -265,9 +268,9 @@ func TestForgedEntries(t *testing.T) {
 		want string
 	}{
 		{"seal signed by another team", func(t *testing.T, dir string, es []format.Entry) ([]format.Entry, map[int]string) {
-			for _, e := range es {
+			for i, e := range es {
 				if e.Step == "seal" && e.Actor == "otter" {
-					return es, map[int]string{e.Seq: "heron"}
+					return es, map[int]string{i + 1: "heron"}
 				}
 			}
 			return es, nil
@@ -306,7 +309,7 @@ func TestForgedEntries(t *testing.T) {
 			es = append(es[:open], es[open+1:]...)
 			es = slices.Insert(es, firstOtter, o)
 			return es, nil
-		}, "not its latest seal"},
+		}, "not the latest seal it follows"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -378,11 +381,11 @@ func TestNoPeeking(t *testing.T) {
 	if !strings.Contains(cmp.Incomplete[0].Reason, "not sealed yet by otter") {
 		t.Errorf("reason %q", cmp.Incomplete[0].Reason)
 	}
-	own := filepath.Join(dir, "blinded", "heron", "muon_rate.v1.own.csv")
+	own := one(t, dir, "blinded/heron/muon_rate.v1-*.own.csv")
 	if _, err := os.Stat(own); err != nil {
 		t.Fatalf("heron's own-map table: %v", err)
 	}
-	if m, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*.v1.csv")); len(m) != 0 {
+	if m, _ := filepath.Glob(filepath.Join(dir, "blinded", "*", "*.v1-????????????.csv")); len(m) != 0 {
 		t.Fatalf("common-map tables exist before every team sealed: %v", m)
 	}
 	if _, _, err := c.Draft("heron", ""); !errors.Is(err, campaign.ErrRefused) || !strings.Contains(problems(err), "incomplete") {
@@ -404,7 +407,7 @@ func TestNoPeeking(t *testing.T) {
 		t.Fatalf("blind opened %v, wrote %v", res.Opened, res.Files)
 	}
 	ownData, _ := os.ReadFile(own)
-	common, _ := os.ReadFile(filepath.Join(dir, "blinded", "heron", "muon_rate.v1.csv"))
+	common, _ := os.ReadFile(one(t, dir, "blinded/heron/muon_rate.v1-????????????.csv"))
 	ob, _ := table.ParseCSV("own", ownData, table.CSVOptions{})
 	cb, _ := table.ParseCSV("common", common, table.CSVOptions{})
 	if slices.Equal(ob.Column("rate"), cb.Column("rate")) {
@@ -458,7 +461,7 @@ func TestProtocolLocked(t *testing.T) {
 	good, _ := os.ReadFile(p)
 	edited := strings.Replace(string(good), "shift = [-10000.0, 10000.0]", "shift = [-10000.0, 10000.0]\n  max_pull = 5.0", 1)
 	os.WriteFile(p, []byte(edited), 0o644)
-	if _, err := campaign.Open(dir); !errors.Is(err, campaign.ErrRefused) || !strings.Contains(err.Error(), "differs from the one the ledger locked") {
+	if _, err := campaign.Open(dir); !errors.Is(err, campaign.ErrRefused) || !strings.Contains(err.Error(), "means something else than the one") {
 		t.Errorf("open after an edit: %v", err)
 	}
 	if r := campaign.Verify(dir); r.OK() || !strings.Contains(reportText(r), "campaign.toml") {

@@ -72,7 +72,7 @@ func (c *Campaign) Compare() (*Comparison, error) {
 	if len(cmp.Incomplete) > 0 {
 		cmp.Verdict = Incomplete
 	}
-	cmp.Digest = ComparisonDigest(format.Digest(c.ProtocolBytes), cmp)
+	cmp.Digest = ComparisonDigest(c.protocolDigest(), cmp)
 	c.cmp = cmp
 	return cmp, nil
 }
@@ -139,7 +139,7 @@ func (c *Campaign) readBlinded(pub *Published, o *protocol.Observable) (*table.T
 		return nil, table.Errorf(c.Path(pub.Path), 0, 0, "%v", unwrapPath(err))
 	}
 	if !blind.EqualHex(format.Digest(data), pub.Digest) {
-		return nil, &RefusedError{Step: "compare", Problems: []Problem{{Kind: ProblemDigest, Path: pub.Path, Message: "not the blinded table the ledger records"}}}
+		return nil, &RefusedError{Step: "compare", Problems: []Problem{{Kind: ProblemDigest, Path: pub.Path, Message: "not the blinded table the open entry logged"}}}
 	}
 	f, err := format.DecodeTableFile(c.Path(pub.Path), data, format.Blinded, o.Edges[0], o.Edges[1])
 	if err != nil {

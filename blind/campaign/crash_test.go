@@ -117,8 +117,24 @@ func TestCrashMidStep(t *testing.T) {
 				t.Fatalf("%d entries committed by the killed step, want %d", committed, want)
 			}
 			r := campaign.Verify(dir)
-			if !r.OK() {
-				t.Fatalf("verify after a crash at %s: %s", tc.point, reportText(r))
+			switch tc.point {
+			case "sign", "unblind-files":
+				// a statement, an unblinded table or key.revealed without
+				// its entry is a problem (it could be a cut-off entry's),
+				// explained as possibly left by an interrupted step
+				for _, p := range r.Problems {
+					if p.Kind != campaign.ProblemUncovered || !strings.Contains(p.Message, "interrupted") {
+						t.Errorf("verify after a crash at %s: %s", tc.point, p)
+					}
+				}
+				if r.OK() {
+					t.Errorf("verify after a crash at %s: no problem for the files without an entry", tc.point)
+				}
+				r.Notes = append(r.Notes, reportText(r))
+			default:
+				if !r.OK() {
+					t.Fatalf("verify after a crash at %s: %s", tc.point, reportText(r))
+				}
 			}
 			st, err := c.Status()
 			if err != nil {

@@ -170,3 +170,32 @@ func (e *SymlinkError) Error() string {
 }
 
 func (e *SymlinkError) Unwrap() error { return ErrSymlink }
+
+// removeLeftovers removes the files whose campaign-relative path starts
+// with prefix and that no entry logs: what an interrupted step of the
+// same kind left behind.
+func (c *Campaign) removeLeftovers(prefix string) error {
+	dir, base := path.Split(prefix)
+	dir = strings.TrimSuffix(dir, "/")
+	if dir == "" {
+		dir = "."
+	}
+	if !c.root.Exists(dir) {
+		return nil
+	}
+	ents, err := c.root.fs.ReadDir(dir)
+	if err != nil {
+		return err
+	}
+	files := c.State().Files
+	for _, d := range ents {
+		rel := path.Join(dir, d.Name())
+		if _, logged := files[rel]; logged || !strings.HasPrefix(d.Name(), base) || !d.Type().IsRegular() {
+			continue
+		}
+		if err := c.root.Remove(rel); err != nil {
+			return err
+		}
+	}
+	return nil
+}

@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"path/filepath"
+	"strings"
 	"time"
 
 	"filippo.io/age"
@@ -128,4 +130,30 @@ func decrypt(step Step, name string, data []byte, ids []age.Identity) ([]byte, e
 		return nil, table.Errorf(name, 0, 0, "sealed file fails authentication (damaged or tampered): %v", err)
 	}
 	return out, nil
+}
+
+// InsideFolder reports whether path is dir or lies beneath it, after
+// making both absolute and resolving the symbolic links of the parts that
+// exist: where a secret must never be written.
+func InsideFolder(dir, path string) bool {
+	resolve := func(p string) string {
+		p, err := filepath.Abs(p)
+		if err != nil {
+			return p
+		}
+		// resolve the longest existing prefix
+		rest := ""
+		for q := p; ; q = filepath.Dir(q) {
+			if r, err := filepath.EvalSymlinks(q); err == nil {
+				return filepath.Join(r, rest)
+			}
+			if filepath.Dir(q) == q {
+				return p
+			}
+			rest = filepath.Join(filepath.Base(q), rest)
+		}
+	}
+	d, f := resolve(dir), resolve(path)
+	rel, err := filepath.Rel(d, f)
+	return err == nil && rel != ".." && !strings.HasPrefix(rel, ".."+string(filepath.Separator))
 }

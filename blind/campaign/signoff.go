@@ -35,7 +35,7 @@ func (c *Campaign) current() (*Statement, error) {
 	if err != nil {
 		return nil, err
 	}
-	st := &Statement{Campaign: c.Protocol.Campaign, Protocol: format.Digest(c.ProtocolBytes), KeyCommitment: hex.EncodeToString(com[:])}
+	st := &Statement{Campaign: c.Protocol.Campaign, Protocol: c.protocolDigest(), KeyCommitment: hex.EncodeToString(com[:])}
 	state := c.State()
 	for _, s := range c.Slots() {
 		os := state.Observables[s.Observable]
@@ -98,10 +98,10 @@ func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, e
 		// The statement's lines must give the digest they end with.
 		return nil, nil, fmt.Errorf("internal error: the statement's compared lines do not give the comparison digest (%v)", err)
 	}
-	head := c.Ledger[len(c.Ledger)-1]
 	st.Party, st.Role = party, q.Role
 	st.Date = c.now().UTC().Format(time.RFC3339)
-	st.LedgerSeq, st.LedgerHash = head.Seq, head.Hash()
+	c.drafted = c.Heads()
+	st.LedgerSeq, st.LedgerHash = c.ViewDigest(c.drafted)
 	st.Accepted = acceptReason
 	return st, cmp, nil
 }
@@ -127,27 +127,26 @@ func (c *Campaign) Sign(st *Statement, signer ssh.Signer) (statementPath string,
 		return "", err
 	}
 	defer unlock()
-	if head := c.Ledger[len(c.Ledger)-1]; head.Seq != st.LedgerSeq {
+	heads := c.Heads()
+	if n, h := c.ViewDigest(heads); n != st.LedgerSeq || h != st.LedgerHash {
 		var what []string
-		for _, e := range c.Ledger[st.LedgerSeq:] {
-			what = append(what, describeEntry(&e))
+		for i := range c.Ledger {
+			if e := &c.Ledger[i]; c.drafted == nil || e.Seq > c.drafted[e.Actor] {
+				what = append(what, describeEntry(e))
+			}
 		}
 		return "", refuse(StepSign, ProblemStale, "the campaign changed while the statement was open for signing (%s); nothing was signed: run tandem sign again to see the new statement", strings.Join(what, "; "))
 	}
-	if probs := c.staleness(st); len(probs) > 0 {
+	if probs := c.staleness(st, heads, nil); len(probs) > 0 {
 		return "", &RefusedError{Step: StepSign, Problems: probs}
 	}
 	n := 1
 	if prev := c.State().Signs[st.Party]; prev != nil {
 		n = prev.N + 1
 	}
-	sp, gp := SignoffPaths(st.Party, n)
-	for _, rel := range []string{sp, gp} {
-		if c.root.Exists(rel) {
-			if err := c.root.Remove(rel); err != nil { // left by an interrupted sign
-				return "", err
-			}
-		}
+	sp, gp := SignoffPaths(st.Party, n, format.Digest(body))
+	if err := c.removeLeftovers(fmt.Sprintf("signoffs/%s.%d-", st.Party, n)); err != nil { // left by an interrupted sign
+		return "", err
 	}
 	if err := c.root.CreateExclusive(sp, body, 0o644); err != nil {
 		return "", err
@@ -170,23 +169,25 @@ func describeEntry(e *format.Entry) string {
 	switch Step(e.Step) {
 	case StepSeal:
 		if e.Data["version"] != "1" {
-			return fmt.Sprintf("%s re-sealed %s (v%s, entry %d)", e.Actor, e.Data["observable"], e.Data["version"], e.Seq)
+			return fmt.Sprintf("%s re-sealed %s (v%s, entry %s)", e.Actor, e.Data["observable"], e.Data["version"], EntryName(e))
 		}
-		return fmt.Sprintf("%s sealed %s (entry %d)", e.Actor, e.Data["observable"], e.Seq)
+		return fmt.Sprintf("%s sealed %s (entry %s)", e.Actor, e.Data["observable"], EntryName(e))
 	case StepOpen:
-		return fmt.Sprintf("the custodian opened %s round %s (entry %d)", e.Data["observable"], e.Data["round"], e.Seq)
+		return fmt.Sprintf("the custodian opened %s round %s (entry %s)", e.Data["observable"], e.Data["round"], EntryName(e))
 	case StepBlind:
-		return fmt.Sprintf("the custodian blinded %s in team maps (entry %d)", e.Data["observable"], e.Seq)
+		return fmt.Sprintf("the custodian blinded %s in team maps (entry %s)", e.Data["observable"], EntryName(e))
 	case StepAmend:
-		return fmt.Sprintf("%s amended the protocol (entry %d)", e.Actor, e.Seq)
+		return fmt.Sprintf("%s amended the protocol (entry %s)", e.Actor, EntryName(e))
 	case StepSign:
-		return fmt.Sprintf("%s signed off (entry %d)", e.Actor, e.Seq)
+		return fmt.Sprintf("%s signed off (entry %s)", e.Actor, EntryName(e))
 	}
-	return fmt.Sprintf("%s by %s (entry %d)", e.Step, e.Actor, e.Seq)
+	return fmt.Sprintf("%s by %s (entry %s)", e.Step, e.Actor, EntryName(e))
 }
 
-// staleness lists why a statement does not match the campaign as it stands.
-func (c *Campaign) staleness(st *Statement) []Problem {
+// staleness lists why a statement does not match the campaign as it
+// stands. v is what its signer had seen: the sign entry's view, or the
+// heads at signing time; e is the sign entry (nil while signing).
+func (c *Campaign) staleness(st *Statement, v View, e *format.Entry) []Problem {
 	var probs []Problem
 	who := "sign-off of " + st.Party
 	add := func(kind ProblemKind, f string, a ...any) {
@@ -199,14 +200,25 @@ func (c *Campaign) staleness(st *Statement) []Problem {
 	if q := c.Protocol.Party(st.Party); q == nil || q.Role != st.Role {
 		add(ProblemSignoff, "%s names role %q, the protocol says otherwise", who, st.Role)
 	}
-	if st.LedgerSeq < 1 || st.LedgerSeq > len(c.Ledger) || c.Ledger[st.LedgerSeq-1].Hash() != st.LedgerHash {
-		add(ProblemSignoff, "%s names a ledger entry that is not in this campaign's ledger", who)
+	if n, h := c.ViewDigest(v); n != st.LedgerSeq || h != st.LedgerHash {
+		add(ProblemSignoff, "%s names another view of the logs (ledger-head %d %.12s…) than its sign entry (%d %.12s…)", who, st.LedgerSeq, st.LedgerHash, n, h)
 		return probs
 	}
-	for _, e := range c.Ledger[st.LedgerSeq:] {
-		switch Step(e.Step) {
-		case StepSeal, StepOpen, StepAmend:
-			add(ProblemStale, "%s is stale: %s after it", who, describeEntry(&e))
+	if e != nil {
+		if e.Data["verdict"] != st.Verdict || e.Data["accepted_disagreement"] != st.Accepted {
+			add(ProblemSignoff, "%s: the sign entry %s logs verdict %q and reason %q, the statement %q and %q", who, EntryName(e), e.Data["verdict"], e.Data["accepted_disagreement"], st.Verdict, st.Accepted)
+			return probs
+		}
+	}
+	if _, com, err := c.KeyCommitment(); err == nil && st.KeyCommitment != hex.EncodeToString(com[:]) {
+		// checked before staleness: a stale statement is still refused
+		// when it names another key
+		add(ProblemSignoff, "%s names another key commitment", who)
+		return probs
+	}
+	for _, ch := range c.State().Changes {
+		if ch.Seq > v[ch.Actor] {
+			add(ProblemStale, "%s is stale: %s after it", who, describeEntry(ch))
 			return probs
 		}
 	}
@@ -217,9 +229,6 @@ func (c *Campaign) staleness(st *Statement) []Problem {
 	}
 	if st.Protocol != cur.Protocol {
 		add(ProblemStale, "%s was made for another version of campaign.toml", who)
-	}
-	if st.KeyCommitment != cur.KeyCommitment {
-		add(ProblemSignoff, "%s names another key commitment", who)
 	}
 	if strings.Join(st.Sealed, "\n") != strings.Join(cur.Sealed, "\n") || strings.Join(st.Blinded, "\n") != strings.Join(cur.Blinded, "\n") {
 		add(ProblemStale, "%s is stale: the sealed or blinded tables have changed since", who)
@@ -286,7 +295,7 @@ func (c *Campaign) checkSignoffs() []SignoffStatus {
 				bad(e.Statement, fmt.Errorf("statement is by %q", stmt.Party))
 			} else {
 				s.Statement = stmt
-				for _, p := range c.staleness(stmt) {
+				for _, p := range c.staleness(stmt, view(e.Entry), e.Entry) {
 					if p.Kind == ProblemStale {
 						s.Stale = true
 					}

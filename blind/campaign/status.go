@@ -3,6 +3,8 @@ package campaign
 import (
 	"fmt"
 	"slices"
+
+	"tandem/blind/protocol"
 )
 
 // Observable states in a [Status].
@@ -31,9 +33,12 @@ type Status struct {
 	Verdict      Verdict            `json:"verdict,omitempty"`
 	Observables  []ObservableStatus `json:"observables"`
 	Signoffs     []SignoffStatus    `json:"signoffs"`
-	Next         []Action           `json:"next"`
-	Notes        []string           `json:"notes,omitempty"`
-	Problems     []Problem          `json:"problems,omitempty"`
+	// Logs is each party's log as this folder holds it: what each site
+	// has taken that this clone has seen.
+	Logs     []LogStatus `json:"logs"`
+	Next     []Action    `json:"next"`
+	Notes    []string    `json:"notes,omitempty"`
+	Problems []Problem   `json:"problems,omitempty"`
 }
 
 // ObservableStatus is one observable's state.
@@ -54,6 +59,14 @@ type TeamStatus struct {
 	Published string `json:"published"`
 }
 
+// LogStatus is one party's log: its number of entries and its last step.
+type LogStatus struct {
+	Party   string `json:"party"`
+	Entries int    `json:"entries"`
+	Last    string `json:"last,omitempty"` // the last entry in words
+	Time    string `json:"time,omitempty"` // and its time
+}
+
 // Action is a next step for one party.
 type Action struct {
 	Party string `json:"party"`
@@ -64,11 +77,23 @@ func (a Action) String() string { return a.Party + ": " + a.Do }
 
 // Status works out the campaign's state and every party's next action.
 func (c *Campaign) Status() (*Status, error) {
-	s := &Status{Campaign: c.Protocol.Campaign, LedgerLength: len(c.Ledger), Observables: []ObservableStatus{}, Signoffs: []SignoffStatus{}, Next: []Action{}}
+	s := &Status{Campaign: c.Protocol.Campaign, LedgerLength: len(c.Ledger), Observables: []ObservableStatus{}, Signoffs: []SignoffStatus{}, Logs: []LogStatus{}, Next: []Action{}}
 	if !c.Started() {
 		s.State = CampaignNotStarted
 		s.Next = append(s.Next, Action{"custodian", "start the campaign: tandem init " + c.Dir})
 		return s, nil
+	}
+	names := []string{protocol.RoleCustodian}
+	for _, q := range c.Protocol.Parties {
+		names = append(names, q.Name)
+	}
+	for _, name := range names {
+		ls := LogStatus{Party: name}
+		if l := c.logs[name]; len(l) > 0 {
+			e := &c.Ledger[l[len(l)-1]]
+			ls.Entries, ls.Last, ls.Time = len(l), describeEntry(e), e.Time
+		}
+		s.Logs = append(s.Logs, ls)
 	}
 	st := c.State()
 	teams := c.Protocol.Teams()

@@ -76,23 +76,36 @@ func (c *Campaign) start(custodian ssh.Signer) (*Campaign, error) {
 	if err := c.root.CreateExclusive(KeyFile, sealedKey, 0o644); err != nil {
 		return nil, err
 	}
+	pd, err := ProtocolDigest(c.ProtocolBytes)
+	if err != nil {
+		return nil, err
+	}
+	for _, f := range []struct{ name, body string }{{AttributesFile, gitAttributes}, {ignoreFile, gitIgnore}} {
+		if !c.root.Exists(f.name) {
+			if err := c.root.CreateExclusive(f.name, []byte(f.body), 0o644); err != nil {
+				return nil, err
+			}
+		}
+	}
 	com := k.Commitment(salt)
 	err = c.appendEntry(format.Entry{Step: string(StepInit), Actor: protocol.RoleCustodian,
-		Files: map[string]string{KeyFile: format.Digest(sealedKey), ProtocolFile: format.Digest(c.ProtocolBytes)},
+		Files: map[string]string{KeyFile: format.Digest(sealedKey)},
 		Data: map[string]string{
 			"campaign":       c.Protocol.Campaign,
 			"key_salt":       hex.EncodeToString(salt),
 			"key_commitment": hex.EncodeToString(com[:]),
+			"protocol":       pd,
 		}}, custodian)
 	return c, err
 }
 
 // KeyCommitment returns the salt and commitment logged at init.
 func (c *Campaign) KeyCommitment() (salt []byte, com [32]byte, err error) {
-	if !c.Started() || c.Ledger[0].Step != string(StepInit) {
+	init := c.initEntry()
+	if init == nil {
 		return nil, com, fmt.Errorf("%s: the campaign has not been started (run tandem init)", c.Dir)
 	}
-	d := c.Ledger[0].Data
+	d := init.Data
 	salt, err1 := hex.DecodeString(d["key_salt"])
 	cb, err2 := hex.DecodeString(d["key_commitment"])
 	if err1 != nil || err2 != nil || len(cb) != 32 || len(salt) != 32 {
@@ -129,6 +142,18 @@ func (c *Campaign) openKey(step Step, ids []age.Identity) (*blind.Key, error) {
 	}
 	return k, nil
 }
+
+// gitAttributes is what init writes to .gitattributes: no file of the
+// campaign is text to git, so no checkout setting (core.autocrlf, eol)
+// changes a byte whose digest an entry logs.
+const gitAttributes = "# written by tandem init: git must not change a byte of a campaign file\n* -text\n"
+
+// ignoreFile keeps out of git what every clone writes for itself: the
+// lock, and the reports (rewritten by "tandem report" on any site, so two
+// sites committing them would conflict; any site can render them again).
+const ignoreFile = ".gitignore"
+
+const gitIgnore = "# written by tandem init: what each clone writes for itself\n/.tandem.lock\n/reports/\n"
 
 // SealResult says what a seal did.
 type SealResult struct {
@@ -177,29 +202,21 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 	if err := needsReason(observable, obs.Round(), reason); err != nil {
 		return nil, err
 	}
-	for party, s := range st.Signs {
-		if s.Seq > st.LastChange {
-			res.Stale = append(res.Stale, party)
-		}
-	}
-	slices.Sort(res.Stale)
+	res.Stale = st.unstale()
 	f := &format.TableFile{Kind: format.Sealed, Campaign: p.Campaign, Team: team, Observable: observable, Version: version, Nonce: nonce, Table: ct}
 	ciphertext, err := encrypt(rcpt, f.Encode())
 	if err != nil {
 		return nil, err
 	}
-	rel := slot.SealedPath(version)
-	if c.root.Exists(rel) {
-		if err := c.root.Remove(rel); err != nil {
-			return nil, err
-		}
-		res.Removed = append(res.Removed, rel)
+	com := f.Commitment()
+	rel := slot.SealedPath(version, com)
+	if err := c.removeLeftovers(strings.TrimSuffix(slot.SealedPath(version, ""), ".age")); err != nil {
+		return nil, err
 	}
 	if err := c.root.CreateExclusive(rel, ciphertext, 0o644); err != nil {
 		return nil, err
 	}
 	crashPoint("seal")
-	com := f.Commitment()
 	data := map[string]string{"team": team, "observable": observable, "commitment": com, "version": strconv.Itoa(version)}
 	if reason = strings.TrimSpace(reason); reason != "" {
 		data["reason"] = reason
@@ -210,7 +227,7 @@ func (c *Campaign) Seal(team, observable string, t *table.Table, signer ssh.Sign
 	}
 	// what the replay of the new entry gives, without replaying the
 	// ledger again
-	res.Seal = &Seal{Slot: slot, Version: version, Commitment: com, Path: rel, Digest: digest, Seq: len(c.Ledger), Reason: reason, AfterRound: obs.Round()}
+	res.Seal = &Seal{Slot: slot, Version: version, Commitment: com, Path: rel, Digest: digest, Seq: len(c.Ledger), Reason: reason, AfterRound: obs.Round(), Entry: EntryName(&c.Ledger[len(c.Ledger)-1])}
 	return res, nil
 }
 

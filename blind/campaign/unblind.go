@@ -45,7 +45,13 @@ func (c *Campaign) Unblind(ids []age.Identity, custodian ssh.Signer) (*UnblindRe
 	}
 	defer unlock()
 	r := c.audit()
-	probs := r.Problems
+	var probs []Problem
+	for _, p := range r.Problems {
+		if p.Kind == ProblemUncovered && (p.Path == RevealedFile || strings.HasPrefix(p.Path, "unblinded/")) {
+			continue // left by an interrupted unblind, removed below
+		}
+		probs = append(probs, p)
+	}
 	cmp, err := c.Compare()
 	if err != nil {
 		return nil, err

@@ -52,9 +52,9 @@ const vectorsDir = "../../testdata/vectors"
 // Outcomes a vector may expect, in the order a verifier reports them when
 // several hold (SPEC.md, "Outcomes").
 var outcomes = []string{
-	"ok", "non-canonical", "broken-chain", "bad-signature", "unknown-party", "second-init",
-	"out-of-order", "protocol-changed", "bad-digest", "uncovered-file", "bad-commitment",
-	"bad-signoff", "comparison-mismatch", "stale-signoff", "missing-signoff", "missing",
+	"ok", "non-canonical", "broken-chain", "fork", "bad-signature", "unknown-party", "second-init",
+	"out-of-order", "bad-entry", "protocol-changed", "private-key", "bad-digest", "uncovered-file",
+	"bad-commitment", "bad-signoff", "comparison-mismatch", "stale-signoff", "missing-signoff", "missing",
 }
 
 // Header keys each kind of vector may have, besides kind, expect,
@@ -867,6 +867,10 @@ type gen struct {
 	signers map[string]ssh.Signer
 	ids     []age.Identity
 	tick    int
+	// statementHash, when set, is the SSHSIG hash forgeSign signs with.
+	statementHash string
+	// unblindData, when set, edits the data of forgeUnblind's entry.
+	unblindData func(map[string]string)
 }
 
 func (g *gen) now() time.Time {
@@ -971,31 +975,10 @@ func newGen(t *testing.T) *gen {
 	return g
 }
 
-// init is [Init] with the generator's clock (Init has no clock of its own).
+// init is [Campaign.Init] with the generator's clock.
 func (g *gen) init() {
-	t := g.t
-	c := g.open()
-	unlock, err := c.begin(StepInit)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer unlock()
-	rcpt, _ := c.Protocol.Recipient()
-	k, _ := blind.GenerateKey()
-	salt, _ := format.NewNonce()
-	sealedKey, err := encrypt(rcpt, format.EncodeKey(k))
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := c.root.CreateExclusive(KeyFile, sealedKey, 0o644); err != nil {
-		t.Fatal(err)
-	}
-	com := k.Commitment(salt)
-	if err := c.appendEntry(format.Entry{Step: string(StepInit), Actor: "custodian",
-		Files: map[string]string{KeyFile: format.Digest(sealedKey), ProtocolFile: format.Digest(c.ProtocolBytes)},
-		Data:  map[string]string{"campaign": c.Protocol.Campaign, "key_salt": hex.EncodeToString(salt), "key_commitment": hex.EncodeToString(com[:])}},
-		g.signers["custodian"]); err != nil {
-		t.Fatal(err)
+	if err := g.open().Init(g.signers["custodian"]); err != nil {
+		g.t.Fatal(err)
 	}
 }
 
@@ -1058,19 +1041,71 @@ func (g *gen) signed() *gen {
 	return g
 }
 
-// rawAppend appends an entry by any actor, signed by signer, bypassing
-// every check: how a forger outside tandem would write the ledger.
+// rawAppend adds an entry to the actor's log, signed by signer, naming
+// the heads of every other log, bypassing every check: how a forger
+// outside tandem would write it.
 func (g *gen) rawAppend(e format.Entry, signer ssh.Signer) {
 	g.t.Helper()
 	c := g.open()
-	last := c.Ledger[len(c.Ledger)-1]
-	e.Seq, e.Prev, e.Time = last.Seq+1, last.Hash(), g.now().UTC().Format(time.RFC3339)
+	own := c.logs[e.Actor]
+	e.Seq, e.Prev = len(own)+1, format.Genesis
+	if len(own) > 0 {
+		e.Prev = c.Ledger[own[len(own)-1]].Hash()
+	}
+	if e.Time == "" {
+		e.Time = g.now().UTC().Format(time.RFC3339)
+	}
+	data := map[string]string{}
+	for k, v := range e.Data {
+		data[k] = v
+	}
+	for log, seq := range c.Heads() {
+		if log != e.Actor {
+			data[afterPrefix+log] = ref{seq, c.Ledger[c.logs[log][seq-1]].Hash()}.String()
+		}
+	}
+	e.Data = data
+	g.writeEntry(&e, signer)
+}
+
+// writeEntry signs e with signer and writes it as its file.
+func (g *gen) writeEntry(e *format.Entry, signer ssh.Signer) {
+	g.t.Helper()
 	sig, err := sshsig.Sign(signer, format.LedgerNamespace, e.SignedBytes())
 	if err != nil {
 		g.t.Fatal(err)
 	}
 	e.Sig = sshsig.Flatten(sig)
-	if err := c.root.Append(LedgerFile, append(e.Line(), '\n')); err != nil {
+	e.SetHash(format.HashLine(e.Line()))
+	if err := g.open().root.CreateExclusive(EntryPath(e), format.EncodeEntryFile(e), 0o644); err != nil {
+		g.t.Fatal(err)
+	}
+}
+
+// entry returns the last entry of a log and its file.
+func (g *gen) last(log string) (format.Entry, string) {
+	c := g.open()
+	l := c.logs[log]
+	i := l[len(l)-1]
+	return c.Ledger[i], filepath.Join(g.dir, filepath.FromSlash(c.paths[i]))
+}
+
+// reentry replaces the last entry of a log by edit's version of it,
+// re-signed by signer (nil: the entry's sig is kept) and filed under its
+// new hash: a forger rewriting an entry nothing names yet.
+func (g *gen) reentry(log string, signer ssh.Signer, edit func(e *format.Entry)) {
+	g.t.Helper()
+	e, p := g.last(log)
+	if err := os.Remove(p); err != nil {
+		g.t.Fatal(err)
+	}
+	edit(&e)
+	if signer != nil {
+		g.writeEntry(&e, signer)
+		return
+	}
+	e.SetHash(format.HashLine(e.Line()))
+	if err := g.open().root.CreateExclusive(EntryPath(&e), format.EncodeEntryFile(&e), 0o644); err != nil {
 		g.t.Fatal(err)
 	}
 }
@@ -1115,16 +1150,23 @@ func (g *gen) forgeUnblind(tamperTable func(s Slot, f *format.TableFile), reveal
 		}
 	}
 	salt, _, _ := c.KeyCommitment()
-	if err := c.appendEntry(format.Entry{Step: string(StepUnblind), Actor: "custodian", Files: digests,
-		Data: map[string]string{"signed_by": strings.Join(signers, ","), "key_salt": hex.EncodeToString(salt)}}, g.signers["custodian"]); err != nil {
-		t.Fatal(err)
+	data := map[string]string{"signed_by": strings.Join(signers, ","), "key_salt": hex.EncodeToString(salt)}
+	if g.unblindData != nil {
+		g.unblindData(data)
 	}
+	g.rawAppend(format.Entry{Step: string(StepUnblind), Actor: "custodian", Files: digests, Data: data}, g.signers["custodian"])
 }
 
 // forgeSign writes a sign-off whose statement was altered after drafting
 // and signs the statement file with sigBy's key; the ledger entry is the
 // party's own.
 func (g *gen) forgeSign(party, sigBy string, alter func(*Statement)) {
+	g.forgeSignMod(party, sigBy, alter, nil)
+}
+
+// forgeSignMod is forgeSign whose mod may change the signature file's
+// bytes and the entry's files and data before they are written.
+func (g *gen) forgeSignMod(party, sigBy string, alter func(*Statement), mod func(sig []byte, files, data map[string]string) []byte) {
 	t := g.t
 	c := g.open()
 	st, _, err := c.Draft(party, "")
@@ -1135,22 +1177,85 @@ func (g *gen) forgeSign(party, sigBy string, alter func(*Statement)) {
 		alter(st)
 	}
 	body := st.Encode()
-	sig, err := sshsig.Sign(g.signers[sigBy], SignoffNamespace, body)
+	alg := "sha512"
+	if g.statementHash != "" {
+		alg = g.statementHash
+	}
+	sig, err := sshsig.SignHash(g.signers[sigBy], SignoffNamespace, body, alg)
 	if err != nil {
 		t.Fatal(err)
 	}
-	sp, gp := SignoffPaths(party, 1)
+	sp, gp := SignoffPaths(party, 1, format.Digest(body))
+	files, data := map[string]string{sp: format.Digest(body)}, signData(st)
+	if mod != nil {
+		sig = mod(sig, files, data)
+	}
+	files[gp] = format.Digest(sig)
 	if err := c.root.CreateExclusive(sp, body, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	if err := c.root.CreateExclusive(gp, sig, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if err := c.appendEntry(format.Entry{Step: string(StepSign), Actor: party,
-		Files: map[string]string{sp: format.Digest(body), gp: format.Digest(sig)},
-		Data:  signData(st)}, g.signers[party]); err != nil {
+	g.rawAppend(format.Entry{Step: string(StepSign), Actor: party, Files: files, Data: data}, g.signers[party])
+}
+
+// forgeSeal seals a table of the vectors as team, with the version and
+// the reason given and the file named for pathVersion, without the
+// checks Seal makes.
+func (g *gen) forgeSeal(team, obs, tableKey string, version, pathVersion int, reason string) {
+	t := g.t
+	c := g.open()
+	o := c.Protocol.Observable(obs)
+	tb, err := table.ParseCSV(tableKey, []byte(vectorTables[tableKey]), table.CSVOptions{Lo: o.Edges[0], Hi: o.Edges[1], Delim: ','})
+	if err != nil {
 		t.Fatal(err)
 	}
+	ct, err := Canonical(o, tb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	nonce, _ := format.NewNonce()
+	rcpt, _ := c.Protocol.Recipient()
+	f := &format.TableFile{Kind: format.Sealed, Campaign: c.Protocol.Campaign, Team: team, Observable: obs, Version: version, Nonce: nonce, Table: ct}
+	ciphertext, err := encrypt(rcpt, f.Encode())
+	if err != nil {
+		t.Fatal(err)
+	}
+	com := f.Commitment()
+	rel := Slot{team, obs}.SealedPath(pathVersion, com)
+	if err := c.root.CreateExclusive(rel, ciphertext, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	data := map[string]string{"team": team, "observable": obs, "commitment": com, "version": strconv.Itoa(version)}
+	if reason != "" {
+		data["reason"] = reason
+	}
+	g.rawAppend(format.Entry{Step: string(StepSeal), Actor: team, Files: map[string]string{rel: format.Digest(ciphertext)}, Data: data}, g.signers[team])
+}
+
+// glob is the one file of the campaign matching pattern, relative.
+func (g *gen) glob(pattern string) string {
+	g.t.Helper()
+	m, _ := filepath.Glob(filepath.Join(g.dir, filepath.FromSlash(pattern)))
+	if len(m) != 1 {
+		g.t.Fatalf("%s matches %d files", pattern, len(m))
+	}
+	rel, _ := filepath.Rel(g.dir, m[0])
+	return filepath.ToSlash(rel)
+}
+
+// rewrap re-armors an SSH signature in lines of n columns.
+func rewrap(sig []byte, n int) []byte {
+	b64 := sshsig.Flatten(sig)
+	var out strings.Builder
+	out.WriteString("-----BEGIN SSH SIGNATURE-----\n")
+	for len(b64) > n {
+		out.WriteString(b64[:n] + "\n")
+		b64 = b64[n:]
+	}
+	out.WriteString(b64 + "\n-----END SSH SIGNATURE-----\n")
+	return []byte(out.String())
 }
 
 // signData is the data of a sign entry for st.
@@ -1174,15 +1279,6 @@ func (g *gen) editFile(rel string, f func(string) string) {
 	}
 }
 
-// editLedgerLine rewrites line n (1 = the header) of the ledger.
-func (g *gen) editLedgerLine(n int, f func(string) string) {
-	g.editFile(LedgerFile, func(s string) string {
-		lines := strings.Split(s, "\n")
-		lines[n-1] = f(lines[n-1])
-		return strings.Join(lines, "\n")
-	})
-}
-
 func campaignVectors(t *testing.T, out string) []*vector {
 	type cv struct {
 		name, expect, desc string
@@ -1197,14 +1293,23 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.seal("team-a", "flux", "team-a/flux2", "a corrected efficiency")
 			g.blind()
 		}},
-		{"ok-torn", "ok", "as ok-signed, with a partial last ledger line (no LF) as an interrupted append leaves it: not part of the chain, a note only", func(g *gen) {
+		{"ok-protocol-reformatted", "ok", "as ok-signed, with campaign.toml given CRLF line ends and a comment line (as core.autocrlf or an editor makes it): its meaning is unchanged, so the lock holds", func(g *gen) {
 			g.signed()
-			g.editFile(LedgerFile, func(s string) string { return s + `{"seq":12,"prev":"` })
+			g.editFile(ProtocolFile, func(s string) string {
+				return "# a comment added after init\r\n" + strings.ReplaceAll(s, "\n", "\r\n")
+			})
+		}},
+		{"ok-leftover-seal", "ok", "as ok-blinded, with a sealed file an interrupted seal left without its entry: a note only, the next seal of the slot removes it", func(g *gen) {
+			g.blinded()
+			if err := os.WriteFile(filepath.Join(g.dir, "sealed", "team-a", "flux.v2-0123456789ab.age"), []byte("age-encryption.org/v1\n"), 0o644); err != nil {
+				t.Fatal(err)
+			}
 		}},
 		{"stale-signoff", "stale-signoff", "as ok-resealed, then unblinded by a custodian who skipped the checks: every sign-off predates round 2", func(g *gen) {
 			g.signed()
 			g.seal("team-a", "flux", "team-a/flux2", "a corrected efficiency")
 			g.blind()
+			g.unblindData = func(d map[string]string) { d["signed_by"] = "" } // no sign-off holds
 			g.forgeUnblind(nil, nil)
 		}},
 		{"missing-signoff", "missing-signoff", "unblinded by a custodian who skipped the checks before the reviewer (in the quorum) signed", func(g *gen) {
@@ -1213,18 +1318,169 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeUnblind(nil, nil)
 		}},
-		{"broken-chain", "broken-chain", "the time of ledger entry 3 edited: entry 4 no longer names its hash", func(g *gen) {
+		{"broken-chain", "broken-chain", "the time of team-a's first entry edited (its file renamed to the new hash): team-a's entry 2 no longer names its hash", func(g *gen) {
 			g.signed()
-			g.editLedgerLine(4, func(s string) string {
-				return strings.Replace(s, `"time":"2026-12-01T09:`, `"time":"2026-12-01T08:`, 1)
+			c := g.open()
+			i := c.logs["team-a"][0]
+			e := c.Ledger[i]
+			os.Remove(filepath.Join(g.dir, filepath.FromSlash(c.paths[i])))
+			e.Time = strings.Replace(e.Time, "T09:", "T08:", 1)
+			e.SetHash(format.HashLine(e.Line()))
+			if err := c.root.CreateExclusive(EntryPath(&e), format.EncodeEntryFile(&e), 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}},
+		{"broken-chain-cut", "broken-chain", "team-a's last entry (its seal of ratio) removed, with its sealed file; the custodian's open entry names it, so the cut is found", func(g *gen) {
+			g.blinded()
+			e, p := g.last("team-a")
+			os.Remove(p)
+			for f := range e.Files {
+				os.Remove(filepath.Join(g.dir, filepath.FromSlash(f)))
+			}
+		}},
+		{"fork", "fork", "team-a signed in two clones at once and both were merged: two entries 1 in team-a's log", func(g *gen) {
+			g.blinded()
+			g.sign("team-b")
+			clone := *g
+			clone.dir = filepath.Join(t.TempDir(), "clone")
+			if err := copyCampaign(g.dir, clone.dir); err != nil {
+				t.Fatal(err)
+			}
+			g.sign("team-a")
+			clone.tick += 7
+			clone.sign("team-a")
+			if err := copyCampaign(clone.dir, g.dir); err != nil {
+				t.Fatal(err)
+			}
+		}},
+		{"bad-signature", "bad-signature", "the time of the reviewer's sign entry edited and its file renamed to the new hash: nothing names it, but its signature fails", func(g *gen) {
+			g.signed()
+			g.reentry("reviewer", nil, func(e *format.Entry) { e.Time = strings.Replace(e.Time, "T09:", "T10:", 1) })
+		}},
+		{"bad-signature-sha256", "bad-signature", "the reviewer's sign entry re-signed by the reviewer with the SSHSIG hash sha256 (SPEC requires sha512)", func(g *gen) {
+			g.signed()
+			g.reentry("reviewer", nil, func(e *format.Entry) {
+				sig, err := sshsig.SignHash(g.signers["reviewer"], format.LedgerNamespace, e.SignedBytes(), "sha256")
+				if err != nil {
+					t.Fatal(err)
+				}
+				e.Sig = sshsig.Flatten(sig)
 			})
 		}},
-		{"bad-signature", "bad-signature", "the time of the last ledger entry edited: the chain holds (nothing follows it) but its signature fails", func(g *gen) {
+		{"out-of-order-time", "out-of-order", "the reviewer's sign entry dated 2020, before init, re-signed by the reviewer: times never go back along what an entry follows", func(g *gen) {
 			g.signed()
-			lines := strings.Count(string(mustRead(t, filepath.Join(g.dir, LedgerFile))), "\n")
-			g.editLedgerLine(lines, func(s string) string {
-				return strings.Replace(s, `"time":"2026-12-01T09:`, `"time":"2026-12-01T08:`, 1)
+			g.reentry("reviewer", g.signers["reviewer"], func(e *format.Entry) { e.Time = "2020-01-01T00:00:00Z" })
+		}},
+		{"bad-entry-foreign-file", "bad-entry", "team-a's sign entry also logs a new digest for team-b's sealed file, which team-a replaced: a step logs only its own paths, and a logged path is never logged again", func(g *gen) {
+			g.blinded()
+			g.sign("team-b")
+			sealed := g.glob("sealed/team-b/flux.v1-*.age")
+			g.editFile(sealed, func(s string) string { return s + "x" })
+			data, _ := os.ReadFile(filepath.Join(g.dir, filepath.FromSlash(sealed)))
+			g.forgeSignMod("team-a", "team-a", nil, func(sig []byte, files, _ map[string]string) []byte {
+				files[sealed] = format.Digest(data)
+				return sig
 			})
+		}},
+		{"bad-entry-key-age", "bad-entry", "the reviewer replaced key.age with an age file of its own and its sign entry logs the new digest", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.editFile(KeyFile, func(s string) string { return s + "\n" })
+			data, _ := os.ReadFile(filepath.Join(g.dir, KeyFile))
+			g.forgeSignMod("reviewer", "reviewer", nil, func(sig []byte, files, _ map[string]string) []byte {
+				files[KeyFile] = format.Digest(data)
+				return sig
+			})
+		}},
+		{"bad-entry-signed-by", "bad-entry", "unblinded after the quorum signed, but the unblind entry names team-a alone in signed_by (re-signed by the custodian)", func(g *gen) {
+			g.signed()
+			g.unblindData = func(d map[string]string) { d["signed_by"] = "team-a" }
+			g.forgeUnblind(nil, nil)
+		}},
+		{"bad-entry-salt", "bad-entry", "unblinded after the quorum signed, but the unblind entry's key_salt is not the init entry's", func(g *gen) {
+			g.signed()
+			g.unblindData = func(d map[string]string) { d["key_salt"] = hex.EncodeToString(sum("another salt")) }
+			g.forgeUnblind(nil, nil)
+		}},
+		{"bad-entry-reseal-no-reason", "bad-entry", "team-a re-sealed flux after it was opened, without the REQUIRED reason (the entry made outside tandem)", func(g *gen) {
+			g.blinded()
+			g.forgeSeal("team-a", "flux", "team-a/flux2", 2, 2, "")
+		}},
+		{"bad-entry-version-file", "bad-entry", "team-a's seal entry says version 2 but logs the file of version 1", func(g *gen) {
+			g.blinded()
+			g.forgeSeal("team-a", "flux", "team-a/flux2", 2, 1, "a corrected efficiency")
+		}},
+		{"bad-entry-reserved-member", "bad-entry", "team-a's sign entry holds the member observable, reserved for staged unblinding and not a v3 member", func(g *gen) {
+			g.blinded()
+			g.forgeSignMod("team-a", "team-a", nil, func(sig []byte, _, data map[string]string) []byte {
+				data["observable"] = "flux"
+				return sig
+			})
+		}},
+		{"private-key", "private-key", "as ok-blinded, with the custodian's age identity copied into the campaign folder", func(g *gen) {
+			g.blinded()
+			id := g.ids[0].(*age.X25519Identity)
+			if err := os.WriteFile(filepath.Join(g.dir, "custodian.key"), []byte("# an identity\n"+id.String()+"\n"), 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}},
+		{"uncovered-file-unblind-cut", "uncovered-file", "unblinded, then the unblind entry removed: key.revealed and unblinded/ stay without the entry that writes them", func(g *gen) {
+			g.signed().unblind()
+			_, p := g.last("custodian")
+			os.Remove(p)
+		}},
+		{"uncovered-file-signs-cut", "uncovered-file", "every sign entry removed: the statements stay without their entries", func(g *gen) {
+			g.signed()
+			for _, p := range []string{"team-a", "team-b", "reviewer"} {
+				_, f := g.last(p)
+				os.Remove(f)
+			}
+		}},
+		{"bad-signoff-verdict", "bad-signoff", "the reviewer's sign entry logs verdict fail with a reason while its signed statement says pass", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.forgeSignMod("reviewer", "reviewer", nil, func(sig []byte, _, data map[string]string) []byte {
+				data["verdict"], data["accepted_disagreement"] = "fail", "we think flux differs"
+				return sig
+			})
+		}},
+		{"bad-signoff-reason", "bad-signoff", "the reviewer signed a failing statement with one accepted-disagreement reason; its sign entry logs another", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.forgeSignMod("reviewer", "reviewer", func(st *Statement) {
+				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				d, err := st.ComparisonDigest()
+				if err != nil {
+					t.Fatal(err)
+				}
+				st.Comparison = d
+			}, func(sig []byte, _, data map[string]string) []byte {
+				data["accepted_disagreement"] = "a reason the statement does not give"
+				return sig
+			})
+		}},
+		{"bad-signoff-sha256", "bad-signoff", "the reviewer's statement signed by the reviewer with the SSHSIG hash sha256 (SPEC requires sha512)", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.statementHash = "sha256"
+			g.forgeSign("reviewer", "reviewer", nil)
+		}},
+		{"bad-signoff-armor", "bad-signoff", "the reviewer's statement signature re-armored in lines of 76 columns (SPEC requires 70), its digest logged as it stands", func(g *gen) {
+			g.blinded()
+			g.sign("team-a")
+			g.sign("team-b")
+			g.forgeSignMod("reviewer", "reviewer", nil, func(sig []byte, _, _ map[string]string) []byte { return rewrap(sig, 76) })
+		}},
+		{"bad-signoff-stale-key", "bad-signoff", "the reviewer signed a statement naming another key commitment, then team-a re-sealed: the sign-off is stale and still refused", func(g *gen) {
+			g.blinded()
+			g.forgeSign("reviewer", "reviewer", func(st *Statement) { st.KeyCommitment = hex.EncodeToString(sum("other key")) })
+			g.seal("team-a", "flux", "team-a/flux2", "a corrected efficiency")
+			g.blind()
 		}},
 		{"unknown-party", "unknown-party", "an entry by \"mallory\", who is not a party, correctly chained and signed with mallory's key", func(g *gen) {
 			g.blinded()
@@ -1239,13 +1495,13 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.signed().unblind()
 			g.rawAppend(format.Entry{Step: "sign", Actor: "team-a", Data: map[string]string{"party": "team-a", "verdict": "pass"}}, g.signers["team-a"])
 		}},
-		{"protocol-changed", "protocol-changed", "campaign.toml edited after init without an amend entry", func(g *gen) {
+		{"protocol-changed", "protocol-changed", "campaign.toml's description changed after init without an amend entry (a change of meaning, not of form)", func(g *gen) {
 			g.blinded()
 			g.editFile(ProtocolFile, func(s string) string { return strings.Replace(s, "invented numbers", "other numbers", 1) })
 		}},
 		{"bad-digest", "bad-digest", "one number of a published blinded table changed (still canonical)", func(g *gen) {
 			g.blinded()
-			g.editFile("blinded/team-b/ratio.v1.csv", func(s string) string {
+			g.editFile(g.glob("blinded/team-b/ratio.v1-????????????.csv"), func(s string) string {
 				lines := strings.Split(s, "\n")
 				lines[8] = strings.Replace(lines[8], "0,0.5,", "0,0.25,", 1)
 				return strings.Join(lines, "\n")

@@ -127,7 +127,7 @@ func runInit(e *env, args []string) error {
 			return err
 		}
 		if c.Started() {
-			return refused(errors.New("init refused: the campaign has already started (its ledger exists)"))
+			return refused(errors.New("init refused: the campaign has already started (its log exists)"))
 		}
 		signer, err := findSigner(signKey, c.Protocol.CustodianPublicKey())
 		if err != nil {
@@ -155,6 +155,10 @@ func runInit(e *env, args []string) error {
 		}
 	}
 	if keyFile != "" {
+		if campaign.InsideFolder(dir, keyFile) {
+			return withHint(usageErr("--custodian-key %s is inside the campaign folder %s; no secret may live there (the folder is shared)", keyFile, dir),
+				"write the identity beside the campaign, e.g. --custodian-key "+filepath.Clean(dir)+".keys/custodian-age-identity")
+		}
 		if recipient, err = campaign.GenerateCustodian(keyFile, time.Now()); err != nil {
 			return inputErr(err)
 		}
@@ -429,7 +433,7 @@ func runBlind(e *env, args []string) error {
 const unblindHelp = `Usage:
     tandem unblind DIR --identity FILE [--key FILE]
 
-Custodian step. Checks the ledger (chain, order, every signature), every
+Custodian step. Checks the logs (chains, order, every signature), every
 file digest, every sign-off and the quorum; refuses (exit 1) listing every
 problem, writing nothing. If all holds, opens the key, checks it against
 its commitment, decrypts every latest seal, checks it against its seal-time

@@ -54,6 +54,7 @@ Usage:
     tandem amend DIR --as PARTY --reason TEXT [--key FILE] NEW.toml
     tandem unblind DIR --identity FILE [--key FILE]
     tandem verify DIR
+    tandem resolve DIR                     remove the branch of a forked log not kept
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
 
     tandem --version                       the version and the revision built
@@ -145,6 +146,7 @@ func commands() []command {
 		{"amend", runAmend},
 		{"unblind", runUnblind},
 		{"verify", runVerify},
+		{"resolve", runResolve},
 		{"report", runReport},
 		{"demo", runDemo},
 	}

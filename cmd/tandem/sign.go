@@ -18,7 +18,7 @@ const signHelp = `Usage:
 Signs off the campaign as it stands. Prints what is signed, in words (each
 comparison with its verdict, χ²/ndf and p-value, and what is accepted) and
 as the statement (campaign, key commitment, every sealed commitment with
-the team that signed it, every blinded digest, ledger head, each
+the team that signed it, every blinded digest, the view of the logs, each
 comparison with its verdict, the comparison digest of those lines and the
 verdict), and asks for confirmation on the terminal. Signs with
 the SSH key in FILE, or with ssh-agent when --key is absent. The signature

@@ -63,9 +63,12 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 const statusHelp = `Usage:
     tandem status DIR [--format text|json]
 
-Shows where the campaign stands: each observable's state (waiting for
-seals, sealed, open for comparison, unblinded) with each team's sealed
-version, every sign-off, and the next action of each party.
+Shows where the campaign stands as this folder holds it: each
+observable's state (waiting for seals, sealed, open for comparison,
+unblinded) with each team's sealed version, every sign-off, each party's
+log (entries and last step, so a site can see what others have pushed
+after a pull), and whose turn it is: the next action of each party.
+tandem never runs git; pull first to see the other sites' steps.
 `
 
 func runStatus(e *env, args []string) error {
@@ -121,6 +124,13 @@ func runStatus(e *env, args []string) error {
 			fmt.Fprintf(w, "  sign-off %-15s INVALID: %s\n", so.Party, so.Problems[0])
 		}
 	}
+	for _, l := range s.Logs {
+		if l.Entries == 0 {
+			fmt.Fprintf(w, "  log %-20s no entry yet\n", l.Party)
+			continue
+		}
+		fmt.Fprintf(w, "  log %-20s %d entries, last: %s at %s\n", l.Party, l.Entries, l.Last, l.Time)
+	}
 	for _, n := range s.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
 	}
@@ -146,7 +156,7 @@ func publishedWord(p string) string {
 const verifyHelp = `Usage:
     tandem verify DIR
 
-Checks everything anyone can check without secrets: the ledger chain, the
+Checks everything anyone can check without secrets: every log's chain, the
 order of its entries and every entry's signature by the key the protocol
 gives its actor, the protocol lock, every file digest, every sign-off
 signature, and after unblinding the quorum, the key against its
@@ -179,6 +189,52 @@ func runVerify(e *env, args []string) error {
 		return refused(fmt.Errorf("verification failed: %d problem(s)", len(r.Problems)))
 	}
 	fmt.Fprintln(e.stdout, "verified: every check holds")
+	return nil
+}
+
+const resolveHelp = `Usage:
+    tandem resolve DIR
+
+When two clones extended one party's log at the same time (two runs of
+the custodian's job, or a party that signed on two machines) and git
+merged both, that log has forked and every step is refused. resolve keeps
+the branch whose first entry is earliest (then the smallest hash), removes
+the entry files of the other branch and the files only they logged, and
+lists the steps removed, to be taken again. Every clone that runs it
+removes the same files, so commit and push the result as any step. It
+refuses when an entry of another log names a removed entry.
+`
+
+func runResolve(e *env, args []string) error {
+	fs := newFlags(e, "resolve", resolveHelp)
+	pos, err := parse(fs, args)
+	if err != nil {
+		return err
+	}
+	dir, err := oneDir(pos, "resolve")
+	if err != nil {
+		return err
+	}
+	if _, err := os.Stat(filepath.Join(dir, campaign.ProtocolFile)); err != nil {
+		return inputErr(fmt.Errorf("%s: not a campaign folder (no %s)", dir, campaign.ProtocolFile))
+	}
+	c, err := campaign.OpenAny(dir)
+	if err != nil {
+		return campaignErr(err)
+	}
+	res, err := c.Resolve()
+	if err != nil {
+		return campaignErr(err)
+	}
+	for _, rel := range res.Entries {
+		fmt.Fprintf(e.stdout, "removed entry %s\n", rel)
+	}
+	for _, rel := range res.Files {
+		fmt.Fprintf(e.stdout, "removed %s\n", rel)
+	}
+	for _, r := range res.Retake {
+		e.infof("to take again: %s", r)
+	}
 	return nil
 }
 

@@ -83,3 +83,23 @@ func FuzzKeyFile(f *testing.F) {
 		}
 	})
 }
+
+// FuzzEntryFile: the entry file parser never panics, and an accepted file
+// re-encodes to the same bytes.
+func FuzzEntryFile(f *testing.F) {
+	for _, s := range seeds(f, "entry-*") {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, data []byte) {
+		e, err := DecodeEntryFile("fuzz", data)
+		if err != nil {
+			return
+		}
+		if string(EncodeEntryFile(&e)) != string(data) {
+			t.Fatalf("accepted an entry file that does not round-trip")
+		}
+		if e.Hash() != HashLine(e.Line()) {
+			t.Fatalf("hash is not the hash of the line")
+		}
+	})
+}

@@ -350,3 +350,41 @@ func (p *lineParser) obj() map[string]string {
 	p.lit("}")
 	return m
 }
+
+// EntryHeader is the first line of every log entry file of a tandem/v3
+// campaign (section 8 of SPEC.md).
+const EntryHeader = "tandem/v3 entry"
+
+// EncodeEntryFile is the canonical bytes of an entry's own file: the
+// header line, then the entry's canonical line, each ending in LF.
+func EncodeEntryFile(e *Entry) []byte {
+	line := e.Line()
+	b := make([]byte, 0, len(EntryHeader)+len(line)+2)
+	b = append(append(b, EntryHeader...), '\n')
+	return append(append(b, line...), '\n')
+}
+
+// DecodeEntryFile parses an entry file: exactly the header line and one
+// canonical entry line, both LF-terminated, nothing else. The entry's
+// hash is set from its line.
+func DecodeEntryFile(path string, data []byte) (Entry, error) {
+	first, rest, ok := bytes.Cut(data, []byte("\n"))
+	if !ok || string(first) != EntryHeader {
+		if bytes.HasPrefix(first, []byte("tandem/v2 ")) || bytes.HasPrefix(first, []byte("tandem/v1 ")) {
+			return Entry{}, table.Errorf(path, 1, 1, "a %s file: this version of tandem reads tandem/v3 campaigns only", first[:9])
+		}
+		return Entry{}, table.Errorf(path, 1, 1, "not a log entry: first line must be %q", EntryHeader)
+	}
+	line, tail, ok := bytes.Cut(rest, []byte("\n"))
+	if !ok {
+		return Entry{}, table.Errorf(path, 2, len(rest)+1, "entry line does not end with a newline (torn write?)")
+	}
+	if len(tail) > 0 {
+		return Entry{}, table.Errorf(path, 3, 1, "an entry file holds one entry line; found more")
+	}
+	e, err := DecodeEntry(line)
+	if err != nil {
+		return Entry{}, table.Errorf(path, 2, 0, "%v", err)
+	}
+	return e, nil
+}

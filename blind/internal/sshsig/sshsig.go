@@ -73,7 +73,17 @@ func Sign(signer ssh.Signer, namespace string, msg []byte) ([]byte, error) {
 	if namespace == "" {
 		return nil, errors.New("sshsig: empty namespace")
 	}
-	data, err := toSign(namespace, "sha512", msg)
+	return SignHash(signer, namespace, msg, "sha512")
+}
+
+// SignHash is [Sign] with another hash algorithm ("sha256"). tandem signs
+// with sha512 only and [Verify] refuses anything else; this exists so the
+// tests can make the signatures a verifier must refuse.
+func SignHash(signer ssh.Signer, namespace string, msg []byte, alg string) ([]byte, error) {
+	if namespace == "" {
+		return nil, errors.New("sshsig: empty namespace")
+	}
+	data, err := toSign(namespace, alg, msg)
 	if err != nil {
 		return nil, err
 	}
@@ -86,7 +96,7 @@ func Sign(signer ssh.Signer, namespace string, msg []byte) ([]byte, error) {
 	if err != nil {
 		return nil, fmt.Errorf("sshsig: signing: %w", err)
 	}
-	b := blob{1, string(signer.PublicKey().Marshal()), namespace, "", "sha512", string(ssh.Marshal(sig))}
+	b := blob{1, string(signer.PublicKey().Marshal()), namespace, "", alg, string(ssh.Marshal(sig))}
 	raw := append([]byte(magic), ssh.Marshal(b)...)
 	return armor(raw), nil
 }
@@ -154,6 +164,14 @@ func Verify(armored, msg []byte, namespace string, want ssh.PublicKey) error {
 	s, err := Parse(armored)
 	if err != nil {
 		return err
+	}
+	// One valid byte sequence per signature: the armor this package
+	// writes (70-column base64, LF line ends) and the hash sha512.
+	if raw, err := base64.StdEncoding.DecodeString(Flatten(armored)); err != nil || !bytes.Equal(armor(raw), armored) {
+		return errors.New("SSH signature is not in canonical armor (base64 in lines of 70 characters, LF line ends, nothing else)")
+	}
+	if s.HashAlg != "sha512" {
+		return fmt.Errorf("SSH signature uses hash %q; only sha512 is accepted", s.HashAlg)
 	}
 	if !bytes.Equal(s.PublicKey.Marshal(), want.Marshal()) {
 		return fmt.Errorf("signed by %s, not by the expected key %s", ssh.FingerprintSHA256(s.PublicKey), ssh.FingerprintSHA256(want))
