@@ -320,6 +320,7 @@ func Merge(parts []*Summary, names []string) (*Summary, []string, error) {
 		out.OnlyA += p.OnlyA
 		out.OnlyB += p.OnlyB
 		out.Spilled = out.Spilled || p.Spilled
+		out.SpilledBytes += p.SpilledBytes
 		if p.KeyMin != nil {
 			out.seeKey(p.KeyMin)
 			out.seeKey(p.KeyMax)

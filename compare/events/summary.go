@@ -166,8 +166,11 @@ type Summary struct {
 	// KeyMin and KeyMax bound the keys of both tables (nil when empty).
 	KeyMin []int64 `json:"key_min"`
 	KeyMax []int64 `json:"key_max"`
-	// Spilled tells that the inputs were not both sorted by key.
-	Spilled bool `json:"spilled"`
+	// Spilled tells that the inputs were not both sorted by key, so they
+	// were hash-partitioned; SpilledBytes counts the bytes of rows that
+	// did not fit the memory budget and went to the temporary folder.
+	Spilled      bool  `json:"spilled"`
+	SpilledBytes int64 `json:"spilled_bytes,omitempty"`
 
 	Stats []VarStats `json:"var_stats"`
 	// PassA[s] and PassB[s] count the rows that pass exactly the first s
