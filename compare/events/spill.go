@@ -1,15 +1,14 @@
 package events
 
 import (
+	"bufio"
 	"encoding/binary"
 	"fmt"
-	"io"
 	"math"
 	"math/bits"
 	"os"
 	"path/filepath"
 	"slices"
-	"strconv"
 	"sync"
 )
 
@@ -47,6 +46,9 @@ type spill struct {
 	free   [][]byte
 	held   int64 // bytes of chunks allocated
 	budget int64
+	f      *os.File // the spill file, made at the first flush
+	w      *bufio.Writer
+	off    int64
 	// Spilled counts the bytes written to the temporary folder; Rows the
 	// rows added.
 	Spilled, Rows int64
@@ -55,8 +57,12 @@ type spill struct {
 type spillPart struct {
 	chunks [][]byte // the last one may be partly filled
 	fill   int      // bytes used in the last chunk
-	onDisk int64    // bytes in the partition's file
+	onDisk int64    // bytes in the spill file
+	segs   []segment
 }
+
+// segment is where one flush put a partition's records in the spill file.
+type segment struct{ off, n int64 }
 
 func newSpill(dir, prefix string, parts, nk, nv int, budget int64) *spill {
 	rec := 8 * (nk + nv + 2)
@@ -79,10 +85,6 @@ func partOf(key []int64, parts int) int {
 		h ^= h >> 29
 	}
 	return int(h % uint64(parts))
-}
-
-func (s *spill) file(p int) string {
-	return filepath.Join(s.dir, s.prefix+strconv.Itoa(p))
 }
 
 // newChunk returns an empty chunk, flushing every partition to its file
@@ -142,38 +144,50 @@ func (s *spill) bytesIn(p int) int {
 	return (len(pt.chunks)-1)*s.chunk + pt.fill
 }
 
-// flush appends every partition's chunks to its file and frees them.
+// flush appends every partition's chunks to the spill file, one segment
+// per partition, and frees them.
 func (s *spill) flush() error {
+	if s.f == nil {
+		f, err := os.OpenFile(filepath.Join(s.dir, s.prefix), os.O_CREATE|os.O_EXCL|os.O_RDWR, 0o600)
+		if err != nil {
+			return fmt.Errorf("spilling to a temporary file: %v", err)
+		}
+		s.f, s.w = f, bufio.NewWriterSize(f, 1<<18)
+	}
 	for p := range s.parts {
 		pt := &s.parts[p]
 		if len(pt.chunks) == 0 {
 			continue
 		}
-		f, err := os.OpenFile(s.file(p), os.O_CREATE|os.O_WRONLY|os.O_APPEND, 0o600)
-		if err != nil {
-			return fmt.Errorf("spilling to a temporary file: %v", err)
-		}
 		for i, c := range pt.chunks {
 			if i == len(pt.chunks)-1 {
 				c = c[:pt.fill]
 			}
-			if _, err = f.Write(c); err != nil {
-				break
+			if _, err := s.w.Write(c); err != nil {
+				return fmt.Errorf("spilling to a temporary file: %v", err)
 			}
 		}
-		if cerr := f.Close(); err == nil {
-			err = cerr
-		}
-		if err != nil {
-			return fmt.Errorf("spilling to a temporary file: %v", err)
-		}
-		n := s.bytesIn(p)
-		pt.onDisk += int64(n)
-		s.Spilled += int64(n)
+		n := int64(s.bytesIn(p))
+		pt.segs = append(pt.segs, segment{s.off, n})
+		s.off += n
+		pt.onDisk += n
+		s.Spilled += n
 		s.free = append(s.free, pt.chunks...)
 		pt.chunks, pt.fill = nil, 0
 	}
+	if err := s.w.Flush(); err != nil {
+		return fmt.Errorf("spilling to a temporary file: %v", err)
+	}
 	return nil
+}
+
+// close closes and removes the spill file.
+func (s *spill) close() {
+	if s.f != nil {
+		s.f.Close()
+		os.Remove(s.f.Name())
+		s.f = nil
+	}
 }
 
 // done ends the adding: the free chunks are released.
@@ -197,16 +211,10 @@ func (s *spill) load(p int, ld *loader, b *Batch) error {
 	pt := &s.parts[p]
 	size := int(pt.onDisk) + s.bytesIn(p)
 	ld.recs = slices.Grow(ld.recs[:0], size)[:0]
-	if pt.onDisk > 0 {
-		f, err := os.Open(s.file(p))
-		if err != nil {
-			return fmt.Errorf("reading back a temporary file: %v", err)
-		}
-		ld.recs = ld.recs[:pt.onDisk]
-		_, err = io.ReadFull(f, ld.recs)
-		f.Close()
-		os.Remove(s.file(p))
-		if err != nil {
+	for _, sg := range pt.segs {
+		at := len(ld.recs)
+		ld.recs = ld.recs[:at+int(sg.n)]
+		if _, err := s.f.ReadAt(ld.recs[at:], sg.off); err != nil {
 			return fmt.Errorf("reading back a temporary file: %v", err)
 		}
 	}
@@ -216,7 +224,7 @@ func (s *spill) load(p int, ld *loader, b *Batch) error {
 		}
 		ld.recs = append(ld.recs, c...)
 	}
-	pt.chunks, pt.fill, pt.onDisk = nil, 0, 0
+	pt.chunks, pt.fill, pt.onDisk, pt.segs = nil, 0, 0, nil
 	data := ld.recs
 	nk, nv, rec := s.nk, s.nv, s.rec
 	n := len(data) / rec
@@ -321,6 +329,8 @@ func partitioned(a, b Table, acc *acc, dir string) (int64, error) {
 		newSpill(dir, "a", spillParts, acc.nk, acc.nv, acc.o.MemBudget/2),
 		newSpill(dir, "b", spillParts, acc.nk, acc.nv, acc.o.MemBudget/2),
 	}
+	defer spills[0].close()
+	defer spills[1].close()
 	errs := make(chan error, 2)
 	for i, t := range []Table{a, b} {
 		go func() {

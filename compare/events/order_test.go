@@ -1,0 +1,114 @@
+package events
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"reflect"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// The unsorted path gives the same summary as the sorted one: tables
+// written in key order and in a shuffled order, in memory and spilled to
+// disk, with keys whose ranges pack into one word (radix sort) and keys
+// spanning the whole int64 range (comparison sort), negative keys too.
+func TestShuffledEqualsSorted(t *testing.T) {
+	for _, wide := range []bool{false, true} {
+		rng := rand.New(rand.NewPCG(3, uint64(len(fmt.Sprint(wide)))))
+		type row struct {
+			run, ev int64
+			x       float64
+			c1, c2  int
+		}
+		var rows [2][]row
+		for i := 0; i < 3000; i++ {
+			run, ev := int64(rng.IntN(7))-3, int64(i)*5
+			if wide {
+				run, ev = int64(rng.Uint64()), int64(rng.Uint64())
+			}
+			x := rng.NormFloat64()
+			c1, c2 := rng.IntN(2), rng.IntN(2)
+			if rng.IntN(10) != 0 {
+				rows[0] = append(rows[0], row{run, ev, x, c1, c2})
+			}
+			if rng.IntN(10) != 0 {
+				if rng.IntN(20) == 0 {
+					x += 1e-3
+				}
+				if rng.IntN(30) == 0 {
+					c2 = 1 - c2
+				}
+				rows[1] = append(rows[1], row{run, ev, x, c1, c2})
+			}
+		}
+		text := func(rs []row) string {
+			var b strings.Builder
+			b.WriteString("run,event,x,c1,c2\n")
+			for _, r := range rs {
+				fmt.Fprintf(&b, "%d,%d,%v,%d,%d\n", r.run, r.ev, r.x, r.c1, r.c2)
+			}
+			return b.String()
+		}
+		sortRows := func(rs []row) {
+			slices.SortStableFunc(rs, func(x, y row) int { return compareKeys([]int64{x.run, x.ev}, []int64{y.run, y.ev}) })
+		}
+		o := Options{Layout: Layout{Keys: []string{"run", "event"}, Cuts: []string{"c1", "c2"}}, Sample: 5, Worst: 5}
+		var sorted [2]string
+		for side := range rows {
+			sortRows(rows[side])
+			sorted[side] = text(rows[side])
+		}
+		want, err := Sync(mustCSV(t, "a.csv", sorted[0]), mustCSV(t, "b.csv", sorted[1]), o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if want.Spilled {
+			t.Fatal("sorted tables took the unsorted path")
+		}
+		for side := range rows {
+			rng.Shuffle(len(rows[side]), func(i, j int) { rows[side][i], rows[side][j] = rows[side][j], rows[side][i] })
+		}
+		for _, budget := range []int64{0, 1 << 12} {
+			o.MemBudget, o.TempDir = budget, t.TempDir()
+			got, err := Sync(mustCSV(t, "a.csv", text(rows[0])), mustCSV(t, "b.csv", text(rows[1])), o)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !got.Spilled || (budget > 0) != (got.SpilledBytes > 0) {
+				t.Errorf("wide %v, budget %d: spilled %v, %d bytes", wide, budget, got.Spilled, got.SpilledBytes)
+			}
+			got.Spilled, got.SpilledBytes = false, 0
+			for _, s := range []*Summary{got, want} { // line numbers differ with the order
+				for i := range s.Worst {
+					s.Worst[i].PosA, s.Worst[i].PosB = 0, 0
+				}
+			}
+			if !reflect.DeepEqual(got, want) {
+				t.Errorf("wide %v, budget %d: shuffled tables give another summary:\n%+v\nwant\n%+v", wide, budget, got, want)
+			}
+		}
+	}
+}
+
+// The packed radix sort orders like the comparison of the keys.
+func TestSortKeysPacked(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 9))
+	for _, span := range []int64{1, 2, 255, 256, 1 << 20, math.MaxInt32} {
+		n, nk := 2000, 2
+		keys := make([]int64, n*nk)
+		for i := range keys {
+			keys[i] = rng.Int64N(span) - span/2
+		}
+		ld := &loader{}
+		order := ld.sortKeys(keys, nk, n)
+		for i := 1; i < n; i++ {
+			x, y := int(order[i-1]), int(order[i])
+			c := compareKeys(keys[x*nk:(x+1)*nk], keys[y*nk:(y+1)*nk])
+			if c > 0 || (c == 0 && x > y) {
+				t.Fatalf("span %d: rows %d and %d out of order", span, x, y)
+			}
+		}
+	}
+}
