@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"runtime/debug"
 	"slices"
 	"strconv"
 	"strings"
@@ -51,6 +52,9 @@ Example:
     tandem sync heron.csv otter.parquet --key run,event --cuts trigger,quality,fiducial \
         --tol energy=0,1e-6 --bin-var energy --bin-edges 0,10,20,50 --overlap-out rho.csv
 `
+
+// syncMemMargin is the memory sync allows itself beyond --mem.
+const syncMemMargin = 48 << 20
 
 type syncFlags struct {
 	keys, cuts, edges, binVar string
@@ -339,6 +343,13 @@ func (sf *syncFlags) options() (events.Options, error) {
 		return o, usageErr("--mem must be at least 1")
 	}
 	o.MemBudget = int64(sf.memMB) << 20
+	// The budget bounds the rows held; the soft limit makes the garbage
+	// collector return what the unsorted path frees (its chunks after the
+	// reading, its sort buffers) before the heap grows past the budget plus
+	// a margin for buffers and the runtime. GOMEMLIMIT, when set, wins.
+	if os.Getenv("GOMEMLIMIT") == "" {
+		debug.SetMemoryLimit(o.MemBudget + syncMemMargin)
+	}
 	o.TempDir, o.LabelA, o.LabelB = sf.tempDir, sf.labelA, sf.labelB
 	return o, nil
 }

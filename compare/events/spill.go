@@ -325,9 +325,12 @@ func (ld *loader) sortKeys(keys []int64, nk, n int) []uint32 {
 // It returns the bytes spilled to the temporary folder.
 func partitioned(a, b Table, acc *acc, dir string) (int64, error) {
 	l := acc.o.Layout
+	// Each table's rows get 7/16 of the budget: an eighth is left for the
+	// sort buffers, the batches and the readers.
+	held := acc.o.MemBudget / 16 * 7
 	spills := [2]*spill{
-		newSpill(dir, "a", spillParts, acc.nk, acc.nv, acc.o.MemBudget/2),
-		newSpill(dir, "b", spillParts, acc.nk, acc.nv, acc.o.MemBudget/2),
+		newSpill(dir, "a", spillParts, acc.nk, acc.nv, held),
+		newSpill(dir, "b", spillParts, acc.nk, acc.nv, held),
 	}
 	defer spills[0].close()
 	defer spills[1].close()
