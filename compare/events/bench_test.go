@@ -270,13 +270,6 @@ func syncBenchFiles(tb testing.TB, n int) string {
 	return dir
 }
 
-func bit(v bool) int {
-	if v {
-		return 1
-	}
-	return 0
-}
-
 func benchSyncOrder(b *testing.B, order string) {
 	n := *benchRows
 	dir := syncBenchFiles(b, n)

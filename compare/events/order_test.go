@@ -112,3 +112,78 @@ func TestSortKeysPacked(t *testing.T) {
 		}
 	}
 }
+
+// Quantiles read from the histogram bound the exact quantile (the k-th
+// smallest value, k = ⌈q·n⌉, the "inverted CDF" definition, method 1 of
+// Hyndman and Fan 1996) from above by at most one bin width, and never
+// leave [smallest, largest]: the old rule read r99 = 1.259 with a largest
+// value of 1.
+func TestQuantileWithinRange(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 4))
+	for trial := 0; trial < 300; trial++ {
+		n := 1 + rng.IntN(400)
+		rs := make([]float64, n)
+		for i := range rs {
+			switch rng.IntN(5) {
+			case 0:
+				rs[i] = 0
+			case 1:
+				rs[i] = 1 // one side 0, the other not
+			default:
+				rs[i] = math.Pow(10, -17+17*rng.Float64())
+			}
+			if trial%7 == 0 {
+				rs[i] = rs[0] // all alike
+			}
+		}
+		h := make([]int64, HistBins+2)
+		for _, r := range rs {
+			h[histBin(r)]++
+		}
+		sorted := slices.Clone(rs)
+		slices.Sort(sorted)
+		lo, hi := sorted[0], sorted[n-1]
+		for _, q := range append(QuantileLevels, 0.01, 1) {
+			got := Quantile(h, q, hi)
+			exact := sorted[max(1, int(math.Ceil(q*float64(n))))-1]
+			if got > hi || got < lo {
+				t.Fatalf("trial %d, q %v: %v outside [%v, %v]", trial, q, got, lo, hi)
+			}
+			if got < exact || (exact > 1e-16 && got > exact*math.Pow(10, 1.0/HistPerDecade)*(1+1e-12)) {
+				t.Fatalf("trial %d, q %v: %v, exact %v", trial, q, got, exact)
+			}
+		}
+	}
+	if q := Quantile(make([]int64, HistBins+2), 0.5, 0); !math.IsNaN(q) {
+		t.Errorf("empty histogram: %v, want NaN", q)
+	}
+}
+
+// Boolean columns are variables and cuts in every spelling the usual
+// writers use (pandas True/False, R TRUE/FALSE, T/F, 1/0, lower case), and
+// are compared, not dropped: the same flags spelt differently agree, a
+// flipped flag is outside tolerance.
+func TestBooleanSpellings(t *testing.T) {
+	a := "run,event,flag,sel\n1,1,True,TRUE\n1,2,False,T\n1,3,true,1\n1,4,FALSE,f\n"
+	b := "run,event,flag,sel\n1,1,1,t\n1,2,F,true\n1,3,T,True\n1,4,1,0\n"
+	s, err := Sync(mustCSV(t, "a.csv", a), mustCSV(t, "b.csv", b), Options{Layout: Layout{Keys: []string{"run", "event"}, Cuts: []string{"sel"}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(s.Vars) != 1 || s.Vars[0].Name != "flag" {
+		t.Fatalf("variables %v, want the boolean column flag", s.Vars)
+	}
+	if st := s.Stats[0]; st.Compared != 4 || st.Outside != 1 || st.MaxAbs.Value != 1 || !slices.Equal(st.MaxAbs.Key, []int64{1, 4}) {
+		t.Errorf("flag: %+v, want 1 of 4 outside at event 4", st)
+	}
+	r := Evaluate(s)
+	if st := r.Steps[0]; st.A != 3 || st.B != 3 || st.Both != 3 {
+		t.Errorf("cut sel: %+v", st)
+	}
+	for _, bad := range []string{"yes", "tru", "2"} {
+		_, err := Sync(mustCSV(t, "a.csv", a), mustCSV(t, "b.csv", strings.Replace(b, ",true\n", ","+bad+"\n", 1)), Options{Layout: Layout{Keys: []string{"run", "event"}, Cuts: []string{"sel"}}})
+		if err == nil || !strings.Contains(err.Error(), "b.csv:3:7: cut column \"sel\"") {
+			t.Errorf("cut %q: %v", bad, err)
+		}
+	}
+}
