@@ -187,3 +187,35 @@ func TestBooleanSpellings(t *testing.T) {
 		}
 	}
 }
+
+// Progress is reported while the tables are read and while the
+// partitions are merged, never concurrently.
+func TestProgress(t *testing.T) {
+	defer func(n int64) { progressRows = n }(progressRows)
+	progressRows = 500
+	var b strings.Builder
+	b.WriteString("run,event,x\n")
+	for i := 0; i < 5000; i++ {
+		fmt.Fprintf(&b, "1,%d,0.5\n", (i*7919)%5000)
+	}
+	var calls []Progress
+	busy := false
+	o := Options{Layout: Layout{Keys: []string{"run", "event"}}, Progress: func(p Progress) {
+		if busy {
+			t.Error("progress calls overlap")
+		}
+		busy = true
+		calls = append(calls, p)
+		busy = false
+	}}
+	if _, err := Sync(mustCSV(t, "a.csv", b.String()), mustCSV(t, "b.csv", b.String()), o); err != nil {
+		t.Fatal(err)
+	}
+	if len(calls) < 5 {
+		t.Fatalf("%d progress calls", len(calls))
+	}
+	last := calls[len(calls)-1]
+	if !last.Unsorted || last.Parts != spillParts || last.PartsDone != spillParts || last.Rows[0]+last.Rows[1] < 9000 {
+		t.Errorf("last progress %+v", last)
+	}
+}

@@ -227,8 +227,9 @@ type Progress struct {
 	PartsDone, Parts int
 }
 
-// progressRows is about how many rows pass between two progress calls.
-const progressRows = 1 << 20
+// progressRows is about how many rows pass between two progress calls (a
+// variable for tests).
+var progressRows int64 = 1 << 20
 
 // progress counts n more rows read from a side and calls the callback
 // when another progressRows rows have passed.
