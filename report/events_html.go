@@ -248,12 +248,16 @@ func relHistSVG(w io.Writer, v events.VarResult) {
 		}
 	}
 	fmt.Fprintf(w, `<svg width="%g" height="%g" viewBox="0 0 %g %g" role="img" aria-label="relative differences of %s">`+"\n", W, H, W, H, esc(v.Name))
+	name := v.Name
+	if v.Blinded {
+		name += " (blinded)"
+	}
 	verdict := "within tolerance"
 	if !v.Pass {
 		verdict = fmt.Sprintf("%d outside tolerance", v.Outside)
 	}
 	fmt.Fprintf(w, `<text x="%g" y="19" font-size="15" font-weight="600">%s</text><text x="%g" y="19" font-size="13" text-anchor="end" fill="%s">%s</text>`+"\n",
-		L, esc(shorten(v.Name, 36)), W-R, map[bool]string{true: "#1d6b35", false: "#a4161a"}[v.Pass], esc(verdict))
+		L, esc(shorten(name, 36)), W-R, map[bool]string{true: "#1d6b35", false: "#a4161a"}[v.Pass], esc(verdict))
 	if peak == 0 {
 		fmt.Fprintf(w, `<text x="%g" y="%g" font-size="13" text-anchor="middle">no common events</text></svg>`+"\n", W/2, H/2)
 		return
@@ -264,7 +268,7 @@ func relHistSVG(w io.Writer, v events.VarResult) {
 		lo, hi = 2, 2
 	}
 	lo, hi = max(1, lo-2), min(len(h)-1, hi+2)
-	if v.Tol.Rel > 0 {
+	if v.Tol.Rel > 0 && !v.Blinded {
 		if tb := tolBin(v.Tol.Rel); tb >= 1 && tb < len(h) {
 			lo, hi = min(lo, tb-1), max(hi, tb+1)
 			lo, hi = max(1, lo), min(len(h)-1, hi)
@@ -321,7 +325,9 @@ func relHistSVG(w io.Writer, v events.VarResult) {
 		}
 		fmt.Fprintln(w)
 	}
-	if v.Tol.Rel > 0 {
+	// the tolerance applies to the true values: on a blinded variable's
+	// relative differences it would sit in the wrong place
+	if v.Tol.Rel > 0 && !v.Blinded {
 		if tb := tolBin(v.Tol.Rel); tb >= lo && tb <= hi {
 			frac := (math.Log10(v.Tol.Rel) - (events.HistLow + float64(tb-2)/events.HistPerDecade)) * events.HistPerDecade
 			x := xOf(tb) + frac*bw

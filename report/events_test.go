@@ -116,6 +116,23 @@ func TestSyncBlindedHidesCounts(t *testing.T) {
 	if strings.Contains(buf.String(), `"n_a"`) {
 		t.Error("JSON shows per-bin counts of a blinded binning variable")
 	}
+	// the tolerance, which applies to true values, is not drawn on the
+	// blinded relative differences of energy (but is on angle's)
+	var page bytes.Buffer
+	if err := SyncHTML(&page, r); err != nil {
+		t.Fatal(err)
+	}
+	figure := func(name string) string {
+		fig := page.String()
+		fig = fig[strings.Index(fig, `aria-label="relative differences of `+name+`"`):]
+		return fig[:strings.Index(fig, "</svg>")]
+	}
+	if fig := figure("energy"); !strings.Contains(fig, "energy (blinded)") || strings.Contains(fig, ">tolerance<") {
+		t.Error("blinded energy: histogram not marked blinded, or the true-value tolerance drawn on it")
+	}
+	if !strings.Contains(figure("hits"), ">tolerance<") {
+		t.Error("hits is not blinded, yet its relative tolerance is not drawn")
+	}
 	var ov bytes.Buffer
 	r.WriteOverlap(&ov)
 	if !strings.HasPrefix(ov.String(), "lo,hi,rho\n") {
