@@ -15,6 +15,7 @@ import (
 // disk, with keys whose ranges pack into one word (radix sort) and keys
 // spanning the whole int64 range (comparison sort), negative keys too.
 func TestShuffledEqualsSorted(t *testing.T) {
+	defer func(m int64) { loadMargin = m }(loadMargin)
 	for _, wide := range []bool{false, true} {
 		rng := rand.New(rand.NewPCG(3, uint64(len(fmt.Sprint(wide)))))
 		type row struct {
@@ -70,14 +71,21 @@ func TestShuffledEqualsSorted(t *testing.T) {
 		for side := range rows {
 			rng.Shuffle(len(rows[side]), func(i, j int) { rows[side][i], rows[side][j] = rows[side][j], rows[side][i] })
 		}
-		for _, budget := range []int64{0, 1 << 12} {
+		for _, budget := range []int64{0, 1 << 12, -1} {
 			o.MemBudget, o.TempDir = budget, t.TempDir()
+			if budget == -1 { // spill, then spill what is still held before the merge
+				o.MemBudget = 1 << 12
+				loadMargin = -1 << 40
+			}
 			got, err := Sync(mustCSV(t, "a.csv", text(rows[0])), mustCSV(t, "b.csv", text(rows[1])), o)
 			if err != nil {
 				t.Fatal(err)
 			}
-			if !got.Spilled || (budget > 0) != (got.SpilledBytes > 0) {
+			if !got.Spilled || (budget != 0) != (got.SpilledBytes > 0) {
 				t.Errorf("wide %v, budget %d: spilled %v, %d bytes", wide, budget, got.Spilled, got.SpilledBytes)
+			}
+			if all := (got.RowsA + got.RowsB) * 8 * (2 + 1 + 2); budget == -1 && got.SpilledBytes != all {
+				t.Errorf("wide %v: %d bytes spilled, want every row's %d", wide, got.SpilledBytes, all)
 			}
 			got.Spilled, got.SpilledBytes = false, 0
 			for _, s := range []*Summary{got, want} { // line numbers differ with the order

@@ -35,6 +35,11 @@ import (
 // spillParts is the number of hash partitions.
 const spillParts = 256
 
+// loadMargin is how far the merge's buffers may take memory past the
+// budget before the rows still held are spilled too (a variable for
+// tests).
+var loadMargin int64 = 32 << 20
+
 // spill holds the rows of one table split into hash partitions.
 type spill struct {
 	dir    string
@@ -352,11 +357,30 @@ func partitioned(a, b Table, acc *acc, dir string) (int64, error) {
 			first = err
 		}
 	}
-	spills[0].done()
-	spills[1].done()
 	if first != nil {
 		return 0, first
 	}
+	// The merge holds up to about ten partitions' worth of records at once
+	// (the batch pool and the two loaders' buffers). When that, on top of
+	// the chunks still in memory, would pass the budget by more than
+	// loadMargin (very large spilled inputs, whose partitions are large),
+	// the chunks go to the spill file first, so that the merge has the
+	// whole budget.
+	var most int64
+	for p := range spillParts {
+		for _, sp := range spills {
+			most = max(most, sp.parts[p].onDisk+int64(sp.bytesIn(p)))
+		}
+	}
+	if spills[0].Spilled+spills[1].Spilled > 0 && spills[0].held+spills[1].held+10*most > acc.o.MemBudget+loadMargin {
+		for _, sp := range spills {
+			if err := sp.flush(); err != nil {
+				return 0, err
+			}
+		}
+	}
+	spills[0].done()
+	spills[1].done()
 	spilled := spills[0].Spilled + spills[1].Spilled
 
 	// Two workers load and sort partitions (A's and B's of the same
