@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"encoding/json"
+	"encoding/xml"
 	"fmt"
 	"html"
 	"os"
@@ -268,6 +269,47 @@ func TestSyncPageInChromium(t *testing.T) {
 			if out, err := exec.Command(bin, append(chromiumArgs(dir, 1280)[:len(args)-1], "--window-size=1280,720", "--screenshot="+shot, "file://"+filepath.Join(dir, "sync.html"))...).CombinedOutput(); err != nil {
 				t.Errorf("screenshot: %v\n%s", err, out)
 			}
+		}
+	}
+}
+
+// The JUnit document parses back (encoding/xml) with one case per
+// variable and per cut plus the matching, failing exactly where the
+// result fails; the Markdown has the verdict, a row per variable and per
+// cut, and the input order.
+func TestSyncJUnitAndMarkdown(t *testing.T) {
+	r := syncFixture(t, nil)
+	var buf bytes.Buffer
+	if err := SyncJUnit(&buf, r); err != nil {
+		t.Fatal(err)
+	}
+	var doc junitSuites
+	if err := xml.Unmarshal(buf.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	wantFail := 0
+	for _, v := range r.Variables {
+		if !v.Pass {
+			wantFail++
+		}
+	}
+	for _, s := range r.Steps {
+		if s.Differs {
+			wantFail++
+		}
+	}
+	if doc.Tests != 1+len(r.Variables)+len(r.Steps) || doc.Failures != wantFail || wantFail == 0 {
+		t.Errorf("JUnit: %d tests, %d failures; want %d and %d", doc.Tests, doc.Failures, 1+len(r.Variables)+len(r.Steps), wantFail)
+	}
+	buf.Reset()
+	if err := SyncMarkdown(&buf, r); err != nil {
+		t.Fatal(err)
+	}
+	md := buf.String()
+	for _, want := range []string{"## Event sync heron vs otter: **disagree**", "| energy | **fail** |", "| **quality** (the chains part here) |",
+		"Tables not sorted by key", "### Overlap per bin of energy"} {
+		if !strings.Contains(md, want) {
+			t.Errorf("Markdown lacks %q", want)
 		}
 	}
 }
