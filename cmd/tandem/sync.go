@@ -146,6 +146,13 @@ func runSync(e *env, args []string) error {
 	if sf.unmatchedOut != "" {
 		opt.Unmatched = &unmatched
 	}
+	// The budget bounds the rows held; the soft limit makes the garbage
+	// collector return what the unsorted path frees (its chunks after the
+	// reading, its sort buffers) before the heap grows past the budget plus
+	// a margin for buffers and the runtime. GOMEMLIMIT, when set, wins.
+	if os.Getenv("GOMEMLIMIT") == "" {
+		debug.SetMemoryLimit(opt.MemBudget + syncMemMargin)
+	}
 	var prog *progressLine
 	if f, ok := e.stderr.(*os.File); ok && isTerminal(f) {
 		prog = &progressLine{w: f, start: time.Now()}
@@ -429,13 +436,6 @@ func (sf *syncFlags) options() (events.Options, error) {
 		return o, usageErr("--mem must be at least 1")
 	}
 	o.MemBudget = int64(sf.memMB) << 20
-	// The budget bounds the rows held; the soft limit makes the garbage
-	// collector return what the unsorted path frees (its chunks after the
-	// reading, its sort buffers) before the heap grows past the budget plus
-	// a margin for buffers and the runtime. GOMEMLIMIT, when set, wins.
-	if os.Getenv("GOMEMLIMIT") == "" {
-		debug.SetMemoryLimit(o.MemBudget + syncMemMargin)
-	}
 	o.TempDir, o.LabelA, o.LabelB = sf.tempDir, sf.labelA, sf.labelB
 	return o, nil
 }
