@@ -20,17 +20,17 @@ import (
 // not wrap (wide tables scroll), and in running text every number is kept
 // whole. Every text in a figure is at least 12 px at its natural size.
 
-const syncCSS = `body{font-family:system-ui,sans-serif;margin:1.2em auto;max-width:66em;padding:0 1em;color:#1c2430;line-height:1.45;font-size:16px}
+const syncCSS = `body{font-family:system-ui,sans-serif;margin:1.2em auto;max-width:74em;padding:0 1em;color:#1c2430;line-height:1.45;font-size:16px}
 h1{font-size:1.45em;margin:.2em 0 .6em}h2{font-size:1.15em;border-top:1px solid #ccd;padding-top:.7em;margin-top:1.6em}
 .banner{border-radius:8px;padding:.7em 1em;margin:.4em 0 1em;border:2px solid}
 .banner b{font-size:1.6em;letter-spacing:.04em;margin-right:.6em}
 .banner.pass{background:#e7f4ea;border-color:#1d6b35;color:#124a24}.banner.fail{background:#fbe9e9;border-color:#a4161a;color:#7a1012}
 .banner ul{margin:.4em 0 0;padding-left:1.2em;font-weight:400}
 .pass{color:#1d6b35}.fail{color:#a4161a;font-weight:600}
-table{border-collapse:collapse;margin:.5em 0}td,th{padding:.2em .65em;border-bottom:1px solid #e3e6ea;text-align:right;white-space:nowrap}
+table{border-collapse:collapse;margin:.5em 0}td,th{padding:.2em .55em;border-bottom:1px solid #e3e6ea;text-align:right;white-space:nowrap}
 th{text-align:left;background:#f3f5f8;white-space:normal;vertical-align:bottom}td:first-child{text-align:left}
 tr.split td{background:#fde8e8;font-weight:600}tr.first td{background:#fff6e5}
-.n{white-space:nowrap}
+.n{white-space:nowrap}.k{color:#4a5263;font-size:.9em}
 svg{background:#fff;border:1px solid #e3e6ea;max-width:100%;height:auto}.figs{display:flex;flex-wrap:wrap;gap:.8em}
 .note{background:#f6f7f9;padding:.4em .8em;border-left:3px solid #8893a4}
 .wide{overflow-x:auto}
@@ -71,15 +71,21 @@ func SyncHTML(w io.Writer, r *events.Result) error {
 		fmt.Fprintf(ew, "<p class=\"note\">%s partitions merged.</p>\n", escNums(fmt.Sprint(r.Parts)))
 	}
 	if len(r.Variables) > 0 {
-		fmt.Fprintln(ew, "<h2>Variables</h2>\n<div class=\"wide\"><table><tr><th>variable</th><th></th><th>outside</th><th>fraction</th><th>max |a−b|</th><th>at</th><th>max rel</th><th>at</th><th>r50</th><th>r99</th><th>tolerance</th></tr>")
+		fmt.Fprintln(ew, "<h2>Variables</h2>\n<div class=\"wide\"><table><tr><th>variable</th><th></th><th>outside</th><th>fraction</th><th>max |a−b|<br>at</th><th>max rel<br>at</th><th>r50</th><th>r99</th><th>tolerance</th></tr>")
+		at := func(k []int64) string {
+			if len(k) == 0 {
+				return ""
+			}
+			return `<br><span class="k">` + esc(keyStr(r, k)) + `</span>`
+		}
 		for _, v := range r.Variables {
 			name := v.Name
 			if v.Blinded {
 				name += " (blinded)"
 			}
-			fmt.Fprintf(ew, "<tr><td>%s</td><td>%s</td><td>%d / %d</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td></tr>\n",
-				esc(name), verdictSpan(v.Pass), v.Outside, v.Compared, num(v.Fraction), num(v.MaxAbs.Value), esc(keyStr(r, v.MaxAbs.Key)),
-				num(v.MaxRel.Value), esc(keyStr(r, v.MaxRel.Key)), num(v.Quantiles[0]), num(v.Quantiles[2]), esc(tolStr(v.Tol)))
+			fmt.Fprintf(ew, "<tr><td>%s</td><td>%s</td><td>%d / %d</td><td>%s</td><td>%s%s</td><td>%s%s</td><td>%s</td><td>%s</td><td>%s</td></tr>\n",
+				esc(name), verdictSpan(v.Pass), v.Outside, v.Compared, num(v.Fraction), num(v.MaxAbs.Value), at(v.MaxAbs.Key),
+				num(v.MaxRel.Value), at(v.MaxRel.Key), num(v.Quantiles[0]), num(v.Quantiles[2]), "abs "+num(v.Tol.Abs)+"<br>rel "+num(v.Tol.Rel))
 		}
 		fmt.Fprintln(ew, "</table></div>\n<p>r50 and r99 bound the median and the 99th percentile of the relative difference from above (read from the histogram, never beyond the largest value).</p>\n<div class=\"figs\">")
 		for _, v := range r.Variables {
@@ -350,9 +356,9 @@ func tolBin(rel float64) int {
 	return 2 + int(math.Floor((math.Log10(rel)-events.HistLow)*events.HistPerDecade))
 }
 
-// countLabel writes 1, 10, 100, 1000, then 10⁴, 10⁵, …
+// countLabel writes 1, 10, then 10², 10³, …
 func countLabel(c float64) string {
-	if c < 1e4 {
+	if c < 100 {
 		return fmt.Sprintf("%.0f", c)
 	}
 	return "10" + superscript(int(math.Round(math.Log10(c))))

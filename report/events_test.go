@@ -219,7 +219,7 @@ func TestSyncPageInChromium(t *testing.T) {
 		}
 		page := buf.String()
 		for _, want := range []string{`<div class="banner fail" role="status"><b>DISAGREE</b>`, `aria-label="cut-flow efficiencies"`,
-			`>events</text>`, `>relative difference |a−b| / max(|a|, |b|)</text>`, `>1000</text>`, `>10⁴</text>`} {
+			`>events</text>`, `>relative difference |a−b| / max(|a|, |b|)</text>`, `>10³</text>`, `>10⁴</text>`} {
 			if !strings.Contains(page, want) {
 				t.Errorf("%s: page lacks %q", c.name, want)
 			}
