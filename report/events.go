@@ -12,7 +12,7 @@ import (
 )
 
 // SyncFormats lists the output formats of an event-level synchronisation.
-var SyncFormats = []string{"text", "json", "html"}
+var SyncFormats = []string{"text", "json", "markdown", "junit", "html"}
 
 // RenderSync writes an event-level synchronisation in the named format.
 // Free text is shown escaped (see [EscapeText]).
@@ -22,10 +22,14 @@ func RenderSync(w io.Writer, format string, r *events.Result, st Style) error {
 		return SyncText(w, r, st)
 	case "json":
 		return SyncJSON(w, r)
+	case "markdown":
+		return SyncMarkdown(w, r)
+	case "junit":
+		return SyncJUnit(w, r)
 	case "html":
 		return SyncHTML(w, r)
 	}
-	return fmt.Errorf("unknown format %q (want text, json or html)", format)
+	return fmt.Errorf("unknown format %q (want %s)", format, strings.Join(SyncFormats, ", "))
 }
 
 func syncVerdict(r *events.Result) string {
@@ -78,6 +82,7 @@ func SyncText(w io.Writer, r *events.Result, st Style) error {
 	}
 	fmt.Fprintf(ew, "\nevents: %d common, %d only in %s, %d only in %s (McNemar p = %s, for information)\n",
 		r.Common, r.OnlyA, r.LabelA, r.OnlyB, r.LabelB, pval(r.PValue))
+	fmt.Fprintf(ew, "  %s\n", inputOrder(r))
 	sample := func(label string, keys [][]int64, n int64) {
 		if n == 0 {
 			return
@@ -238,13 +243,14 @@ type jsonSync struct {
 	Failures        []string       `json:"failures"`
 	Parts           int            `json:"parts"`
 	Spilled         bool           `json:"spilled"`
+	SpilledBytes    int64          `json:"spilled_bytes"`
 }
 
 // SyncJSONValue builds the JSON document of r.
 func SyncJSONValue(r *events.Result) any {
 	out := jsonSync{Verdict: syncVerdict(r), LabelA: r.LabelA, LabelB: r.LabelB, Keys: r.Keys,
 		Variables: []jsonSyncVar{}, Cutflow: []jsonStep{}, Alpha: r.Alpha, CL: r.CL, Worst: r.Worst,
-		Failures: r.Failures, Parts: r.Parts, Spilled: r.Spilled}
+		Failures: r.Failures, Parts: r.Parts, Spilled: r.Spilled, SpilledBytes: r.SpilledBytes}
 	if out.Failures == nil {
 		out.Failures = []string{}
 	}

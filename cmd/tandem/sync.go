@@ -3,13 +3,16 @@ package main
 import (
 	"bytes"
 	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"math"
 	"os"
+	"runtime/debug"
 	"slices"
 	"strconv"
 	"strings"
+	"time"
 
 	"tandem/blind/protocol"
 	"tandem/blind/safefile"
@@ -28,10 +31,27 @@ flows with McNemar's exact test on the events one chain keeps and the other
 drops. A and B are CSV or TSV files (header row), Parquet files (.parquet)
 or ROOT trees (file.root:tree, file.root:dir/tree).
 
-Variables: --var names them (repeatable); otherwise every numeric column
-both tables have that is not a key or a cut. Tolerance per variable:
---tol NAME=ABS[,REL] means |a-b| <= max(ABS, REL*max(|a|,|b|)); the default
-is ABS 0, REL 1e-9.
+Variables: --var names them (repeatable); otherwise every numeric or
+boolean column both tables have that is not a key or a cut (booleans may be
+spelt 1/0, true/false in any case, or T/F, and count as 1 and 0).
+Tolerance per variable: --tol NAME=ABS[,REL] means
+|a-b| <= max(ABS, REL*max(|a|,|b|)). The default, ABS 0 and REL 1e-5, is set
+by what chains store: float32 keeps a relative unit roundoff of 2^-24
+(about 6e-8), and two values printed to 6 significant digits differ by up
+to one unit in the sixth digit (1e-5 of the value). Values printed with a
+fixed number of decimals need an ABS for their last decimal; chains that
+must agree to float64 rounding can ask for --tol NAME=0,1e-12.
+
+Output: text on stdout, or --format text|json|markdown|junit|html; with
+-o FILE the extension chooses the format (.txt .json .md .xml .html), and
+a --format that contradicts it is refused.
+
+Unsorted tables (events in processing order) are hash-partitioned on the
+key: --mem MB of rows stay in memory (default 256; the process stays
+within about MB + 64), the rest goes to --temp-dir and is removed
+afterwards. The report says whether the tables were sorted and how much
+spilled. A long run shows its progress on stderr when stderr is a
+terminal.
 
 In a campaign: --campaign DIR applies the map of every event-level
 variable the protocol's [events] table names blinded to both tables
@@ -51,6 +71,9 @@ Example:
     tandem sync heron.csv otter.parquet --key run,event --cuts trigger,quality,fiducial \
         --tol energy=0,1e-6 --bin-var energy --bin-edges 0,10,20,50 --overlap-out rho.csv
 `
+
+// syncMemMargin is the memory sync allows itself beyond --mem.
+const syncMemMargin = 48 << 20
 
 type syncFlags struct {
 	keys, cuts, edges, binVar string
@@ -81,8 +104,8 @@ func runSync(e *env, args []string) error {
 	fs.StringVar(&sf.overlapOut, "overlap-out", "", "write the per-bin overlap (lo,hi,n_a,n_b,n_common,rho) to `FILE`")
 	fs.StringVar(&sf.unmatchedOut, "unmatched-out", "", "write every unmatched key (side,keys…,position) to `FILE`")
 	fs.StringVar(&sf.summaryOut, "summary-out", "", "write the summary for \"tandem sync merge\" to `FILE`")
-	fs.StringVar(&sf.format, "format", "text", "output `FORMAT`: text, json or html")
-	stringVar(fs, &sf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout")
+	fs.StringVar(&sf.format, "format", "text", "output `FORMAT`: text, json, markdown, junit or html (default: from the -o extension, else text)")
+	stringVar(fs, &sf.output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout; its extension chooses the format")
 	fs.StringVar(&sf.labelA, "label-a", "", "name of chain A in the report (default: the file name)")
 	fs.StringVar(&sf.labelB, "label-b", "", "name of chain B in the report")
 	fs.StringVar(&sf.tempDir, "temp-dir", "", "`DIR` for spilling unsorted inputs (default the system's)")
@@ -91,6 +114,9 @@ func runSync(e *env, args []string) error {
 	stringVar(fs, &sf.identity, []string{"identity", "i"}, "", "custodian identity `FILE` (age or SSH) that opens the campaign key")
 	pos, err := parse(fs, args)
 	if err != nil {
+		return err
+	}
+	if sf.format, sf.output, err = syncFormat(fs, sf.format, sf.output); err != nil {
 		return err
 	}
 	if len(pos) != 2 {
@@ -120,7 +146,20 @@ func runSync(e *env, args []string) error {
 	if sf.unmatchedOut != "" {
 		opt.Unmatched = &unmatched
 	}
+	// The budget bounds the rows held; the soft limit makes the garbage
+	// collector return what the unsorted path frees (its chunks after the
+	// reading, its sort buffers) before the heap grows past the budget plus
+	// a margin for buffers and the runtime. GOMEMLIMIT, when set, wins.
+	if os.Getenv("GOMEMLIMIT") == "" {
+		debug.SetMemoryLimit(opt.MemBudget + syncMemMargin)
+	}
+	var prog *progressLine
+	if f, ok := e.stderr.(*os.File); ok && isTerminal(f) {
+		prog = &progressLine{w: f, start: time.Now()}
+		opt.Progress = prog.show
+	}
 	s, err := events.Sync(tabs[0], tabs[1], opt)
+	prog.end()
 	if err != nil {
 		var te *table.Error
 		if errors.As(err, &te) {
@@ -201,6 +240,67 @@ func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Table, opt *events.Opt
 	return nil
 }
 
+// syncFormat settles the report format: an -o extension chooses it, and
+// an explicit --format must not contradict it. "-o -" is the standard
+// output.
+func syncFormat(fs *flag.FlagSet, format, output string) (string, string, error) {
+	given := false
+	fs.Visit(func(f *flag.Flag) { given = given || f.Name == "format" })
+	if output == "-" {
+		output = ""
+	}
+	if given && !slices.Contains(report.SyncFormats, format) {
+		return "", "", usageErr("--format %q is not one of %s", format, strings.Join(report.SyncFormats, ", "))
+	}
+	if output == "" {
+		return format, output, nil
+	}
+	ext, ok := formatFromPath(output)
+	switch {
+	case !ok && !given:
+		return "", "", withHint(usageErr("cannot tell the format of %s from its extension", output),
+			"use .txt, .json, .md, .xml or .html, or give --format")
+	case ok && given && ext != format:
+		return "", "", withHint(usageErr("--format %s contradicts -o %s, whose extension means %s", format, output, ext),
+			fmt.Sprintf("drop --format, or name the file for %s output", format))
+	case ok:
+		format = ext
+	}
+	return format, output, nil
+}
+
+// progressLine shows a long synchronisation's progress on a terminal:
+// nothing in the first two seconds, then one line rewritten in place at
+// most twice a second, erased at the end.
+type progressLine struct {
+	w     io.Writer
+	start time.Time
+	last  time.Time
+	shown bool
+}
+
+func (p *progressLine) show(pr events.Progress) {
+	now := time.Now()
+	if now.Sub(p.start) < 2*time.Second || now.Sub(p.last) < 500*time.Millisecond {
+		return
+	}
+	p.last, p.shown = now, true
+	msg := fmt.Sprintf("tandem: sync: %.1f M rows read", float64(pr.Rows[0]+pr.Rows[1])/1e6)
+	if pr.Unsorted {
+		msg += " (tables not sorted by key: partitioning)"
+	}
+	if pr.Parts > 0 {
+		msg = fmt.Sprintf("tandem: sync: %d of %d partitions merged", pr.PartsDone, pr.Parts)
+	}
+	fmt.Fprintf(p.w, "\r\x1b[K%s, %.0f s", msg, now.Sub(p.start).Seconds())
+}
+
+func (p *progressLine) end() {
+	if p != nil && p.shown {
+		fmt.Fprint(p.w, "\r\x1b[K")
+	}
+}
+
 // checkOutputs refuses an output that is also an input or another output.
 func checkOutputs(inputs, outs []string) error {
 	for i, o := range outs {
@@ -265,9 +365,6 @@ func splitList(s string) []string {
 // options checks the flags before any file is read.
 func (sf *syncFlags) options() (events.Options, error) {
 	var o events.Options
-	if !slices.Contains(report.SyncFormats, sf.format) {
-		return o, usageErr("--format %q is not one of %s", sf.format, strings.Join(report.SyncFormats, ", "))
-	}
 	keys := splitList(sf.keys)
 	if len(keys) == 0 {
 		return o, withHint(usageErr("sync needs --key"), "name the columns that identify an event, e.g. --key run,event")
@@ -346,8 +443,8 @@ func (sf *syncFlags) options() (events.Options, error) {
 func runSyncMerge(e *env, args []string) error {
 	fs := newFlags(e, "sync merge", syncHelp)
 	var format, output, overlapOut string
-	fs.StringVar(&format, "format", "text", "output `FORMAT`: text, json or html")
-	stringVar(fs, &output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout")
+	fs.StringVar(&format, "format", "text", "output `FORMAT`: text, json, markdown, junit or html (default: from the -o extension, else text)")
+	stringVar(fs, &output, []string{"o", "output"}, "", "write the report to `FILE` (atomically) instead of stdout; its extension chooses the format")
 	fs.StringVar(&overlapOut, "overlap-out", "", "write the merged per-bin overlap to `FILE`")
 	var summaryOut string
 	fs.StringVar(&summaryOut, "summary-out", "", "write the merged summary to `FILE`")
@@ -355,8 +452,8 @@ func runSyncMerge(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if !slices.Contains(report.SyncFormats, format) {
-		return usageErr("--format %q is not one of %s", format, strings.Join(report.SyncFormats, ", "))
+	if format, output, err = syncFormat(fs, format, output); err != nil {
+		return err
 	}
 	if len(pos) == 0 {
 		return withHint(usageErr("sync merge wants one or more summary files"), "write them with tandem sync … --summary-out FILE")
@@ -377,6 +474,10 @@ func runSyncMerge(e *env, args []string) error {
 		parts = append(parts, s)
 	}
 	s, warns, err := events.Merge(parts, pos)
+	var dup *events.DuplicateError
+	if errors.As(err, &dup) {
+		return withHint(inputErr(err), "name each partition's summary once (a glob that matched a file twice, or a copy of it?)")
+	}
 	if err != nil {
 		return inputErr(err)
 	}

@@ -195,3 +195,104 @@ func BenchmarkSyncBlindedCSV(b *testing.B) {
 		}
 	}
 }
+
+// syncBenchFiles writes the tables of the sync workload the README times:
+// n events in A, 95 % of them in B plus as many of B's own, two float
+// variables (x with six decimals, y with nine significant digits) and two
+// 0/1 cuts, each table once sorted by (run, event) and once in an order of
+// its own (a fixed permutation per chain, as chains write events in
+// processing order). Files: sync_{a,b}_{sorted,shuffled}_N.csv.
+func syncBenchFiles(tb testing.TB, n int) string {
+	dir := *benchDir
+	if dir == "" {
+		dir = tb.TempDir()
+	}
+	last := filepath.Join(dir, fmt.Sprintf("sync_b_shuffled_%d.csv", n))
+	if _, err := os.Stat(last); err == nil {
+		return dir
+	}
+	rng := rand.New(rand.NewPCG(7, 11))
+	var rows [2][][]byte
+	line := func(run, ev int64, x, y float64, c1, c2 int) []byte {
+		b := strconv.AppendInt(nil, run, 10)
+		b = append(b, ',')
+		b = strconv.AppendInt(b, ev, 10)
+		b = append(b, ',')
+		b = strconv.AppendFloat(b, x, 'f', 6, 64)
+		b = append(b, ',')
+		b = strconv.AppendFloat(b, y, 'g', 9, 64)
+		b = append(b, ',', byte('0'+c1), ',', byte('0'+c2), '\n')
+		return b
+	}
+	for i := 0; i < n; i++ {
+		run, ev := int64(1+i/100000), int64(2*i)
+		x := float64(rng.IntN(2_000_000_000)) / 1e6
+		y := rng.ExpFloat64() * 40
+		c1, c2 := rng.IntN(10) < 9, rng.IntN(10) < 7
+		rows[0] = append(rows[0], line(run, ev, x, y, bit(c1), bit(c1 && c2)))
+		if rng.IntN(20) != 0 {
+			if rng.IntN(100) == 0 {
+				y *= 1 + 1e-7
+			}
+			if rng.IntN(1000) == 0 {
+				c2 = !c2
+			}
+			rows[1] = append(rows[1], line(run, ev, x, y, bit(c1), bit(c1 && c2)))
+		} else {
+			rows[1] = append(rows[1], line(run, ev+1, float64(rng.IntN(2_000_000_000))/1e6, rng.ExpFloat64()*40, 1, 1))
+		}
+	}
+	write := func(name string, rs [][]byte) {
+		f, err := os.Create(filepath.Join(dir, name))
+		if err != nil {
+			tb.Fatal(err)
+		}
+		w := bufio.NewWriterSize(f, 1<<20)
+		w.WriteString("run,event,x,y,c1,c2\n")
+		for _, r := range rs {
+			w.Write(r)
+		}
+		if err := w.Flush(); err != nil {
+			tb.Fatal(err)
+		}
+		if err := f.Close(); err != nil {
+			tb.Fatal(err)
+		}
+	}
+	for side, s := range []string{"a", "b"} {
+		write(fmt.Sprintf("sync_%s_sorted_%d.csv", s, n), rows[side])
+		p := rand.New(rand.NewPCG(uint64(13+side), 17))
+		p.Shuffle(len(rows[side]), func(i, j int) { rows[side][i], rows[side][j] = rows[side][j], rows[side][i] })
+	}
+	// write B's shuffled table last: its presence means the set is complete
+	write(fmt.Sprintf("sync_a_shuffled_%d.csv", n), rows[0])
+	write(fmt.Sprintf("sync_b_shuffled_%d.csv", n), rows[1])
+	return dir
+}
+
+func benchSyncOrder(b *testing.B, order string) {
+	n := *benchRows
+	dir := syncBenchFiles(b, n)
+	b.ResetTimer()
+	for b.Loop() {
+		ta, err := OpenCSV(filepath.Join(dir, fmt.Sprintf("sync_a_%s_%d.csv", order, n)))
+		if err != nil {
+			b.Fatal(err)
+		}
+		tb, err := OpenCSV(filepath.Join(dir, fmt.Sprintf("sync_b_%s_%d.csv", order, n)))
+		if err != nil {
+			b.Fatal(err)
+		}
+		s, err := Sync(ta, tb, Options{Layout: Layout{Keys: []string{"run", "event"}, Cuts: []string{"c1", "c2"}}})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if s.Common < int64(n)*9/10 || s.Spilled != (order == "shuffled") {
+			b.Fatalf("common %d, spilled %v", s.Common, s.Spilled)
+		}
+	}
+}
+
+// go test ./compare/events -run XXX -bench SyncOrder -benchmem -benchdir /tmp/evbench -benchrows 2000000
+func BenchmarkSyncOrderSorted(b *testing.B)   { benchSyncOrder(b, "sorted") }
+func BenchmarkSyncOrderShuffled(b *testing.B) { benchSyncOrder(b, "shuffled") }

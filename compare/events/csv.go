@@ -227,13 +227,17 @@ func (t *csvTable) Scan(l Layout, fn func(*Batch) error) error {
 			case asVar:
 				v, ok := parseFloat(f)
 				if !ok {
-					return t.fieldErr(no, line, start, k, "column %q: cannot parse %s as a number", f)
+					var bv bool
+					if bv, ok = parseBool(f); !ok {
+						return t.fieldErr(no, line, start, k, "column %q: cannot parse %s as a number or a boolean", f)
+					}
+					v = float64(bit(bv))
 				}
 				vals[dest[k]] = v
 			case asCut:
 				v, ok := parseBool(f)
 				if !ok {
-					return t.fieldErr(no, line, start, k, "cut column %q: %s is not 0, 1, true or false", f)
+					return t.fieldErr(no, line, start, k, "cut column %q: %s is not a boolean (1/0, true/false, T/F in any case)", f)
 				}
 				if v {
 					cuts |= 1 << dest[k]
@@ -350,14 +354,37 @@ func parseInt(f []byte) (int64, bool) {
 	return int64(m), true
 }
 
+// parseBool reads a boolean as the tools that write event tables spell
+// it: 1 and 0 (C, ROOT, numpy integers), true and false in any case
+// (pandas writes True/False, R TRUE/FALSE, JSON-minded tools true/false)
+// and T and F in either case (R's and Fortran's short forms).
 func parseBool(f []byte) (bool, bool) {
-	switch string(f) {
-	case "1", "true", "True", "TRUE":
-		return true, true
-	case "0", "false", "False", "FALSE":
-		return false, true
+	switch len(f) {
+	case 1:
+		switch f[0] {
+		case '1', 'T', 't':
+			return true, true
+		case '0', 'F', 'f':
+			return false, true
+		}
+	case 4:
+		if bytes.EqualFold(f, []byte("true")) {
+			return true, true
+		}
+	case 5:
+		if bytes.EqualFold(f, []byte("false")) {
+			return false, true
+		}
 	}
 	return false, false
+}
+
+// bit is 1 for true and 0 for false.
+func bit(v bool) int {
+	if v {
+		return 1
+	}
+	return 0
 }
 
 // parseFloat parses a number: the strict grammar of compare/table, with its

@@ -2,6 +2,7 @@ package events
 
 import (
 	"bytes"
+	"errors"
 	"strconv"
 	"tandem/compare/fuzzseed"
 	"testing"
@@ -83,17 +84,21 @@ func FuzzSummary(f *testing.F) {
 		if err != nil {
 			return
 		}
-		m, _, err := Merge([]*Summary{s, s}, []string{"x", "y"})
+		var dup *DuplicateError
+		if _, _, err := Merge([]*Summary{s, s}, []string{"x", "y"}); !errors.As(err, &dup) {
+			t.Fatalf("a summary merged with itself: %v", err)
+		}
+		m, _, err := Merge([]*Summary{s}, []string{"x"})
 		if err != nil {
-			t.Fatalf("a valid summary does not merge with itself: %v", err)
+			t.Fatalf("a valid summary does not merge: %v", err)
 		}
 		r := Evaluate(m)
 		var buf bytes.Buffer
 		if err := r.WriteOverlapIfBinned(&buf); err != nil {
 			t.Fatal(err)
 		}
-		if m.Common != 2*s.Common {
-			t.Fatal("merge did not add")
+		if m.Common != s.Common || m.RowsA != s.RowsA {
+			t.Fatal("merge of one summary changed its counts")
 		}
 	})
 }

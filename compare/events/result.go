@@ -2,6 +2,8 @@ package events
 
 import (
 	"bufio"
+	"bytes"
+	"crypto/sha256"
 	"fmt"
 	"io"
 	"math"
@@ -42,9 +44,8 @@ type Efficiency struct {
 	Value, Lo, Hi float64
 }
 
-// Quantiles of the relative differences read from the histogram: each is
-// the upper edge of the bin where the cumulative fraction reaches the level
-// (so r is at most that value for that fraction of the events).
+// QuantileLevels are the levels of the quantiles of the relative
+// differences shown in reports (see [Quantile]).
 var QuantileLevels = []float64{0.5, 0.9, 0.99, 0.999}
 
 // VarResult is the derived view of one variable.
@@ -139,28 +140,46 @@ func eff(k, n int64, cl float64) Efficiency {
 	return e
 }
 
-// Quantile returns the upper edge of the histogram bin where the
-// cumulative fraction of h reaches q (0 when that bin is r = 0).
-func Quantile(h []int64, q float64) float64 {
+// Quantile returns an upper bound of the q-quantile of the relative
+// differences counted in h, whose largest value is largest: with n the
+// count and k = ⌈q·n⌉, the k-th smallest value lies in the first bin where the
+// cumulative count reaches k, so it is at most that bin's upper edge, and
+// at most the largest value. The bound is therefore
+//
+//	min(upper edge of that bin, largest)
+//
+// 0 when that bin is r = 0, and the largest value itself when the k-th
+// value lies in the last occupied bin. It never exceeds the largest value,
+// never falls below the smallest value, and is at most one bin width (a
+// factor 10^(1/HistPerDecade)) above the exact quantile. NaN when h is
+// empty.
+func Quantile(h []int64, q, largest float64) float64 {
 	var n int64
-	for _, c := range h {
+	last := -1
+	for i, c := range h {
 		n += c
+		if c > 0 {
+			last = i
+		}
 	}
 	if n == 0 {
 		return math.NaN()
 	}
-	need := int64(math.Ceil(q * float64(n)))
+	need := max(1, int64(math.Ceil(q*float64(n))))
 	var run int64
 	for i, c := range h {
 		run += c
 		if run >= need && c > 0 {
-			if i == 0 {
+			switch {
+			case i == 0:
 				return 0
+			case i == last:
+				return largest
 			}
-			return HistEdge(i + 1)
+			return math.Min(HistEdge(i+1), largest)
 		}
 	}
-	return HistEdge(len(h))
+	return largest
 }
 
 // Evaluate derives the per-step tests, the per-variable view and the
@@ -174,7 +193,7 @@ func Evaluate(s *Summary) *Result {
 			vr.Fraction = float64(st.Outside) / float64(st.Compared)
 		}
 		for _, q := range QuantileLevels {
-			vr.Quantiles = append(vr.Quantiles, Quantile(st.Hist, q))
+			vr.Quantiles = append(vr.Quantiles, Quantile(st.Hist, q, st.MaxRel.Value))
 		}
 		if !vr.Pass {
 			r.Pass = false
@@ -303,10 +322,20 @@ func Merge(parts []*Summary, names []string) (*Summary, []string, error) {
 		out.Stats = append(out.Stats, VarStats{Hist: make([]int64, HistBins+2)})
 	}
 	var warns []string
+	seen := map[[32]byte]int{}
 	for i, p := range parts {
 		if err := sameShape(first, p); err != nil {
 			return nil, nil, fmt.Errorf("%s: %v (differs from %s)", names[i], err, names[0])
 		}
+		var enc bytes.Buffer
+		if err := WriteSummary(&enc, p); err != nil {
+			return nil, nil, err
+		}
+		d := sha256.Sum256(enc.Bytes())
+		if j, dup := seen[d]; dup {
+			return nil, nil, &DuplicateError{First: names[j], Second: names[i]}
+		}
+		seen[d] = i
 		for j := 0; j < i; j++ {
 			q := parts[j]
 			if p.KeyMin != nil && q.KeyMin != nil && compareKeys(p.KeyMin, q.KeyMax) <= 0 && compareKeys(q.KeyMin, p.KeyMax) <= 0 {
@@ -320,6 +349,7 @@ func Merge(parts []*Summary, names []string) (*Summary, []string, error) {
 		out.OnlyA += p.OnlyA
 		out.OnlyB += p.OnlyB
 		out.Spilled = out.Spilled || p.Spilled
+		out.SpilledBytes += p.SpilledBytes
 		if p.KeyMin != nil {
 			out.seeKey(p.KeyMin)
 			out.seeKey(p.KeyMax)
@@ -358,6 +388,17 @@ func Merge(parts []*Summary, names []string) (*Summary, []string, error) {
 		}
 	}
 	return out, warns, nil
+}
+
+// DuplicateError is returned by [Merge] when two summaries are the same:
+// merging them would count every event twice.
+type DuplicateError struct{ First, Second string }
+
+func (e *DuplicateError) Error() string {
+	if e.First == e.Second {
+		return fmt.Sprintf("%s is named twice: merging it again would count every event twice", e.First)
+	}
+	return fmt.Sprintf("%s and %s hold the same summary: merging both would count every event twice", e.First, e.Second)
 }
 
 func addInto(dst, src []int64) {

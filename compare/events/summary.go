@@ -16,9 +16,24 @@ type Tolerance struct {
 	Rel float64 `json:"rel"`
 }
 
-// DefaultTolerance serves variables without a tolerance of their own:
-// agreement to about the last digits a float64 dump keeps.
-var DefaultTolerance = Tolerance{Abs: 0, Rel: 1e-9}
+// DefaultTolerance serves variables without a tolerance of their own. It
+// is set by the precision chains store, not by float64 arithmetic:
+//
+//   - a float32 branch keeps 24 bits, a unit roundoff of 2⁻²⁴ ≈ 6.0e-8
+//     (IEEE 754), so one chain storing float32 and the other float64, or
+//     both float32 one unit in the last place apart, differ by up to
+//     2⁻²³ ≈ 1.2e-7 relative;
+//   - a value printed to 6 significant digits (C's %g, numpy's %.6g) is
+//     rounded by up to 5e-6 of itself, and two chains that print nearly
+//     equal values round them apart by up to one unit in the sixth digit,
+//     at most 1e-5 of the value.
+//
+// Rel = 1e-5 therefore passes what storage and printing alone make differ,
+// and still fails any change a physicist would call real (a calibration or
+// a correction moves values by 1e-4 or more). Abs = 0: near zero a relative
+// rule is the strict one; values printed with a fixed number of decimals
+// need --tol NAME=ABS for their last decimal.
+var DefaultTolerance = Tolerance{Abs: 0, Rel: 1e-5}
 
 // VarSpec describes one compared variable.
 type VarSpec struct {
@@ -166,8 +181,11 @@ type Summary struct {
 	// KeyMin and KeyMax bound the keys of both tables (nil when empty).
 	KeyMin []int64 `json:"key_min"`
 	KeyMax []int64 `json:"key_max"`
-	// Spilled tells that the inputs were not both sorted by key.
-	Spilled bool `json:"spilled"`
+	// Spilled tells that the inputs were not both sorted by key, so they
+	// were hash-partitioned; SpilledBytes counts the bytes of rows that
+	// did not fit the memory budget and went to the temporary folder.
+	Spilled      bool  `json:"spilled"`
+	SpilledBytes int64 `json:"spilled_bytes,omitempty"`
 
 	Stats []VarStats `json:"var_stats"`
 	// PassA[s] and PassB[s] count the rows that pass exactly the first s

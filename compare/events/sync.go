@@ -12,6 +12,7 @@ import (
 	"slices"
 	"sort"
 	"strconv"
+	"sync"
 )
 
 // Affine is a blinding map v' = S·v + O applied to both sides of one
@@ -48,6 +49,9 @@ type Options struct {
 	MemBudget int64
 	// LabelA and LabelB name the chains in reports.
 	LabelA, LabelB string
+	// Progress, when set, is called now and then while the tables are
+	// read (about every million rows) and merged; calls never overlap.
+	Progress func(Progress)
 
 	// Compared is the number of leading Layout.Vars that are compared
 	// (the binning variable may follow); set by Sync.
@@ -176,6 +180,8 @@ func Sync(a, b Table, o Options) (*Summary, error) {
 	start := func(spilled bool) (*acc, error) {
 		acc := newAcc(&o)
 		acc.s.Spilled = spilled
+		acc.prog.Unsorted = spilled
+		acc.pnext = progressRows
 		if list != nil {
 			if err := list.Truncate(0); err != nil {
 				return nil, fmt.Errorf("temporary file: %v", err)
@@ -197,7 +203,7 @@ func Sync(a, b Table, o Options) (*Summary, error) {
 		if acc, err = start(true); err != nil {
 			return nil, err
 		}
-		err = partitioned(a, b, acc, tmp)
+		acc.s.SpilledBytes, err = partitioned(a, b, acc, tmp)
 	}
 	if err != nil {
 		return nil, err
@@ -210,8 +216,53 @@ func Sync(a, b Table, o Options) (*Summary, error) {
 	return acc.s, nil
 }
 
+// Progress tells how far a long synchronisation has come.
+type Progress struct {
+	// Rows counts the rows read so far from each table (on the unsorted
+	// path, the second reading).
+	Rows [2]int64
+	// Unsorted is set once the tables were found not sorted by key;
+	// PartsDone of Parts partitions have then been merged.
+	Unsorted         bool
+	PartsDone, Parts int
+}
+
+// progressRows is about how many rows pass between two progress calls (a
+// variable for tests).
+var progressRows int64 = 1 << 20
+
+// progress counts n more rows read from a side and calls the callback
+// when another progressRows rows have passed.
+func (a *acc) progress(side, n int) {
+	if a.o.Progress == nil {
+		return
+	}
+	a.pmu.Lock()
+	defer a.pmu.Unlock()
+	a.prog.Rows[side] += int64(n)
+	if t := a.prog.Rows[0] + a.prog.Rows[1]; t >= a.pnext {
+		a.pnext = t + progressRows
+		a.o.Progress(a.prog)
+	}
+}
+
+// partDone reports a merged partition.
+func (a *acc) partDone(done, parts int) {
+	if a.o.Progress == nil || done%16 != 0 {
+		return
+	}
+	a.pmu.Lock()
+	defer a.pmu.Unlock()
+	a.prog.PartsDone, a.prog.Parts = done, parts
+	a.o.Progress(a.prog)
+}
+
 // acc accumulates a summary row by row.
 type acc struct {
+	pmu   sync.Mutex
+	prog  Progress
+	pnext int64
+
 	o        *Options
 	s        *Summary
 	nk, nv   int
@@ -574,7 +625,7 @@ type feed struct {
 	last *Batch
 }
 
-func startFeed(t Table, l Layout) *feed {
+func startFeed(t Table, l Layout, progress func(n int)) *feed {
 	f := &feed{ch: make(chan *Batch, 4), free: make(chan *Batch, 8), done: make(chan struct{})}
 	go func() {
 		defer close(f.ch)
@@ -591,6 +642,7 @@ func startFeed(t Table, l Layout) *feed {
 			nb.Vals = append(nb.Vals, b.Vals...)
 			nb.Cuts = append(nb.Cuts, b.Cuts...)
 			nb.Pos = append(nb.Pos, b.Pos...)
+			progress(b.N)
 			select {
 			case f.ch <- nb:
 				return nil
@@ -630,7 +682,8 @@ func (f *feed) stop() {
 
 func sortedMerge(a, b Table, acc *acc) error {
 	l := acc.o.Layout
-	fa, fb := startFeed(a, l), startFeed(b, l)
+	fa := startFeed(a, l, func(n int) { acc.progress(0, n) })
+	fb := startFeed(b, l, func(n int) { acc.progress(1, n) })
 	defer fa.stop()
 	defer fb.stop()
 	ca := &cursor{t: a, names: l.Keys, side: 0, nk: acc.nk, nv: acc.nv, next: fa.next}

@@ -138,8 +138,15 @@ func TestMergeEqualsWhole(t *testing.T) {
 		t.Errorf("merged summary differs from the whole:\n%s\n---\n%s", y.String(), x.String())
 	}
 	// overlapping partitions are named
-	if _, warns, _ := Merge([]*Summary{whole, whole}, []string{"x", "y"}); len(warns) != 1 {
+	if _, warns, _ := Merge([]*Summary{whole, parts[0]}, []string{"x", "y"}); len(warns) != 1 {
 		t.Errorf("want one overlap warning, got %v", warns)
+	}
+	// the same summary twice, as one name or two, is refused
+	var dup *DuplicateError
+	for _, names := range [][]string{{"p1.json", "p1.json"}, {"p1.json", "copy.json"}} {
+		if _, _, err := Merge([]*Summary{parts[0], parts[0]}, names); !errors.As(err, &dup) {
+			t.Errorf("%v: merged the same summary twice (%v)", names, err)
+		}
 	}
 }
 

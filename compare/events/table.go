@@ -20,7 +20,8 @@ const (
 type Kind int
 
 // Column kinds. Integer columns may serve as keys, cuts (0/1) or variables;
-// boolean columns as cuts; floating-point columns as variables.
+// boolean columns as cuts or variables (false is 0, true 1); floating-point
+// columns as variables.
 const (
 	Other Kind = iota
 	Int
@@ -33,7 +34,7 @@ func (k Kind) String() string {
 }
 
 // Numeric reports whether a column of this kind can be a variable.
-func (k Kind) Numeric() bool { return k == Int || k == Float }
+func (k Kind) Numeric() bool { return k == Int || k == Float || k == Bool }
 
 // ColumnInfo names a column and its kind.
 type ColumnInfo struct {
@@ -161,7 +162,7 @@ func ResolveLayout(a, b []ColumnInfo, nameA, nameB string, keys, vars, cuts []st
 			}
 		}
 	}
-	if err := check("variable", vars, Kind.Numeric, "numbers"); err != nil {
+	if err := check("variable", vars, Kind.Numeric, "numbers or booleans"); err != nil {
 		return Layout{}, err
 	}
 	return Layout{Keys: keys, Vars: vars, Cuts: cuts}, nil
