@@ -46,10 +46,18 @@ type Summary struct {
 	// Accepted lists the disagreements the signing parties accepted;
 	// reports show them beside the verdict they qualify.
 	Accepted []Acceptance
+	// Teams holds the N-team consistency tests when three or more tables
+	// are compared; Entries then hold the pairwise diagnostics.
+	Teams []*TeamsResult
 }
 
 // Pass reports whether every entry passes.
 func (s *Summary) Pass() bool {
+	for _, t := range s.Teams {
+		if !t.Pass {
+			return false
+		}
+	}
 	for _, e := range s.Entries {
 		if !e.Pass {
 			return false

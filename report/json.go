@@ -20,6 +20,8 @@ type jsonSummary struct {
 	// always present (empty when there is none).
 	Accepted    []compare.Acceptance `json:"accepted_disagreements"`
 	Observables []jsonEntry          `json:"observables"`
+	// Teams holds the N-team consistency tests (three or more teams).
+	Teams []jsonTeams `json:"teams,omitempty"`
 }
 
 // jsonLimits are the declared limits, as the criteria hold them: α for
@@ -118,7 +120,7 @@ func JSONValue(s *compare.Summary) any { return jsonValue(s) }
 
 func jsonValue(s *compare.Summary) jsonSummary {
 	out := jsonSummary{Verdict: s.Verdict(), Title: s.Title, Campaign: s.Campaign, Notes: s.Notes,
-		Accepted: s.Accepted, Observables: []jsonEntry{}}
+		Accepted: s.Accepted, Observables: []jsonEntry{}, Teams: jsonTeamsValue(s)}
 	if out.Accepted == nil {
 		out.Accepted = []compare.Acceptance{}
 	}

@@ -171,6 +171,10 @@ func (j *jsonWriter) summary(s jsonSummary) {
 	j.acceptances(s.Accepted)
 	j.key("observables")
 	list(j, s.Observables, j.entry)
+	if len(s.Teams) > 0 {
+		j.key("teams")
+		j.teams(s.Teams)
+	}
 	j.close('}')
 }
 
