@@ -1,6 +1,7 @@
 package compare
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
@@ -49,7 +50,9 @@ type TeamsResult struct {
 	Test *consistency.Result
 	// Departing is the team whose leave-one-out p-value (χ² or shift) is
 	// the smallest; Departs lists the teams whose leave-one-out criteria
-	// fail (empty when none does).
+	// fail, the smallest p-value first (empty when none does). With few
+	// teams, one departing team pulls the combination of the others, so
+	// another team's leave-one-out test may fail beside it.
 	Departing string
 	Departs   []string
 	// Criteria are the N-team χ² p-value, then for each team its
@@ -208,6 +211,14 @@ func Teams(tables []*table.Table, labels []string, name string, sels []Selection
 				tr.Departs = append(tr.Departs, team)
 			}
 		}
+	}
+	for _, tr := range out.Results {
+		// the team farthest from the others first
+		minP := map[string]float64{}
+		for _, d := range tr.Test.LeaveOneOut {
+			minP[d.Team] = d.MinPValue()
+		}
+		slices.SortStableFunc(tr.Departs, func(a, b string) int { return cmp.Compare(minP[a], minP[b]) })
 	}
 	for _, r := range pairResults {
 		r.Family = 0

@@ -48,8 +48,13 @@ func departingLine(t *compare.TeamsResult) string {
 	if t.Test == nil {
 		return ""
 	}
-	if len(t.Departs) > 0 {
-		return "departing team: " + strings.Join(t.Departs, ", ")
+	switch len(t.Departs) {
+	case 0:
+	case 1:
+		return "departing team: " + t.Departs[0]
+	default:
+		return "departing team: " + t.Departs[0] + " (failing too: " + strings.Join(t.Departs[1:], ", ") +
+			"; a departing team also pulls the combination the others are held to)"
 	}
 	d := t.Test.Departing()
 	return fmt.Sprintf("departing team: none (farthest from the others: %s, smallest leave-one-out p = %s, before adjustment)", d.Team, pval(d.MinPValue()))
@@ -397,7 +402,7 @@ func junitTeams(out *junitSuites, s *compare.Summary) {
 			}
 			msg := f[0]
 			if len(t.Departs) > 0 {
-				msg = "departing team: " + strings.Join(t.Departs, ", ") + ": " + msg
+				msg = "departing team: " + t.Departs[0]
 			}
 			c.Failure = &junitFailure{Message: msg, Type: "disagreement", Text: strings.Join(f, "\n")}
 			suite.Failures++
