@@ -23,7 +23,7 @@ import (
 )
 
 const compareHelp = `Usage:
-    tandem compare A B [flags]
+    tandem compare A B [C ...] [flags]
     tandem compare DIR [--tables blinded|unblinded] [flags]
 
 Compares the value columns of two binned tables and prints the verdict,
@@ -60,6 +60,17 @@ largest-pull p-values of every compared column are adjusted together
 --alpha. --max-pull adds a raw limit on |pull| (not trials-corrected);
 --abs-tol/--rel-tol require numerical agreement, and are the only criterion
 when the tables have no uncertainties.
+
+Three or more tables: each compared column gets the N-team consistency
+test (chi-square of the teams against one common value per bin, N-1
+degrees of freedom per bin) and every team's leave-one-out chi-square and
+shift test against the combination of the others; the report names the
+departing team. These p-values form the alpha family (Holm). The pairwise
+comparisons are shown as diagnostics: their p-values are not in the family
+(their comparable-bins check and declared tolerances count). Correlations
+between teams are numbers; --cov-a, --subset, overlaps, --counts and
+per-bin correlation columns are refused. --labels A,B,C names the tables
+(default: the file stems).
 
 Report: --format text (the default), json, markdown, junit or html. With
 -o FILE and no --format, the extension chooses: .txt, .json, .md, .xml,
