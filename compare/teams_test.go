@@ -163,3 +163,36 @@ func TestTeamsRefusals(t *testing.T) {
 		t.Fatalf("alpha 0: %d criteria, pass %v", len(tr.Criteria), tr.Pass)
 	}
 }
+
+// TestTeamsCalibration runs the whole table-mode path (Teams, with its
+// pairs and the one Holm family) on agreeing teams: the verdict fails at
+// most α of the time, within three binomial standard errors. Fixed seeds.
+// The N-team statistics alone are calibrated at more sizes in package
+// consistency (TestCalibration).
+func TestTeamsCalibration(t *testing.T) {
+	if testing.Short() {
+		t.Skip("calibration runs hundreds of comparisons")
+	}
+	const trials, alpha = 400, 0.05
+	for _, n := range []int{3, 5} {
+		fails := 0
+		for k := range trials {
+			opt := Defaults()
+			opt.Alpha = alpha
+			labels := []string{"a", "b", "c", "d", "e"}[:n]
+			tc, err := Teams(teamTables(t, uint64(1000*n+k), n, 20, nil, ""), labels, "obs", teamSel, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !(&Summary{Teams: tc.Results}).Pass() {
+				fails++
+			}
+		}
+		rate := float64(fails) / trials
+		limit := alpha + 3*math.Sqrt(alpha*(1-alpha)/trials)
+		t.Logf("%d teams, 20 bins, α = %g: %d/%d = %.4f fail (limit %.4f)", n, alpha, fails, trials, rate, limit)
+		if rate > limit {
+			t.Errorf("%d teams: false-alarm rate %.4f above %.4f", n, rate, limit)
+		}
+	}
+}
