@@ -213,6 +213,9 @@ func Teams(tables []*table.Table, labels []string, name string, sels []Selection
 		}
 	}
 	for _, tr := range out.Results {
+		if tr.Test == nil {
+			continue
+		}
 		// the team farthest from the others first
 		minP := map[string]float64{}
 		for _, d := range tr.Test.LeaveOneOut {
@@ -293,9 +296,48 @@ func teamsColumn(tables []*table.Table, labels []string, name string, sel Select
 			tr.Sigma[t][i] = math.Sqrt(s2)
 		}
 	}
+	// A bin where some team has no uncertainty cannot enter the test (its
+	// covariance is singular): when every team has σ = 0 and the same
+	// value it is left out with a warning, otherwise it is incomparable
+	// and fails the comparable-bins check.
+	var used, incomparable []int
+	left := 0
+	for i := range bins {
+		zero, all, same := false, true, true
+		for k := range n {
+			z := tr.Sigma[k][i] == 0
+			zero, all = zero || z, all && z
+			same = same && tr.Values[k][i] == tr.Values[0][i]
+		}
+		switch {
+		case !zero:
+			used = append(used, i)
+		case all && same:
+			left++
+		default:
+			incomparable = append(incomparable, i+1)
+		}
+	}
+	if left > 0 {
+		tr.Warnings = append(tr.Warnings, fmt.Sprintf("%d bin(s) where every team has the same value and no uncertainty left out of the N-team test", left))
+	}
+	if len(incomparable) > 0 {
+		tr.Criteria = append(tr.Criteria, Criterion{Name: CritComparable, Kind: KindCheck, Value: float64(len(incomparable)), Limit: 0, Op: "<=",
+			Bins: incomparable, Detail: fmt.Sprintf("%d bin(s) where a team has no uncertainty cannot enter the N-team test: bin(s) %s", len(incomparable), binList(incomparable))})
+	}
+	if len(used) == 0 {
+		tr.Warnings = append(tr.Warnings, "no bin where every team has an uncertainty: no N-team test")
+		return tr, nil
+	}
+	if len(used) < bins {
+		in = subsetBins(in, used)
+	}
 	res, err := consistency.Test(in)
 	if err != nil {
 		return nil, fmt.Errorf("column %q: %w", sel.Value, err)
+	}
+	if len(used) < bins {
+		expandBins(res, used, bins)
 	}
 	tr.Test = res
 	tr.Departing = res.Departing().Team
@@ -310,4 +352,46 @@ func teamsColumn(tables []*table.Table, labels []string, name string, sel Select
 		}
 	}
 	return tr, nil
+}
+
+// subsetBins is in restricted to the bins idx.
+func subsetBins(in consistency.Input, idx []int) consistency.Input {
+	pick := func(xs []float64) []float64 {
+		out := make([]float64, len(idx))
+		for k, i := range idx {
+			out[k] = xs[i]
+		}
+		return out
+	}
+	out := consistency.Input{Teams: in.Teams}
+	for _, v := range in.Values {
+		out.Values = append(out.Values, pick(v))
+	}
+	for _, s := range in.Sources {
+		ns := consistency.Source{Name: s.Name, Rho: s.Rho}
+		for _, sg := range s.Sigma {
+			ns.Sigma = append(ns.Sigma, pick(sg))
+		}
+		out.Sources = append(out.Sources, ns)
+	}
+	return out
+}
+
+// expandBins spreads the per-bin results of the bins idx back over all
+// bins, NaN (undefined) where a bin was left out.
+func expandBins(r *consistency.Result, idx []int, bins int) {
+	spread := func(xs []float64) []float64 {
+		out := make([]float64, bins)
+		for i := range out {
+			out[i] = math.NaN()
+		}
+		for k, i := range idx {
+			out[i] = xs[k]
+		}
+		return out
+	}
+	r.BinChi2, r.Combined, r.CombinedSigma = spread(r.BinChi2), spread(r.Combined), spread(r.CombinedSigma)
+	for t := range r.LeaveOneOut {
+		r.LeaveOneOut[t].Pulls = spread(r.LeaveOneOut[t].Pulls)
+	}
 }

@@ -196,3 +196,47 @@ func TestTeamsCalibration(t *testing.T) {
 		}
 	}
 }
+
+// TestTeamsZeroUncertainty: a bin where every team has the same value and
+// no uncertainty is left out with a warning; a bin where one team has no
+// uncertainty fails the comparable-bins check, and the other bins are
+// still tested.
+func TestTeamsZeroUncertainty(t *testing.T) {
+	labels := []string{"a", "b", "c"}
+	mk := func(rows [3]string) []*table.Table {
+		var out []*table.Table
+		for k, r := range rows {
+			tab, err := table.ParseCSV(labels[k]+".csv", []byte("lo,hi,flux,stat,syst\n"+r), table.CSVOptions{Lo: "lo", Hi: "hi"})
+			if err != nil {
+				t.Fatal(err)
+			}
+			out = append(out, tab)
+		}
+		return out
+	}
+	tc, err := Teams(mk([3]string{
+		"0,1,5,1,0\n1,2,0,0,0\n2,3,7,1,0\n",
+		"0,1,6,1,0\n1,2,0,0,0\n2,3,7,1,0\n",
+		"0,1,5,1,0\n1,2,0,0,0\n2,3,6,1,0\n"}), labels, "obs", teamSel, Defaults())
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := tc.Results[0]
+	if !tr.Pass || tr.Test == nil || tr.Test.NDF != 4 || !math.IsNaN(tr.Test.BinChi2[1]) || len(tr.Test.LeaveOneOut[0].Pulls) != 3 {
+		t.Fatalf("left-out bin: pass %v, test %+v", tr.Pass, tr.Test)
+	}
+	if !slices.ContainsFunc(tr.Warnings, func(w string) bool { return strings.Contains(w, "1 bin(s) where every team has the same value") }) {
+		t.Fatalf("no warning: %v", tr.Warnings)
+	}
+	tc, err = Teams(mk([3]string{
+		"0,1,5,1,0\n1,2,3,0,0\n2,3,7,1,0\n",
+		"0,1,6,1,0\n1,2,4,1,0\n2,3,7,1,0\n",
+		"0,1,5,1,0\n1,2,3,1,0\n2,3,6,1,0\n"}), labels, "obs", teamSel, Defaults())
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr = tc.Results[0]
+	if tr.Pass || tr.Criteria[0].Name != CritComparable || tr.Criteria[0].Pass || !slices.Equal(tr.Criteria[0].Bins, []int{2}) || tr.Test.NDF != 4 {
+		t.Fatalf("incomparable bin: pass %v, criteria %+v", tr.Pass, tr.Criteria)
+	}
+}

@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
 
@@ -110,11 +111,11 @@ func teamsText(ew *page, s *compare.Summary, st Style) {
 			ew.s("  ").s(strings.Join(files, "; ")).s("\n")
 		}
 		if t.Test == nil {
-			ew.s("  no uncertainties: no N-team test (the pairs' numerical tolerance judges)\n")
-			continue
+			ew.s("  no N-team test: no bin where every team has an uncertainty\n")
+		} else {
+			ew.s("  ").s(teamsChi2Line(t)).s("\n")
+			ew.s("  ").s(departingLine(t)).s("\n")
 		}
-		ew.s("  ").s(teamsChi2Line(t)).s("\n")
-		ew.s("  ").s(departingLine(t)).s("\n")
 		crit := [][]string{{"criterion", "value", "adjusted", "limit", "result"}}
 		for _, c := range t.Criteria {
 			res := "pass"
@@ -138,8 +139,10 @@ func teamsText(ew *page, s *compare.Summary, st Style) {
 		for _, wn := range t.Warnings {
 			ew.s("  warning: ").s(wn).s("\n")
 		}
-		ew.s("  leave-one-out: each team against the combination of the others\n")
-		alignTable(ew, "  ", looRows(t), true)
+		if t.Test != nil {
+			ew.s("  leave-one-out: each team against the combination of the others\n")
+			alignTable(ew, "  ", looRows(t), true)
+		}
 	}
 	ew.s("\npairwise diagnostics:\n")
 }
@@ -153,11 +156,11 @@ func teamsMarkdown(ew *page, s *compare.Summary) {
 	for _, t := range s.Teams {
 		ew.s("### ").s(mdEscape(teamsTitle(t))).s(": ").s(mdVerdict(t.Pass)).s("\n\n")
 		if t.Test == nil {
-			ew.s("No uncertainties: no N-team test (the pairs' numerical tolerance judges).\n\n")
-			continue
+			ew.s("No N-team test: no bin where every team has an uncertainty.\n\n")
+		} else {
+			ew.s(mdEscape(capitalize(teamsChi2Line(t)))).s(".\n\n")
+			ew.s("**").s(mdEscape(capitalize(departingLine(t)))).s("**\n\n")
 		}
-		ew.s(mdEscape(capitalize(teamsChi2Line(t)))).s(".\n\n")
-		ew.s("**").s(mdEscape(capitalize(departingLine(t)))).s("**\n\n")
 		if len(t.Criteria) > 0 {
 			ew.s("| criterion | value | adjusted | limit | result |\n| --- | ---: | ---: | ---: | --- |\n")
 			for _, c := range t.Criteria {
@@ -175,6 +178,9 @@ func teamsMarkdown(ew *page, s *compare.Summary) {
 		}
 		for _, wn := range t.Warnings {
 			ew.s("> warning: ").s(mdEscape(wn)).s("\n\n")
+		}
+		if t.Test == nil {
+			continue
 		}
 		rows := looRows(t)
 		ew.s("Leave-one-out (each team against the combination of the others):\n\n| ").s(strings.Join(rows[0], " | ")).s(" |\n| --- | ---: | ---: | ---: | ---: | ---: |\n")
@@ -246,7 +252,7 @@ func jsonTeamsValue(s *compare.Summary) []jsonTeams {
 		jt := jsonTeams{Name: t.Observable, Column: t.Column, Teams: t.Teams, Files: t.Files, Bins: len(t.Lo),
 			Verdict: t.Verdict(), Departing: t.Departing, Departs: t.Departs, Failures: t.Failures(),
 			Criteria: []jsonCriterion{}, Alpha: jnum(t.Alpha), Family: t.Family, Sources: []jsonTeamSrc{},
-			Warnings: t.Warnings, LeaveOneOut: []jsonLOO{}, Chi2: jnum(0), PValue: jnum(1)}
+			Warnings: t.Warnings, LeaveOneOut: []jsonLOO{}, Chi2: jnum(math.NaN()), PValue: jnum(math.NaN())}
 		if jt.Departs == nil {
 			jt.Departs = []string{}
 		}

@@ -40,11 +40,11 @@ func teamsHTML(p *page, s *compare.Summary) {
 		}
 		p.s("</p>\n")
 		if t.Test == nil {
-			p.s("<p>No uncertainties: no N-team test (the pairs' numerical tolerance judges).</p>\n")
-			continue
+			p.s("<p>No N-team test: no bin where every team has an uncertainty.</p>\n")
+		} else {
+			p.s("<p>").e(capitalize(teamsChi2Line(t))).s("</p>\n")
+			p.s("<p><b>").e(capitalize(departingLine(t))).s("</b></p>\n")
 		}
-		p.s("<p>").e(capitalize(teamsChi2Line(t))).s("</p>\n")
-		p.s("<p><b>").e(capitalize(departingLine(t))).s("</b></p>\n")
 		p.s(`<figure class="panels">` + "\n")
 		teamsOverlaySVG(p, t)
 		teamsPullsSVG(p, t)
@@ -71,6 +71,9 @@ func teamsHTML(p *page, s *compare.Summary) {
 		}
 		for _, wn := range t.Warnings {
 			p.s(`<p class="note warn">`).e(wn).s("</p>\n")
+		}
+		if t.Test == nil {
+			continue
 		}
 		rows := looRows(t)
 		p.s("<table><caption>Leave-one-out: each team against the combination of the others</caption><tr>")
