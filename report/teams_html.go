@@ -50,7 +50,7 @@ func teamsHTML(p *page, s *compare.Summary) {
 		teamsPullsSVG(p, t)
 		p.s("</figure>\n")
 		if _, g := groups(len(t.Lo)); g > 1 {
-			p.s(`<p class="note">`).d(len(t.Lo)).s(" bins are drawn as groups of ").d(g).s(" consecutive bins, each at its mean; the statistics and the JSON report use every bin.</p>\n")
+			p.s(`<p class="note">`).d(len(t.Lo)).s(" bins are drawn as groups of ").d(g).s(" consecutive bins: values at their mean, pulls as their sum over √(bins in the group), N(0, 1) when the pulls are; the statistics and the JSON report use every bin.</p>\n")
 		}
 		if len(t.Criteria) > 0 {
 			p.s("<table><tr><th>criterion</th><th>value</th><th>adjusted p</th><th>limit</th><th>result</th></tr>\n")
@@ -125,7 +125,9 @@ func marker(p *page, k int, x, y, r float64) {
 // when the figure is not decimated).
 type teamPoint struct{ lo, hi, v, s float64 }
 
-// teamPoints groups the values vs with errors es as drawn.
+// teamPoints groups the values vs with errors es as drawn: each group at
+// its mean, with the error of the mean; pulls (es nil) at their sum over
+// √n, which is N(0, 1) when the pulls are.
 func teamPoints(t *compare.TeamsResult, vs, es []float64) []teamPoint {
 	gs, _ := groups(len(t.Lo))
 	out := make([]teamPoint, 0, len(gs))
@@ -143,7 +145,10 @@ func teamPoints(t *compare.TeamsResult, vs, es []float64) []teamPoint {
 			n++
 		}
 		pt := teamPoint{lo: t.Lo[g.first], hi: t.Hi[g.last], v: math.NaN()}
-		if n > 0 {
+		switch {
+		case n > 0 && es == nil:
+			pt.v = sum / math.Sqrt(float64(n))
+		case n > 0:
 			pt.v, pt.s = sum/float64(n), math.Sqrt(s2)/float64(n)
 		}
 		out = append(out, pt)
