@@ -169,3 +169,38 @@ func TestTeamsGolden(t *testing.T) {
 		}
 	}
 }
+
+// FuzzTeamsWriters holds the N-team JSON and JUnit writers to
+// encoding/json and encoding/xml for any team label, and checks that the
+// text, Markdown and HTML reports let no control character through.
+func FuzzTeamsWriters(f *testing.F) {
+	f.Add("otter")
+	f.Add("ot\x1bter <&> ]]> \u202e")
+	f.Add("\xff\x00\u2028\"\\")
+	f.Fuzz(func(t *testing.T, label string) {
+		if label == "" || label == "heron" || label == "kite" {
+			return // Teams refuses no label itself; the command line does
+		}
+		s := teamsFixture(t, label)
+		var got, want bytes.Buffer
+		if err := JSON(&got, s); err != nil {
+			t.Fatal(err)
+		}
+		if err := jsonEncoded(&want, s); err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(got.Bytes(), want.Bytes()) {
+			t.Fatalf("JSON differs from encoding/json for label %q", label)
+		}
+		checkJUnit(t, "fuzz", s)
+		for _, f := range []string{"text", "markdown", "html"} {
+			var b bytes.Buffer
+			if err := Render(&b, f, s, Style{}); err != nil {
+				t.Fatal(err)
+			}
+			if strings.ContainsRune(b.String(), '\x1b') {
+				t.Fatalf("%s: an escape character reached the report", f)
+			}
+		}
+	})
+}
