@@ -243,10 +243,17 @@ func teamsColumn(tables []*table.Table, labels []string, name string, sel Select
 		tr.Values[t] = tab.Column(sel.Value)
 		in.Values[t] = tr.Values[t]
 	}
+	var srcErr error
 	add := func(src string, sigma func(t, i int) float64) {
 		_, rho, ok := lookup(e.Correlations, src, sel.Value)
 		if !ok {
 			rho = e.Default
+		}
+		if lim := -1 / float64(n-1); rho.Value < lim && srcErr == nil {
+			// the correlation matrix of n teams with one common ρ is
+			// positive semi-definite only for ρ ≥ −1/(n−1)
+			srcErr = fmt.Errorf("error source %q: correlation %s between %d teams is below −1/(N−1) = %s: no %d teams can all be correlated that negatively",
+				src, table.Format(rho.Value), n, table.Format(lim), n)
 		}
 		s := consistency.Source{Name: src, Sigma: make([][]float64, n), Rho: rho.Value}
 		for t := range n {
@@ -269,6 +276,9 @@ func teamsColumn(tables []*table.Table, labels []string, name string, sel Select
 			asym = asym || d != u
 			return (d + u) / 2
 		})
+	}
+	if srcErr != nil {
+		return nil, srcErr
 	}
 	if len(in.Sources) == 0 {
 		if e.AbsTol > 0 || e.RelTol > 0 {

@@ -141,6 +141,7 @@ func TestTeamsRefusals(t *testing.T) {
 		"subset":       {func(o *Options) { o.Subset = true }, "subset rule"},
 		"overlap":      {func(o *Options) { o.Overlap = Overlap{Count: "n", Common: "c"} }, "overlap"},
 		"unknown name": {func(o *Options) { o.Correlations = map[string]Rho{"lumi": Number(1)} }, `"lumi"`},
+		"rho < -1/2":   {func(o *Options) { o.Correlations = map[string]Rho{"syst": Number(-0.6)} }, "below −1/(N−1) = -0.5"},
 	} {
 		o := Defaults()
 		tc.opt(&o)
