@@ -3,9 +3,12 @@ package report
 import (
 	"bytes"
 	"encoding/json"
+	"encoding/xml"
 	"fmt"
+	"io"
 	"math"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -203,4 +206,51 @@ func FuzzTeamsWriters(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestTeamsHTMLFigures: the N-team figures are well-formed XML (checked
+// with encoding/xml) and headless Chromium (Debian's chromium) builds
+// them into the page's DOM.
+func TestTeamsHTMLFigures(t *testing.T) {
+	var buf bytes.Buffer
+	if err := HTML(&buf, teamsFixture(t, "")); err != nil {
+		t.Fatal(err)
+	}
+	h := buf.String()
+	for _, label := range []string{"values of all teams", "leave-one-out pulls of every team"} {
+		i := strings.Index(h, `aria-label="`+label+`"`)
+		if i < 0 {
+			t.Fatalf("no figure %q", label)
+		}
+		start := strings.LastIndex(h[:i], "<svg")
+		end := i + strings.Index(h[i:], "</svg>") + len("</svg>")
+		d := xml.NewDecoder(strings.NewReader(h[start:end]))
+		for {
+			_, err := d.Token()
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				t.Fatalf("figure %q is not well-formed XML: %v", label, err)
+			}
+		}
+	}
+	bin := chromium(t)
+	dir := t.TempDir()
+	page := filepath.Join(dir, "teams.html")
+	if err := os.WriteFile(page, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	dom, err := exec.Command(bin, append(chromiumArgs(dir, 1100), "--dump-dom", "file://"+page)...).Output()
+	if err != nil {
+		t.Fatalf("chromium --dump-dom: %v", err)
+	}
+	for _, label := range []string{"values of all teams", "leave-one-out pulls of every team"} {
+		if !bytes.Contains(dom, []byte(`aria-label="`+label+`"`)) {
+			t.Errorf("Chromium's DOM has no figure %q", label)
+		}
+	}
+	if n := bytes.Count(dom, []byte("<circle")); n < 16 {
+		t.Errorf("Chromium's DOM has %d circles, want at least 16 (heron's markers in both figures)", n)
+	}
 }
