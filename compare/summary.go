@@ -35,6 +35,9 @@ type Acceptance struct {
 // Summary is a set of comparisons with one overall verdict.
 type Summary struct {
 	Entries []Entry
+	// Teams holds the N-team consistency tests when three or more tables
+	// are compared; Entries then hold the pairwise diagnostics.
+	Teams []*TeamsResult
 	// Title describes what was compared, for reports.
 	Title string
 	// Campaign names the campaign the comparisons belong to; empty in table
@@ -46,9 +49,6 @@ type Summary struct {
 	// Accepted lists the disagreements the signing parties accepted;
 	// reports show them beside the verdict they qualify.
 	Accepted []Acceptance
-	// Teams holds the N-team consistency tests when three or more tables
-	// are compared; Entries then hold the pairwise diagnostics.
-	Teams []*TeamsResult
 }
 
 // Pass reports whether every entry passes.

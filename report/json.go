@@ -19,9 +19,8 @@ type jsonSummary struct {
 	// Accepted lists the disagreements the signing parties accepted,
 	// always present (empty when there is none).
 	Accepted    []compare.Acceptance `json:"accepted_disagreements"`
+	Teams       []jsonTeams          `json:"teams,omitempty"`
 	Observables []jsonEntry          `json:"observables"`
-	// Teams holds the N-team consistency tests (three or more teams).
-	Teams []jsonTeams `json:"teams,omitempty"`
 }
 
 // jsonLimits are the declared limits, as the criteria hold them: α for
@@ -120,10 +119,11 @@ func JSONValue(s *compare.Summary) any { return jsonValue(s) }
 
 func jsonValue(s *compare.Summary) jsonSummary {
 	out := jsonSummary{Verdict: s.Verdict(), Title: s.Title, Campaign: s.Campaign, Notes: s.Notes,
-		Accepted: s.Accepted, Observables: []jsonEntry{}, Teams: jsonTeamsValue(s)}
+		Accepted: s.Accepted, Observables: []jsonEntry{}}
 	if out.Accepted == nil {
 		out.Accepted = []compare.Acceptance{}
 	}
+	out.Teams = jsonTeamsValue(s) // the N-team tests (three or more teams), before the pairs
 	for _, e := range s.Entries {
 		a, b := e.Sides()
 		je := jsonEntry{

@@ -169,12 +169,12 @@ func (j *jsonWriter) summary(s jsonSummary) {
 	}
 	j.key("accepted_disagreements")
 	j.acceptances(s.Accepted)
-	j.key("observables")
-	list(j, s.Observables, j.entry)
 	if len(s.Teams) > 0 {
 		j.key("teams")
 		j.teams(s.Teams)
 	}
+	j.key("observables")
+	list(j, s.Observables, j.entry)
 	j.close('}')
 }
 
