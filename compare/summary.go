@@ -35,6 +35,9 @@ type Acceptance struct {
 // Summary is a set of comparisons with one overall verdict.
 type Summary struct {
 	Entries []Entry
+	// Teams holds the N-team consistency tests when three or more tables
+	// are compared; Entries then hold the pairwise diagnostics.
+	Teams []*TeamsResult
 	// Title describes what was compared, for reports.
 	Title string
 	// Campaign names the campaign the comparisons belong to; empty in table
@@ -50,6 +53,11 @@ type Summary struct {
 
 // Pass reports whether every entry passes.
 func (s *Summary) Pass() bool {
+	for _, t := range s.Teams {
+		if !t.Pass {
+			return false
+		}
+	}
 	for _, e := range s.Entries {
 		if !e.Pass {
 			return false

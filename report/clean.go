@@ -80,10 +80,11 @@ func needsCleaning(xs ...string) bool {
 // s itself when nothing needs cleaning, else a copy that shares the
 // numbers with s.
 func cleanSummary(s *compare.Summary) *compare.Summary {
-	if !summaryNeedsCleaning(s) {
+	if !summaryNeedsCleaning(s) && !teamsNeedCleaning(s.Teams) {
 		return s
 	}
 	c := *s
+	c.Teams = cleanTeams(s.Teams)
 	c.Title, c.Campaign, c.Notes = cleanText(s.Title), cleanText(s.Campaign), cleanList(s.Notes)
 	c.Accepted = make([]compare.Acceptance, len(s.Accepted))
 	for i, a := range s.Accepted {

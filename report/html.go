@@ -79,9 +79,9 @@ func HTML(w io.Writer, s *compare.Summary) error {
 	p.s("<h1>").e(title).s("</h1>\n")
 	failed := failures(s)
 	if failed == 0 {
-		p.s(`<p class="banner agree">Verdict: <b class="pass">agree</b>: all `).d(len(s.Entries)).s(" comparisons within tolerance</p>\n")
+		p.s(`<p class="banner agree">Verdict: <b class="pass">agree</b>: all `).d(comparisons(s)).s(" comparisons within tolerance</p>\n")
 	} else {
-		p.s(`<p class="banner disagree">Verdict: <b class="fail">disagree</b>: `).d(failed).s(" of ").d(len(s.Entries)).s(" comparisons outside tolerance</p>\n")
+		p.s(`<p class="banner disagree">Verdict: <b class="fail">disagree</b>: `).d(failed).s(" of ").d(comparisons(s)).s(" comparisons outside tolerance</p>\n")
 	}
 	for _, a := range s.Accepted {
 		acceptedHTML(p, a)
@@ -89,6 +89,7 @@ func HTML(w io.Writer, s *compare.Summary) error {
 	for _, n := range s.Notes {
 		p.s(`<p class="note">`).e(n).s("</p>\n")
 	}
+	teamsHTML(p, s)
 	p.s(`<h3>Contents</h3><ol class="toc">` + "\n")
 	entries := ordered(s)
 	for i, e := range entries {
@@ -110,7 +111,7 @@ func failures(s *compare.Summary) int {
 			n++
 		}
 	}
-	return n
+	return n + teamsFailures(s)
 }
 
 func esc(s string) string { return html.EscapeString(s) }

@@ -19,6 +19,7 @@ type jsonSummary struct {
 	// Accepted lists the disagreements the signing parties accepted,
 	// always present (empty when there is none).
 	Accepted    []compare.Acceptance `json:"accepted_disagreements"`
+	Teams       []jsonTeams          `json:"teams,omitempty"`
 	Observables []jsonEntry          `json:"observables"`
 }
 
@@ -122,6 +123,7 @@ func jsonValue(s *compare.Summary) jsonSummary {
 	if out.Accepted == nil {
 		out.Accepted = []compare.Acceptance{}
 	}
+	out.Teams = jsonTeamsValue(s) // the N-team tests (three or more teams), before the pairs
 	for _, e := range s.Entries {
 		a, b := e.Sides()
 		je := jsonEntry{

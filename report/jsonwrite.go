@@ -169,6 +169,10 @@ func (j *jsonWriter) summary(s jsonSummary) {
 	}
 	j.key("accepted_disagreements")
 	j.acceptances(s.Accepted)
+	if len(s.Teams) > 0 {
+		j.key("teams")
+		j.teams(s.Teams)
+	}
 	j.key("observables")
 	list(j, s.Observables, j.entry)
 	j.close('}')

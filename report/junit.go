@@ -96,6 +96,7 @@ func junitValue(s *compare.Summary) junitSuites {
 		out.Tests++
 		out.Suites[k].Cases = append(out.Suites[k].Cases, c)
 	}
+	junitTeams(&out, s)
 	return out
 }
 

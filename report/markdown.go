@@ -30,6 +30,7 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	if len(s.Notes) > 0 {
 		fmt.Fprintln(ew)
 	}
+	teamsMarkdown(ew, s)
 	fmt.Fprintln(ew, "| comparison | verdict | χ²/ndf | p-value | max \\|pull\\| |")
 	fmt.Fprintln(ew, "| --- | --- | ---: | ---: | ---: |")
 	entries := ordered(s)

@@ -38,7 +38,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 	pass := s.Pass()
 	fmt.Fprintf(ew, "verdict: %s", verdictWord(st, pass))
 	if !pass {
-		fmt.Fprintf(ew, " (%d of %d comparisons outside tolerance)", failures(s), len(s.Entries))
+		fmt.Fprintf(ew, " (%d of %d comparisons outside tolerance)", failures(s), comparisons(s))
 	}
 	fmt.Fprintln(ew)
 	for _, a := range s.Accepted {
@@ -50,6 +50,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 	for _, n := range s.Notes {
 		fmt.Fprintf(ew, "note: %s\n", n)
 	}
+	teamsText(ew, s, st)
 	entries := ordered(s)
 	for _, e := range entries {
 		mark := "ok  "

@@ -23,7 +23,7 @@ import (
 )
 
 const compareHelp = `Usage:
-    tandem compare A B [flags]
+    tandem compare A B [C ...] [flags]
     tandem compare DIR [--tables blinded|unblinded] [flags]
 
 Compares the value columns of two binned tables and prints the verdict,
@@ -61,6 +61,17 @@ largest-pull p-values of every compared column are adjusted together
 --abs-tol/--rel-tol require numerical agreement, and are the only criterion
 when the tables have no uncertainties.
 
+Three or more tables: each compared column gets the N-team consistency
+test (chi-square of the teams against one common value per bin, N-1
+degrees of freedom per bin) and every team's leave-one-out chi-square and
+shift test against the combination of the others; the report names the
+departing team. These p-values form the alpha family (Holm). The pairwise
+comparisons are shown as diagnostics: their p-values are not in the family
+(their comparable-bins check and declared tolerances count). Correlations
+between teams are numbers; --cov-a, --subset, overlaps, --counts and
+per-bin correlation columns are refused. --labels A,B,C names the tables
+(default: the file stems).
+
 Report: --format text (the default), json, markdown, junit or html. With
 -o FILE and no --format, the extension chooses: .txt, .json, .md, .xml,
 .html. Nothing is written when the input is bad.
@@ -86,7 +97,7 @@ type compareFlags struct {
 	limits                              table.Limits
 	overlapCount, overlapCommon         string
 	overlapSource                       string
-	labelA, labelB                      string
+	labelA, labelB, labels              string
 	counts                              bool
 	sumw2                               string
 	exposureRatio                       float64
@@ -97,7 +108,7 @@ type compareFlags struct {
 }
 
 // tableOnly are the flags that campaign mode refuses (the protocol sets them).
-var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
+var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "labels", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
@@ -129,6 +140,7 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&cf.name, "name", "", "observable `NAME` in the report (default: the first file's name)")
 	fs.StringVar(&cf.labelA, "label-a", "", "`LABEL` of the first table in the report (default: its file name)")
 	fs.StringVar(&cf.labelB, "label-b", "", "`LABEL` of the second table in the report (default: its file name)")
+	fs.StringVar(&cf.labels, "labels", "", "`LABELS` of the tables in the report, comma-separated, one per table (default: the file names; with three or more tables their stems)")
 	fs.StringVar(&cf.tables, "tables", "blinded", "campaign mode: compare the `blinded` or the `unblinded` tables")
 	registerLimits(fs, &cf.limits, &cf.delimiter)
 }
@@ -180,7 +192,7 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if !slices.Contains(report.Formats, cf.format) {
 		return usageErr("--format %q is not one of %s", cf.format, strings.Join(report.Formats, ", "))
 	}
-	for _, f := range []struct{ name, v string }{{"label-a", cf.labelA}, {"label-b", cf.labelB}, {"name", cf.name}} {
+	for _, f := range []struct{ name, v string }{{"label-a", cf.labelA}, {"label-b", cf.labelB}, {"labels", cf.labels}, {"name", cf.name}} {
 		if err := protocol.CleanText(f.v); err != nil {
 			return withHint(usageErr("--%s: %v", f.name, err), "labels and names are shown in reports: use printable text")
 		}
@@ -309,9 +321,13 @@ func runCompare(e *env, args []string) error {
 			}
 		}
 		return compareCampaign(e, pos[0], &cf)
-	case len(pos) != 2:
-		return withHint(usageErr("compare wants two tables (or one campaign folder), got %s", argCount(len(pos))),
+	case len(pos) < 2:
+		return withHint(usageErr("compare wants two or more tables (or one campaign folder), got %s", argCount(len(pos))),
 			"tandem compare A.csv B.csv")
+	}
+	labels, err := cf.tableLabels(pos)
+	if err != nil {
+		return err
 	}
 	for _, p := range pos {
 		if cf.output != "" && sameFile(p, cf.output) {
@@ -326,16 +342,19 @@ func runCompare(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	ts, err := input.ReadAllWaiting(e.stdin, opt, e.waitNotice(), pos[0], pos[1])
+	ts, err := input.ReadAllWaiting(e.stdin, opt, e.waitNotice(), pos...)
 	if err != nil {
 		return inputErr(err)
 	}
-	a, b := ts[0], ts[1]
 	for _, t := range ts {
 		for _, n := range t.Notes {
 			e.warnf("%s", n)
 		}
 	}
+	if len(ts) > 2 {
+		return compareTeams(e, &cf, ts, labels)
+	}
+	a, b := ts[0], ts[1]
 	sels := cf.selections(a, b)
 	copt := cf.opt
 	if cf.covA != "" {
@@ -366,15 +385,15 @@ func runCompare(e *env, args []string) error {
 	}
 	s := &compare.Summary{Title: fmt.Sprintf("%s vs %s", a.Source, b.Source)}
 	for _, r := range results {
-		if cf.labelA != "" {
-			r.LabelA = cf.labelA
+		if labels[0] != "" {
+			r.LabelA = labels[0]
 		}
-		if cf.labelB != "" {
-			r.LabelB = cf.labelB
+		if labels[1] != "" {
+			r.LabelB = labels[1]
 		}
 		s.Entries = append(s.Entries, compare.Entry{Observable: name, Files: [2]string{a.Source, b.Source}, Result: r})
 	}
-	if cf.labelA != "" || cf.labelB != "" {
+	if labels[0] != "" || labels[1] != "" {
 		s.Title = fmt.Sprintf("%s vs %s", results[0].LabelA, results[0].LabelB)
 	}
 	if err := emit(e, s, cf.format, cf.output); err != nil {
@@ -536,4 +555,96 @@ func (e *env) waitNotice() input.Wait {
 		}
 		e.infof("waiting for %s: nothing has been written to it for %v (a named pipe or device reads only once its writer starts)", spec, input.DefaultWaitAfter)
 	}}
+}
+
+// tableLabels are the labels of the tables pos: --labels, else --label-a
+// and --label-b for the first two. With two tables an empty label keeps
+// the default (the file name); with three or more every table gets one,
+// by default its file name's stem, and they must differ.
+func (cf *compareFlags) tableLabels(pos []string) ([]string, error) {
+	labels := make([]string, len(pos))
+	if cf.labels != "" {
+		if cf.labelA != "" || cf.labelB != "" {
+			return nil, usageErr("--labels and --label-a/--label-b cannot be used together")
+		}
+		parts := strings.Split(cf.labels, ",")
+		if len(parts) != len(pos) {
+			return nil, withHint(usageErr("--labels gives %d labels for %d tables", len(parts), len(pos)),
+				"one label per table, in the order of the tables, separated by commas")
+		}
+		for i, l := range parts {
+			labels[i] = strings.TrimSpace(l)
+			if labels[i] == "" {
+				return nil, usageErr("--labels: label %d is empty", i+1)
+			}
+		}
+	} else {
+		labels[0], labels[1] = cf.labelA, cf.labelB
+	}
+	if len(pos) == 2 {
+		return labels, nil
+	}
+	stems := make([]string, len(pos))
+	for i, p := range pos {
+		path, _, _ := strings.Cut(p, ".root:")
+		stems[i] = strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+	}
+	if hasDuplicate(stems) {
+		copy(stems, pos)
+	}
+	for i := range labels {
+		if labels[i] == "" {
+			labels[i] = stems[i]
+		}
+	}
+	if hasDuplicate(labels) {
+		return nil, withHint(usageErr("two tables have the same label: %s", strings.Join(labels, ", ")),
+			"name each table with --labels a,b,c")
+	}
+	return labels, nil
+}
+
+func hasDuplicate(xs []string) bool {
+	for i := range xs {
+		if slices.Contains(xs[i+1:], xs[i]) {
+			return true
+		}
+	}
+	return false
+}
+
+// compareTeams compares three or more tables: the N-team consistency test
+// of each column judges, in one α family; every pair is shown as a
+// diagnostic.
+func compareTeams(e *env, cf *compareFlags, ts []*table.Table, labels []string) error {
+	if cf.covA != "" {
+		return withHint(usageErr("--cov-a/--cov-b describe two tables; they cannot be used with %d tables", len(ts)),
+			"with three or more tables give --error sources and --error-correlation NAME=RHO")
+	}
+	name := cf.name
+	if name == "" {
+		name = strings.TrimSuffix(filepath.Base(ts[0].Source), filepath.Ext(ts[0].Source))
+	}
+	sels := cf.selections(ts[0], ts[1])
+	tc, err := compare.Teams(ts, labels, name, sels, cf.opt)
+	if err != nil {
+		switch {
+		case errors.Is(err, compare.ErrNoUncertainty):
+			return withHint(inputErr(err), "name the uncertainty columns with --error COL (repeatable), or judge by --abs-tol/--rel-tol")
+		case errors.Is(err, compare.ErrNoCriterion):
+			return withHint(inputErr(err), "keep the default --alpha 0.01, or declare --max-pull, --abs-tol or --rel-tol")
+		}
+		return inputErr(err)
+	}
+	s := &compare.Summary{Title: strings.Join(labels, " vs "), Teams: tc.Results}
+	for _, p := range tc.Pairs {
+		s.Entries = append(s.Entries, compare.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]}, Files: [2]string{ts[p.I].Source, ts[p.J].Source}, Result: p.Result})
+	}
+	if err := emit(e, s, cf.format, cf.output); err != nil {
+		return err
+	}
+	if !s.Pass() {
+		return silentFail
+	}
+	return nil
 }
