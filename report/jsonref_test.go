@@ -8,6 +8,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+	"time"
 	"unicode/utf8"
 
 	"tandem/compare"
@@ -43,10 +44,17 @@ func (j jsonEscaper) Write(p []byte) (int, error) {
 
 // jsonEncoded writes s through encoding/json, as [JSON] did before it
 // wrote the document by hand; the tests hold JSON to it.
-func jsonEncoded(w io.Writer, s *compare.Summary) error {
+func jsonEncoded(w io.Writer, s *compare.Summary, st Style) error {
 	enc := json.NewEncoder(jsonEscaper{w})
 	enc.SetIndent("", "  ")
-	return enc.Encode(JSONValue(s))
+	return enc.Encode(JSONValue(s, st))
+}
+
+// testStamp is a fixed stamp whose names hold characters every format
+// escapes.
+func testStamp() *Stamp {
+	return &Stamp{Tool: "tandem test <rev> & \"q\"", Time: time.Date(2026, 12, 2, 15, 4, 5, 0, time.UTC),
+		Inputs: []Input{{Name: "heron/spectrum.csv", SHA256: "a3f1"}, {Name: "o\u202etter <&> ]]> \x00.csv"}}}
 }
 
 // jsonSummaries are summaries that reach every branch of the JSON writer:
@@ -76,6 +84,11 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		odd.Entries = append(odd.Entries, compare.Entry{Observable: fmt.Sprint("odd", i), Result: r})
 	}
 	out["odd"] = odd
+	state := fixture(t)
+	state.Missing = []compare.Missing{{Observable: "zenith", Verdict: compare.VerdictIncomplete, Reason: "not sealed yet by otter <&>"},
+		{Observable: "azi\u2028muth", Verdict: compare.VerdictPending, Reason: "re-sealed ]]> by heron"}}
+	state.Stale = []string{"heron: stale after a seal of zenith", "\xff: x"}
+	out["state"] = state
 	text := fixture(t)
 	text.Title = "ti\x1b[2Jtle <b>&amp;</b> \"q\" \\ \b\f\n\r\t\x00\x7f"
 	text.Notes = []string{"no\u202ete", "\u2028\u2029", "bad \xff\xfe utf8 \xe2\x80", "\u0085 \u061c \u200e\u200f \u2066\u2069 é 漢 😀"}
@@ -92,21 +105,28 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 // what encoding/json (the reference) writes for the same value.
 func TestJSONWriterMatchesEncoding(t *testing.T) {
 	for name, s := range jsonSummaries(t) {
-		var got, want bytes.Buffer
-		if err := JSON(&got, s); err != nil {
-			t.Fatal(err)
-		}
-		if err := jsonEncoded(&want, s); err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(got.Bytes(), want.Bytes()) {
-			g, w := got.Bytes(), want.Bytes()
-			i := 0
-			for i < min(len(g), len(w)) && g[i] == w[i] {
-				i++
+		for _, st := range []Style{{}, {Stamp: testStamp()}} {
+			var got, want bytes.Buffer
+			if err := JSON(&got, s, st); err != nil {
+				t.Fatal(err)
 			}
-			t.Errorf("%s: JSON differs from encoding/json at byte %d:\n got %q\nwant %q", name, i, g[max(0, i-80):min(len(g), i+80)], w[max(0, i-80):min(len(w), i+80)])
+			if err := jsonEncoded(&want, s, st); err != nil {
+				t.Fatal(err)
+			}
+			checkSameJSON(t, name, got.Bytes(), want.Bytes())
 		}
+	}
+}
+
+// checkSameJSON reports where got first differs from want.
+func checkSameJSON(t *testing.T, name string, g, w []byte) {
+	t.Helper()
+	if !bytes.Equal(g, w) {
+		i := 0
+		for i < min(len(g), len(w)) && g[i] == w[i] {
+			i++
+		}
+		t.Errorf("%s: JSON differs from encoding/json at byte %d:\n got %q\nwant %q", name, i, g[max(0, i-80):min(len(g), i+80)], w[max(0, i-80):min(len(w), i+80)])
 	}
 }
 
@@ -133,10 +153,10 @@ func FuzzJSONWriter(f *testing.F) {
 			s.Entries = []compare.Entry{{Observable: title, Title: reason, Result: r}}
 		}
 		var got, want bytes.Buffer
-		if err := JSON(&got, s); err != nil {
+		if err := JSON(&got, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {
 			t.Fatal(err)
 		}
-		if err := jsonEncoded(&want, s); err != nil {
+		if err := jsonEncoded(&want, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {
 			t.Fatal(err)
 		}
 		if !bytes.Equal(got.Bytes(), want.Bytes()) {

@@ -171,6 +171,41 @@ func (j *jsonWriter) summary(s jsonSummary) {
 	j.acceptances(s.Accepted)
 	j.key("observables")
 	list(j, s.Observables, j.entry)
+	if len(s.Missing) > 0 {
+		j.key("missing")
+		list(j, s.Missing, func(m *jsonMissing) {
+			j.open('{')
+			j.key("name")
+			j.str(m.Name)
+			j.key("verdict")
+			j.str(m.Verdict)
+			j.key("reason")
+			j.str(m.Reason)
+			j.close('}')
+		})
+	}
+	if len(s.Stale) > 0 {
+		j.key("stale_signoffs")
+		j.strs(s.Stale)
+	}
+	if st := s.Stamp; st != nil {
+		j.key("stamp")
+		j.open('{')
+		j.key("tool")
+		j.str(st.Tool)
+		j.key("time")
+		j.str(st.Time)
+		j.key("inputs")
+		list(j, st.Inputs, func(in *jsonInput) {
+			j.open('{')
+			j.key("file")
+			j.str(in.File)
+			j.key("sha256")
+			j.str(in.SHA256)
+			j.close('}')
+		})
+		j.close('}')
+	}
 	j.close('}')
 }
 

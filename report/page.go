@@ -258,6 +258,24 @@ func appendG6(b []byte, x float64) []byte {
 	return strconv.AppendFloat(b, x, 'g', 6, 64)
 }
 
+// noNegZero drops the minus sign of a number written from start on when
+// every digit of its mantissa is 0 ("-0", "-0.00", "-0.0e+00"): a value
+// that rounds to zero is shown as zero in the reports people read.
+func noNegZero(b []byte, start int) []byte {
+	if start >= len(b) || b[start] != '-' {
+		return b
+	}
+	for _, c := range b[start+1:] {
+		if c == 'e' || c == 'E' {
+			break
+		}
+		if c != '0' && c != '.' {
+			return b
+		}
+	}
+	return append(b[:start], b[start+1:]...)
+}
+
 // appendG appends x in the shortest form, as strconv.AppendFloat(b, x,
 // 'g', -1, 64) (and so fmt's %g) does; integers below 10⁶ (which 'g'
 // writes as integers) take a short cut.

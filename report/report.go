@@ -37,6 +37,10 @@ func Extension(format string) string {
 type Style struct {
 	// Color enables ANSI colour in text output.
 	Color bool
+	// Stamp, when set, is written into the report: the tool, the time
+	// and the digest of each input. Every report tandem writes has one;
+	// tests leave it out or fix it.
+	Stamp *Stamp
 	// MaxRows limits the per-bin rows of text and Markdown tables; beyond it
 	// the worst bins by |pull| are shown. 0 means 200.
 	MaxRows int
@@ -53,13 +57,13 @@ func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
 	case "text", "":
 		return Text(w, s, st)
 	case "json":
-		return JSON(w, s)
+		return JSON(w, s, st)
 	case "markdown":
 		return Markdown(w, s, st)
 	case "junit":
-		return JUnit(w, s)
+		return JUnit(w, s, st)
 	case "html":
-		return HTML(w, s)
+		return HTML(w, s, st)
 	}
 	return fmt.Errorf("unknown format %q (want text, json, markdown, junit or html)", format)
 }
@@ -74,7 +78,7 @@ func num(v float64) string {
 	case math.Abs(v) < 1e-4 || math.Abs(v) >= 1e6:
 		return strconv.FormatFloat(v, 'e', 3, 64)
 	}
-	return strconv.FormatFloat(v, 'g', 4, 64)
+	return string(noNegZero(strconv.AppendFloat(nil, v, 'g', 4, 64), 0))
 }
 
 // pval formats a p-value: four decimals, or three significant digits
@@ -93,13 +97,13 @@ func pval(p float64) string {
 // strconv.FormatFloat(v, 'f', places, 64) does.
 func fixed(v float64, places int) string {
 	var a [32]byte
-	return string(appendFixed(a[:0], v, places))
+	return string(noNegZero(appendFixed(a[:0], v, places), 0))
 }
 
 // val formats a table value exactly enough to read: six significant digits.
 func val(v float64) string {
 	var a [32]byte
-	return string(appendG6(a[:0], v))
+	return string(noNegZero(appendG6(a[:0], v), 0))
 }
 
 // rows picks the bins a human table shows: all of them up to the limit,
@@ -276,9 +280,9 @@ func binCells(dst []string, e compare.Entry, i int) []string {
 // which need no escaping in HTML or Markdown.
 func binRow(p *page, e compare.Entry, i int, pre, post string) {
 	p.s(pre).d(i + 1).s(post).s(pre)
-	p.b = appendG6(p.b, e.Lo[i])
+	p.b = noNegZero(appendG6(p.b, e.Lo[i]), len(p.b))
 	p.s(post).s(pre)
-	p.b = appendG6(p.b, e.Hi[i])
+	p.b = noNegZero(appendG6(p.b, e.Hi[i]), len(p.b))
 	p.s(post)
 	for _, ve := range [3][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}, {e.Diff[i], e.SigmaDiff[i]}} {
 		var k int
@@ -291,7 +295,7 @@ func binRow(p *page, e compare.Entry, i int, pre, post string) {
 	}
 	p.s(pre)
 	if pl := e.Pulls[i]; math.Abs(pl) < 1000 {
-		p.b = appendFixed(p.b, pl, 2)
+		p.b = noNegZero(appendFixed(p.b, pl, 2), len(p.b))
 	} else {
 		p.s(num(pl))
 	}
@@ -321,6 +325,14 @@ func withError(v, e float64) (string, string) {
 // appendWithError appends the value and the uncertainty of [withError]
 // one after the other, and returns where the uncertainty starts.
 func appendWithError(b []byte, v, e float64) ([]byte, int) {
+	start := len(b)
+	b, k := appendWithError1(b, v, e)
+	n := len(b)
+	b = noNegZero(b, start)
+	return b, k - (n - len(b))
+}
+
+func appendWithError1(b []byte, v, e float64) ([]byte, int) {
 	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
 		b = appendG6(b, v)
 		k := len(b)
@@ -377,4 +389,83 @@ func entryTitle(e compare.Entry) string {
 		t += fmt.Sprintf(" (%s vs %s)", e.Teams[0], e.Teams[1])
 	}
 	return t
+}
+
+// count writes n with the noun in the right number: "1 comparison",
+// "2 comparisons".
+func count(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return strconv.Itoa(n) + " " + many
+}
+
+// headline is the overall verdict of s (one of compare.Verdict*) and a
+// sentence of what it rests on, the same in every format.
+func headline(s *compare.Summary) (verdict, why string) {
+	verdict = s.Verdict()
+	n, k := len(s.Entries), s.Failures()
+	made := func() string {
+		if n == 0 {
+			return "no comparison made"
+		}
+		return count(n, "comparison", "comparisons") + " made, " + strconv.Itoa(k) + " failing"
+	}
+	switch verdict {
+	case compare.VerdictPass:
+		switch n {
+		case 0:
+			why = "no comparison to make"
+		case 1:
+			why = "the 1 comparison passes"
+		default:
+			why = "all " + strconv.Itoa(n) + " comparisons pass"
+		}
+	case compare.VerdictFail:
+		why = strconv.Itoa(k) + " of " + strconv.Itoa(n) + " comparisons fail"
+		if n == 1 {
+			why = "the 1 comparison fails"
+		}
+	case compare.VerdictIncomplete, compare.VerdictPending:
+		var names []string
+		for _, m := range s.Missing {
+			names = append(names, m.Observable)
+		}
+		why = "comparisons of " + count(len(names), "observable", "observables") + " missing: " + strings.Join(names, ", ") + "; " + made()
+	case compare.VerdictStale:
+		why = made() + ", but " + count(len(s.Stale), "sign-off is", "sign-offs are") + " stale"
+	}
+	return verdict, why
+}
+
+// missingLine is a missing comparison in words.
+func missingLine(m compare.Missing) string {
+	return m.Observable + ": " + m.Verdict + ", " + m.Reason
+}
+
+// warnings lists every warning of every comparison, each after the
+// comparison's title, for the top of a report.
+func warnings(s *compare.Summary) []string {
+	var out []string
+	for _, e := range s.Entries {
+		if e.Result == nil {
+			continue
+		}
+		for _, w := range e.Warnings {
+			out = append(out, entryTitle(e)+": "+w)
+		}
+	}
+	return out
+}
+
+// Warnings lists every warning of s, each after its comparison's title,
+// as the reports show them on top; cmd/tandem prints them on stderr.
+func Warnings(s *compare.Summary) []string { return warnings(cleanSummary(s)) }
+
+// verdictOf is compare.VerdictPass or compare.VerdictFail.
+func verdictOf(pass bool) string {
+	if pass {
+		return compare.VerdictPass
+	}
+	return compare.VerdictFail
 }
