@@ -52,6 +52,7 @@ type Style struct {
 func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
 	if format != "json" {
 		s = cleanSummary(s)
+		st.Stamp = cleanStamp(st.Stamp)
 	}
 	switch format {
 	case "text", "":
@@ -437,6 +438,10 @@ func headline(s *compare.Summary) (verdict, why string) {
 	}
 	return verdict, why
 }
+
+// Headline is the overall verdict of s and a sentence of what it rests
+// on, as the reports write them.
+func Headline(s *compare.Summary) (verdict, why string) { return headline(cleanSummary(s)) }
 
 // missingLine is a missing comparison in words.
 func missingLine(m compare.Missing) string {

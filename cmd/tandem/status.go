@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 
 	"tandem/blind/campaign"
@@ -28,7 +27,7 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		if err != nil {
 			return campaignErr(err)
 		}
-		if err := emit(e, s, cf.format, cf.output); err != nil {
+		if err := emitStamped(e, s, cf.format, cf.output, report.NewStamp(c.ReportInputs(true)...)); err != nil {
 			return err
 		}
 		if !s.Pass() {
@@ -44,7 +43,7 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		e.warnf("%s: incomplete: %s", p.Observable, p.Reason)
 	}
 	if len(s.Entries) > 0 {
-		if err := emit(e, s, cf.format, cf.output); err != nil {
+		if err := emitStamped(e, s, cf.format, cf.output, report.NewStamp(c.ReportInputs(false)...)); err != nil {
 			return err
 		}
 	}
@@ -180,66 +179,4 @@ func runVerify(e *env, args []string) error {
 	}
 	fmt.Fprintln(e.stdout, "verified: every check holds")
 	return nil
-}
-
-const reportHelp = `Usage:
-    tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
-
-Renders the campaign's comparison (blinded tables before unblinding, true
-tables after). Without --format, writes every format under DIR/reports/
-(campaign.* before unblinding, final.* after, the same files unblind
-writes). "tandem compare DIR" only prints.
-`
-
-func runReport(e *env, args []string) error {
-	fs := newFlags(e, "report", reportHelp)
-	var format, output string
-	fs.StringVar(&format, "format", "", "one `FORMAT`: html, markdown, junit, json or text")
-	stringVar(fs, &output, []string{"o", "output"}, "", "write to `FILE` instead of stdout")
-	pos, err := parse(fs, args)
-	if err != nil {
-		return err
-	}
-	dir, err := oneDir(pos, "report")
-	if err != nil {
-		return err
-	}
-	if format != "" && !slices.Contains(report.Formats, format) {
-		return usageErr("--format %q is not one of %s", format, strings.Join(report.Formats, ", "))
-	}
-	if format == "" && output != "" {
-		return usageErr("-o needs --format")
-	}
-	c, err := openCampaign(dir)
-	if err != nil {
-		return err
-	}
-	if format == "" {
-		var files []string
-		if c.Unblinded() {
-			files, err = c.WriteFinalReports()
-		} else {
-			files, err = c.WriteBlindedReports()
-		}
-		if err != nil {
-			return campaignErr(err)
-		}
-		e.infof("wrote %s", strings.Join(files, ", "))
-		return nil
-	}
-	if c.Unblinded() {
-		s, err := c.FinalSummary()
-		if err != nil {
-			return campaignErr(err)
-		}
-		return emit(e, s, format, output)
-	}
-	s, cmp, err := c.BlindedSummary()
-	if err != nil {
-		return campaignErr(err)
-	}
-	for _, p := range cmp.Incomplete {
-		e.warnf("%s: incomplete: %s", p.Observable, p.Reason)
-	}
-	return emit(e, s, format, output)
 }
