@@ -262,18 +262,27 @@ func appendG6(b []byte, x float64) []byte {
 // every digit of its mantissa is 0 ("-0", "-0.00", "-0.0e+00"): a value
 // that rounds to zero is shown as zero in the reports people read.
 func noNegZero(b []byte, start int) []byte {
-	if start >= len(b) || b[start] != '-' {
+	if !negZero(b[start:]) {
 		return b
 	}
-	for _, c := range b[start+1:] {
+	return append(b[:start], b[start+1:]...)
+}
+
+// negZero reports whether the number x starts with a minus sign and every
+// digit of its mantissa is 0.
+func negZero(x []byte) bool {
+	if len(x) == 0 || x[0] != '-' {
+		return false
+	}
+	for _, c := range x[1:] {
 		if c == 'e' || c == 'E' {
 			break
 		}
 		if c != '0' && c != '.' {
-			return b
+			return false
 		}
 	}
-	return append(b[:start], b[start+1:]...)
+	return true
 }
 
 // appendG appends x in the shortest form, as strconv.AppendFloat(b, x,

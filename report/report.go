@@ -328,9 +328,11 @@ func withError(v, e float64) (string, string) {
 func appendWithError(b []byte, v, e float64) ([]byte, int) {
 	start := len(b)
 	b, k := appendWithError1(b, v, e)
-	n := len(b)
-	b = noNegZero(b, start)
-	return b, k - (n - len(b))
+	if negZero(b[start:k]) { // the value rounds to zero
+		b = append(b[:start], b[start+1:]...)
+		k--
+	}
+	return b, k
 }
 
 func appendWithError1(b []byte, v, e float64) ([]byte, int) {
