@@ -169,9 +169,34 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 			return finish(e, c.run(e, args[1:]))
 		}
 	}
-	fmt.Fprintf(stderr, "tandem: error: unknown command %q\n", args[0])
+	fmt.Fprintf(stderr, "tandem: error: unknown command %q\n", report.EscapeText(args[0]))
+	if s := suggestCommand(args[0]); s != "" {
+		fmt.Fprintf(stderr, "tandem: hint: did you mean \"tandem %s\"?\n", s)
+	}
 	fmt.Fprintf(stderr, "tandem: hint: run \"tandem -h\" for the list of commands\n")
 	return 2
+}
+
+// suggestCommand returns the command closest to name, as suggestFlag
+// finds flags: one it starts, or one within an edit distance of 1 (2 for
+// names of five or more letters); "" if none is.
+func suggestCommand(name string) string {
+	name = strings.ToLower(strings.TrimLeft(name, "-"))
+	best, bestD := "", 1<<30
+	limit := 1
+	if len(name) >= 5 {
+		limit = 2
+	}
+	for _, c := range commands() {
+		d := editDistance(name, c.name)
+		if len(name) >= 3 && strings.HasPrefix(c.name, name) {
+			d = min(d, 1)
+		}
+		if d <= limit && d < bestD {
+			best, bestD = c.name, d
+		}
+	}
+	return best
 }
 
 func finish(e *env, err error) int {
@@ -325,6 +350,12 @@ func printFlags(w io.Writer, fs *flag.FlagSet) {
 			names[i] = dashed(n)
 		}
 		arg, help := flag.UnquoteUsage(en.f)
+		if !strings.Contains(en.f.Usage, "`") {
+			arg = placeholder(arg)
+		}
+		// UnquoteUsage takes the first `NAME` as the placeholder; later
+		// backquotes are emphasis the help would show raw
+		help = strings.ReplaceAll(help, "`", "")
 		line := "  " + strings.Join(names, ", ")
 		if arg != "" {
 			line += " " + arg
@@ -334,6 +365,25 @@ func printFlags(w io.Writer, fs *flag.FlagSet) {
 		}
 		fmt.Fprintf(w, "%s\n        %s\n", line, help)
 	}
+}
+
+// placeholder replaces the Go type name the flag package shows for a flag
+// whose help names no `VALUE` (float, string, int) with a word for what
+// is typed.
+func placeholder(goType string) string {
+	switch goType {
+	case "float":
+		return "X"
+	case "int", "int64", "uint", "uint64":
+		return "N"
+	case "string":
+		return "TEXT"
+	case "duration":
+		return "DURATION"
+	case "value":
+		return "VALUE"
+	}
+	return goType
 }
 
 // parse parses flags that may stand before or after positional arguments,
