@@ -112,7 +112,7 @@ func (f *frame) open(w *page, class, label, title, xlabel, ylabel string) {
 	if ym != "" {
 		ylabel = strings.TrimSpace(ylabel + " " + ym)
 	}
-	w.s(`<text class="axis" transform="translate(20,`).g((f.top + f.h - f.bottom) / 2).s(`) rotate(-90)" text-anchor="middle">`).e(ylabel).s("</text>\n")
+	w.s(`<text class="axis" transform="translate(20,`).g((f.top+f.h-f.bottom)/2).s(`) rotate(-90)" text-anchor="middle">`).et(ylabel, true).s("</text>\n")
 }
 
 // axis is the drawn ticks of one axis of a frame: for x the major ticks

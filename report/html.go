@@ -25,13 +25,13 @@ h2{font-size:1.35em;border-top:2px solid #ccd2dc;padding-top:.8em;margin-top:2.4
 .banner.fail{border-color:#8a1c12;background:#fbeeec}
 .banner.incomplete,.banner.pending,.banner.stale{border-color:#9a4a00;background:#fff1e0}
 .incomplete,.pending,.stale{color:#9a4a00;font-weight:700}
-.stamp{font-size:.85em;color:#4a5363;overflow-wrap:anywhere}
+.banner.state{font-size:1.1em;padding:.3em 1em}
+.stamp{font-size:.9em;color:#4a5363;overflow-wrap:anywhere}
 .banner.accepted{border-color:#b07d0e;background:#fdf5e2}
 .banner b{font-weight:700}
 table{border-collapse:collapse;margin:.6em 0;font-variant-numeric:tabular-nums}
 td,th{padding:.2em .7em;border-bottom:1px solid #e1e4ea;text-align:right}
 th{text-align:left;background:#f1f3f7}td:first-child{text-align:left}
-.toc{columns:2;font-size:.95em}.toc li{break-inside:avoid}
 figure{margin:1em 0;break-inside:avoid;page-break-inside:avoid}
 svg{display:block;width:100%;height:auto;background:#fff}
 .note{background:#f5f6f8;padding:.4em .8em;border-left:3px solid #858fa0;margin:.4em 0}
@@ -43,7 +43,7 @@ label{font-size:.95em;margin-left:.3em}
 details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 @media print{
   body{max-width:none;margin:0;padding:0;font-size:11pt}
-  .toc{columns:1}h2{break-before:page;page-break-before:always;border-top:none}
+  h2{break-before:page;page-break-before:always;border-top:none}
   figure{break-inside:avoid;page-break-inside:avoid;width:100%}
   .logtoggle,.logtoggle+label{display:none}
   a{color:inherit;text-decoration:none}
@@ -52,8 +52,10 @@ details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 
 // HTML writes one self-contained page (inline CSS and SVG, no script, no
 // network), made to be projected in a meeting and printed or saved as PDF:
-// the overall verdict on top with any accepted disagreement beside it, a
-// table of contents with failing comparisons first, and for each
+// the overall verdict on top with the missing comparisons, stale sign-offs
+// and any accepted disagreement beside it, every warning, a table of the
+// key numbers of each comparison (failing first, each linked to its
+// section) before the notes, and for each
 // comparison, over the full page width, the two chains' values (A as
 // points with error bars and bin-width bars, B as a step with its error
 // band), their ratio with the combined uncertainty band, the pulls per bin
@@ -83,10 +85,10 @@ func HTML(w io.Writer, s *compare.Summary, st Style) error {
 	v, why := headline(s)
 	p.s(`<p class="banner `).s(v).s(`">Verdict: <b class="`).s(v).s(`">`).s(v).s("</b>: ").e(why).s("</p>\n")
 	for _, m := range s.Missing {
-		p.s(`<p class="banner `).s(m.Verdict).s(`"><b>`).s(m.Verdict).s("</b>: ").e(m.Observable).s(": ").e(m.Reason).s("</p>\n")
+		p.s(`<p class="banner state `).s(m.Verdict).s(`"><b>`).s(m.Verdict).s("</b>: ").e(m.Observable).s(": ").e(m.Reason).s("</p>\n")
 	}
 	for _, x := range s.Stale {
-		p.s(`<p class="banner stale"><b>stale</b> sign-off: `).e(x).s("</p>\n")
+		p.s(`<p class="banner state stale"><b>stale</b> sign-off: `).e(x).s("</p>\n")
 	}
 	for _, a := range s.Accepted {
 		acceptedHTML(p, a)
@@ -98,13 +100,8 @@ func HTML(w io.Writer, s *compare.Summary, st Style) error {
 	for _, n := range s.Notes {
 		p.s(`<p class="note">`).e(n).s("</p>\n")
 	}
-	p.s(`<h3>Contents</h3><ol class="toc">` + "\n")
-	entries := ordered(s)
-	for i, e := range entries {
-		p.s(`<li><a href="#c`).d(i).s(`">`).e(entryTitle(e)).s("</a> ").s(verdictSpan(e.Pass)).s("</li>\n")
-	}
-	p.s("</ol>\n")
-	for i, e := range entries {
+	// the table of key numbers links each comparison: it is the contents
+	for i, e := range ordered(s) {
 		entryHTML(p, "c"+strconv.Itoa(i), e, s.Accepted)
 		p.maybeFlush()
 	}
@@ -195,16 +192,16 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 		p.s("<p>The p-values are adjusted together (Holm) over ").d(e.Family).s(" p-values, so that agreeing chains fail with probability at most α = ").s(num(e.Alpha)).s(".</p>\n")
 	}
 	if l := sourcesLine(e); l != "" {
-		p.s("<p>").e(capitalize(l)).s("</p>\n")
+		p.s("<p>").et(capitalize(l), false).s("</p>\n")
 	}
 	for _, c := range e.Criteria {
 		if !c.Pass && c.Detail != "" {
-			p.s(`<p class="note">`).e(c.Name).s(": ").e(c.Detail).s("</p>\n")
+			p.s(`<p class="note">`).e(c.Name).s(": ").et(c.Detail, false).s("</p>\n")
 		}
 	}
-	p.s("<p>").e(capitalize(shapeLine(e))).s("</p>\n")
+	p.s("<p>").et(capitalize(shapeLine(e)), false).s("</p>\n")
 	for _, wn := range e.Warnings {
-		p.s(`<p class="note warn">`).e(wn).s("</p>\n")
+		p.s(`<p class="note warn">`).et(wn, false).s("</p>\n")
 	}
 	binTableHTML(p, e)
 }

@@ -80,6 +80,25 @@ func (p *page) e(x string) *page {
 	return p
 }
 
+// et appends x escaped as [page.e] does, with σ_d (the uncertainty of the
+// difference) written with a real subscript: σ<sub>d</sub> in HTML, or a
+// lowered tspan inside SVG text when svg is set.
+func (p *page) et(x string, svg bool) *page {
+	for {
+		before, after, ok := strings.Cut(x, "σ_d")
+		if !ok {
+			return p.e(x)
+		}
+		p.e(before)
+		if svg {
+			p.s(`σ<tspan baseline-shift="sub" font-size="75%">d</tspan>`)
+		} else {
+			p.s("σ<sub>d</sub>")
+		}
+		x = after
+	}
+}
+
 // f1 appends x as fmt's %.1f writes it.
 func (p *page) f1(x float64) *page {
 	p.set(appendF1(p.b, x))
