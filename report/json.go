@@ -329,7 +329,7 @@ func JSON(w io.Writer, s *compare.Summary, st Style) error {
 		}
 	}
 	p := newPage(w, size)
-	j := jsonWriter{b: p.b}
+	j := jsonWriter{b: p.b, p: p}
 	j.summary(jsonValue(s, st.Stamp))
 	p.b = append(j.b, '\n')
 	return p.flush()

@@ -89,6 +89,25 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		{Observable: "azi\u2028muth", Verdict: compare.VerdictPending, Reason: "re-sealed ]]> by heron"}}
 	state.Stale = []string{"heron: stale after a seal of zenith", "\xff: x"}
 	out["state"] = state
+	// large: longer than a page flush, with undefined and infinite values
+	// spread through the lists
+	n := 40_000
+	rng := rand.New(rand.NewPCG(3, 4))
+	va, vb, ea := make([]float64, n), make([]float64, n), make([]float64, n)
+	for i := range n {
+		va[i], vb[i], ea[i] = rng.NormFloat64()*1e3, rng.NormFloat64()*1e-3, math.Abs(rng.NormFloat64())
+		switch i % 997 {
+		case 5:
+			ea[i], va[i], vb[i] = 0, 1, 2 // infinite pull
+		case 7:
+			ea[i], va[i], vb[i] = 0, 3, 3 // undefined pull
+		}
+	}
+	large, err := compare.Series(mk(va, ea), mk(vb, ea), compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	out["large"] = &compare.Summary{Entries: []compare.Entry{{Observable: "large", Result: large}}}
 	text := fixture(t)
 	text.Title = "ti\x1b[2Jtle <b>&amp;</b> \"q\" \\ \b\f\n\r\t\x00\x7f"
 	text.Notes = []string{"no\u202ete", "\u2028\u2029", "bad \xff\xfe utf8 \xe2\x80", "\u0085 \u061c \u200e\u200f \u2066\u2069 é 漢 😀"}
@@ -106,16 +125,37 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 func TestJSONWriterMatchesEncoding(t *testing.T) {
 	for name, s := range jsonSummaries(t) {
 		for _, st := range []Style{{}, {Stamp: testStamp()}} {
-			var got, want bytes.Buffer
+			var got, streamed, want bytes.Buffer
 			if err := JSON(&got, s, st); err != nil {
+				t.Fatal(err)
+			}
+			// a writer that is not a bytes.Buffer gets the document in
+			// pieces, as it is written
+			w := &countingWriter{w: &streamed}
+			if err := JSON(w, s, st); err != nil {
 				t.Fatal(err)
 			}
 			if err := jsonEncoded(&want, s, st); err != nil {
 				t.Fatal(err)
 			}
 			checkSameJSON(t, name, got.Bytes(), want.Bytes())
+			checkSameJSON(t, name+" (streamed)", streamed.Bytes(), want.Bytes())
+			if name == "large" && w.writes < 4 {
+				t.Errorf("large: the JSON came in %d writes of %d bytes, not streamed", w.writes, streamed.Len())
+			}
 		}
 	}
+}
+
+// countingWriter counts the writes it passes on.
+type countingWriter struct {
+	w      io.Writer
+	writes int
+}
+
+func (c *countingWriter) Write(p []byte) (int, error) {
+	c.writes++
+	return c.w.Write(p)
 }
 
 // checkSameJSON reports where got first differs from want.
@@ -153,7 +193,7 @@ func FuzzJSONWriter(f *testing.F) {
 			s.Entries = []compare.Entry{{Observable: title, Title: reason, Result: r}}
 		}
 		var got, want bytes.Buffer
-		if err := JSON(&got, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {
+		if err := JSON(&countingWriter{w: &got}, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {
 			t.Fatal(err)
 		}
 		if err := jsonEncoded(&want, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {

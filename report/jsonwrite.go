@@ -14,7 +14,11 @@ import (
 // returns and its second pass to indent cost several times more than the
 // writing itself for the per-bin lists.
 type jsonWriter struct {
-	b     []byte
+	b []byte
+	// p, when set, is the page the document streams through: long lists
+	// pass their bytes on to it as they grow, so that the document is
+	// never held whole.
+	p     *page
 	depth int
 	// first says that the innermost open object or list has no member
 	// yet.
@@ -133,6 +137,9 @@ func (j *jsonWriter) nums(v any) {
 	for i, x := range xs {
 		if i > 0 {
 			j.b = append(j.b, ',')
+			if i&1023 == 0 {
+				j.maybeFlush()
+			}
 		}
 		j.newline()
 		j.b = appendJSONNumber(j.b, x)
@@ -141,6 +148,17 @@ func (j *jsonWriter) nums(v any) {
 	j.newline()
 	j.b = append(j.b, ']')
 	j.first = false
+}
+
+// maybeFlush passes the document written so far on to the page's writer
+// once it is large.
+func (j *jsonWriter) maybeFlush() {
+	if j.p == nil || len(j.b) < flushAt {
+		return
+	}
+	j.p.b = j.b
+	j.p.maybeFlush()
+	j.b = j.p.b
 }
 
 func (j *jsonWriter) numPtr(v *jnum) {
