@@ -89,9 +89,10 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		{Observable: "azi\u2028muth", Verdict: compare.VerdictPending, Reason: "re-sealed ]]> by heron"}}
 	state.Stale = []string{"heron: stale after a seal of zenith", "\xff: x"}
 	out["state"] = state
-	// large: longer than a page flush, with undefined and infinite values
-	// spread through the lists
-	n := 40_000
+	// large: longer than a page flush, with lists long enough to be
+	// formatted on every core (2·chunkNums and more), and undefined and
+	// infinite values spread through them
+	n := 2*chunkNums + 4321
 	rng := rand.New(rand.NewPCG(3, 4))
 	va, vb, ea := make([]float64, n), make([]float64, n), make([]float64, n)
 	for i := range n {
