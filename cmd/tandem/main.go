@@ -55,17 +55,20 @@ Usage:
     tandem unblind DIR --identity FILE [--key FILE]
     tandem verify DIR
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
+                                           (exit 1 while incomplete, pending
+                                           or stale)
 
     tandem --version                       the version and the revision built
 
 Run "tandem COMMAND -h" for the flags of one command. Flags may come before
 or after the positional arguments. With -o FILE and no --format, the file's
-extension (.txt .json .md .xml .html) chooses the format.
+extension (.txt .json .md .xml .html) chooses the format. Every report is
+stamped with the version, the time and the SHA-256 of each input.
 
 Exit status:
     0  success, or the chains agree
-    1  the chains disagree, or a step was refused (missing sign-off,
-       failed verification)
+    1  the chains disagree, a step was refused (missing sign-off,
+       failed verification), or report found the campaign not complete
     2  bad usage or bad input (the message names the file, line and column)
 `
 
@@ -151,6 +154,9 @@ func commands() []command {
 }
 
 func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
+	if Version != "" {
+		report.Version = Version // the reports' stamps name it too
+	}
 	e := &env{stdin: stdin, stdout: stdout, stderr: stderr}
 	if len(args) == 0 {
 		fmt.Fprint(stderr, usage)
