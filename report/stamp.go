@@ -1,10 +1,6 @@
 package report
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
-	"hash"
-	"io"
 	"runtime/debug"
 	"strings"
 	"time"
@@ -83,26 +79,6 @@ func Tool() string {
 	}
 	return out
 }
-
-// Hasher computes the SHA-256 of an input while it is read, for a
-// [Stamp]: wrap the reader with [Hasher.Reader], read, then call
-// [Hasher.Input].
-type Hasher struct {
-	name string
-	h    hash.Hash
-}
-
-// NewHasher starts the digest of the input called name.
-func NewHasher(name string) *Hasher { return &Hasher{name: name, h: sha256.New()} }
-
-// Reader returns r with every byte read from it also hashed.
-func (h *Hasher) Reader(r io.Reader) io.Reader { return io.TeeReader(r, h.h) }
-
-// Write hashes p.
-func (h *Hasher) Write(p []byte) (int, error) { return h.h.Write(p) }
-
-// Input is the input and the digest of what was hashed so far.
-func (h *Hasher) Input() Input { return Input{Name: h.name, SHA256: hex.EncodeToString(h.h.Sum(nil))} }
 
 // stampTime writes t as RFC 3339 in UTC, to the second.
 func stampTime(t time.Time) string { return t.UTC().Format(time.RFC3339) }
