@@ -226,6 +226,9 @@ func pullLimit(e compare.Entry) float64 {
 // shapeLine describes the pull distribution in one sentence, with n/a for
 // what is undefined (a width needs two pulls).
 func shapeLine(e compare.Entry) string {
+	if identical(e) {
+		return "pulls: all 0, the tables are identical bin for bin (two independent chains do not give this); χ²/ndf = " + chi2NDF(e)
+	}
 	n := len(pullsUsed(e))
 	b := make([]byte, 0, 160)
 	b = append(b, "pulls: mean "...)
@@ -246,6 +249,19 @@ func shapeLine(e compare.Entry) string {
 	}
 	b = append(append(append(append(b, " (p = "...), pval(e.RunsP)...), "); χ²/ndf = "...), chi2NDF(e)...)
 	return string(b)
+}
+
+// identical reports whether both sides hold the same value in every bin.
+func identical(e compare.Entry) bool {
+	if e.Result == nil || e.NDF == 0 || len(e.A) != len(e.B) {
+		return false
+	}
+	for i := range e.A {
+		if e.A[i] != e.B[i] {
+			return false
+		}
+	}
+	return true
 }
 
 // chi2NDF writes χ²/ndf as "12.3/10", or "n/a (ndf 0)" when no bin
