@@ -108,10 +108,10 @@ func notComplete(s *compare.Summary) error {
 		return nil
 	}
 	v, why := report.Headline(s)
-	if len(s.Missing) == 0 {
-		why = "stale sign-offs of " + strings.Join(staleParties(s), ", ")
+	if len(s.Missing) > 0 {
+		return refused(fmt.Errorf("the campaign is not complete (%s): %s", v, why))
 	}
-	return refused(fmt.Errorf("the campaign is not complete (%s): %s", v, why))
+	return refused(fmt.Errorf("the campaign is not complete: the sign-offs of %s are stale (verdict %s)", strings.Join(staleParties(s), ", "), v))
 }
 
 // emit writes the report of s in format to path (stdout when empty),
