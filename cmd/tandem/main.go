@@ -12,6 +12,8 @@
 package main
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"flag"
 	"fmt"
@@ -121,6 +123,9 @@ var silentFail = &exitError{code: 1, err: errors.New("")}
 type env struct {
 	stdin          io.Reader
 	stdout, stderr io.Writer
+	// stdinDigest, when set, is the SHA-256 of what was read from stdin
+	// (for the stamp of a report that compares it).
+	stdinDigest func() string
 }
 
 func (e *env) warnf(format string, args ...any) {
@@ -172,6 +177,13 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	}
 	for _, c := range commands() {
 		if c.name == args[0] {
+			if c.name == "compare" {
+				// a table read from stdin is hashed as it is read, for
+				// the report's stamp (seal needs the *os.File itself)
+				h := sha256.New()
+				e.stdin = io.TeeReader(stdin, h)
+				e.stdinDigest = func() string { return hex.EncodeToString(h.Sum(nil)) }
+			}
 			return finish(e, c.run(e, args[1:]))
 		}
 	}

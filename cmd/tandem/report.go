@@ -12,6 +12,7 @@ import (
 
 	"tandem/blind/safefile"
 	"tandem/compare"
+	"tandem/compare/table"
 	"tandem/report"
 )
 
@@ -127,7 +128,14 @@ func emitStamped(e *env, s *compare.Summary, format, path string, stamp *report.
 	var wg sync.WaitGroup
 	if stamp == nil {
 		stamp = report.NewStamp()
-		wg.Go(func() { stamp.Inputs = hashInputs(tableFiles(s)) })
+		wg.Go(func() {
+			stamp.Inputs = hashInputs(tableFiles(s))
+			for i, in := range stamp.Inputs {
+				if in.Name == table.StdinName && e.stdinDigest != nil {
+					stamp.Inputs[i].SHA256 = e.stdinDigest()
+				}
+			}
+		})
 	}
 	st := report.Style{Color: path == "" && format == "text" && colorOK(e.stdout), Stamp: stamp}
 	// Reading the files again to hash them is cheap next to parsing them
@@ -170,8 +178,9 @@ func tableFiles(s *compare.Summary) []string {
 }
 
 // hashInputs returns each file with the SHA-256 of its bytes. A ROOT
-// object (FILE.root:PATH) is hashed as its file; the standard input ("-")
-// and a file that cannot be read again (a pipe) have no digest.
+// object (FILE.root:PATH) is hashed as its file; the standard input is
+// hashed while it is read (see run), and a file that cannot be read again
+// (a named pipe) has no digest.
 func hashInputs(files []string) []report.Input {
 	out := make([]report.Input, len(files))
 	var wg sync.WaitGroup
@@ -184,7 +193,7 @@ func hashInputs(files []string) []report.Input {
 }
 
 func hashFile(name string) string {
-	if name == "-" {
+	if name == "-" || name == table.StdinName {
 		return ""
 	}
 	path := name
