@@ -32,6 +32,37 @@ type Acceptance struct {
 	Reason string `json:"reason"`
 }
 
+// The verdicts of a report, one vocabulary in every format. A comparison
+// that was made passes or fails; a campaign adds three states in which
+// its overall verdict cannot be pass or fail yet.
+const (
+	// VerdictPass: every comparison was made and is within tolerance.
+	VerdictPass = "pass"
+	// VerdictFail: a comparison is outside tolerance.
+	VerdictFail = "fail"
+	// VerdictIncomplete: an observable has not been sealed by every team,
+	// so its comparisons are missing.
+	VerdictIncomplete = "incomplete"
+	// VerdictPending: every team sealed, but a seal (a first seal or a
+	// re-seal) waits for the custodian's blind step, so the comparison
+	// of the latest tables is missing.
+	VerdictPending = "pending"
+	// VerdictStale: every comparison was made and passes, but a sign-off
+	// was made on an earlier state of the campaign.
+	VerdictStale = "stale"
+)
+
+// Missing is a comparison a campaign cannot make yet.
+type Missing struct {
+	// Observable names the observable whose comparisons are missing
+	// (every column and every pair of teams).
+	Observable string
+	// Verdict is VerdictIncomplete or VerdictPending.
+	Verdict string
+	// Reason says why, in words ("not sealed yet by otter").
+	Reason string
+}
+
 // Summary is a set of comparisons with one overall verdict.
 type Summary struct {
 	Entries []Entry
@@ -49,6 +80,12 @@ type Summary struct {
 	// Accepted lists the disagreements the signing parties accepted;
 	// reports show them beside the verdict they qualify.
 	Accepted []Acceptance
+	// Missing lists the comparisons a campaign cannot make yet; each is a
+	// verdict of its own in every report.
+	Missing []Missing
+	// Stale lists the sign-offs made on an earlier state of the campaign,
+	// each as "party: why".
+	Stale []string
 }
 
 // Pass reports whether every entry passes.
@@ -66,14 +103,54 @@ func (s *Summary) Pass() bool {
 	return true
 }
 
-// Verdict is "pass" or "fail".
-func (s *Summary) Verdict() string { return verdict(s.Pass()) }
+// Complete reports whether every comparison was made and no sign-off is
+// stale: only then is the verdict pass or fail.
+func (s *Summary) Complete() bool { return len(s.Missing) == 0 && len(s.Stale) == 0 }
+
+// Verdict is the overall verdict: incomplete when an observable is
+// missing a team's seal, else pending when a seal waits for the blind
+// step, else fail when a comparison fails, else stale when a sign-off is
+// stale, else pass.
+func (s *Summary) Verdict() string {
+	pending := false
+	for _, m := range s.Missing {
+		if m.Verdict != VerdictPending {
+			return VerdictIncomplete
+		}
+		pending = true
+	}
+	switch {
+	case pending:
+		return VerdictPending
+	case !s.Pass():
+		return VerdictFail
+	case len(s.Stale) > 0:
+		return VerdictStale
+	}
+	return VerdictPass
+}
+
+// Failures counts the entries that fail.
+func (s *Summary) Failures() int {
+	n := 0
+	for _, t := range s.Teams {
+		if !t.Pass {
+			n++
+		}
+	}
+	for _, e := range s.Entries {
+		if !e.Pass {
+			n++
+		}
+	}
+	return n
+}
 
 func verdict(ok bool) string {
 	if ok {
-		return "pass"
+		return VerdictPass
 	}
-	return "fail"
+	return VerdictFail
 }
 
 // Sides returns the names of the two chains compared: the team names in a

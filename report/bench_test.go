@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -131,6 +132,40 @@ func benchFormats(b *testing.B, s *compare.Summary) {
 			}
 			reportCPU(b, start, ok)
 			b.ReportMetric(float64(buf.Len()), "bytes")
+		})
+	}
+}
+
+// BenchmarkJSONMillion writes the JSON report of one comparison of 10⁶
+// bins to a plain writer that drops it, as the command streams it to a
+// file: the cost of the report alone, beside the text report of the same
+// comparison.
+//
+//	go test -run '^$' -bench JSONMillion -benchtime 5x -benchmem ./report
+func BenchmarkJSONMillion(b *testing.B) {
+	rng := rand.New(rand.NewPCG(5, 1_000_000))
+	a, bb := benchSeries(rng, 1_000_000)
+	// values as the 10⁶-bin tables of the README hold them: six
+	// significant digits, log-spaced edges with 17
+	for i := range a.V {
+		a.Lo[i], a.Hi[i] = math.Pow(10, float64(i)/2e5), math.Pow(10, float64(i+1)/2e5)
+		bb.Lo[i], bb.Hi[i] = a.Lo[i], a.Hi[i]
+	}
+	r, err := compare.Series(a, bb, compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		b.Fatal(err)
+	}
+	s := &compare.Summary{Entries: []compare.Entry{{Observable: "spectrum", Result: r}}}
+	for _, f := range []string{"text", "json"} {
+		b.Run(f, func(b *testing.B) {
+			w := &countingWriter{w: io.Discard}
+			start, ok := cpuTime()
+			for b.Loop() {
+				if err := Render(w, f, s, Style{}); err != nil {
+					b.Fatal(err)
+				}
+			}
+			reportCPU(b, start, ok)
 		})
 	}
 }

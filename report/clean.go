@@ -196,3 +196,25 @@ func cleanResult(r *events.Result) *events.Result {
 	c.Failures = cleanList(r.Failures)
 	return &c
 }
+
+// cleanStamp returns st with its free text (the tool and the file names)
+// safe to show: st itself when nothing needs cleaning.
+func cleanStamp(st *Stamp) *Stamp {
+	if st == nil {
+		return nil
+	}
+	dirty := needsCleaning(st.Tool)
+	for _, in := range st.Inputs {
+		dirty = dirty || needsCleaning(in.Name, in.SHA256)
+	}
+	if !dirty {
+		return st
+	}
+	c := *st
+	c.Tool = cleanText(st.Tool)
+	c.Inputs = make([]Input, len(st.Inputs))
+	for i, in := range st.Inputs {
+		c.Inputs[i] = Input{Name: cleanText(in.Name), SHA256: cleanText(in.SHA256)}
+	}
+	return &c
+}

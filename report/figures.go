@@ -112,7 +112,7 @@ func (f *frame) open(w *page, class, label, title, xlabel, ylabel string) {
 	if ym != "" {
 		ylabel = strings.TrimSpace(ylabel + " " + ym)
 	}
-	w.s(`<text class="axis" transform="translate(20,`).g((f.top + f.h - f.bottom) / 2).s(`) rotate(-90)" text-anchor="middle">`).e(ylabel).s("</text>\n")
+	w.s(`<text class="axis" transform="translate(20,`).g((f.top+f.h-f.bottom)/2).s(`) rotate(-90)" text-anchor="middle">`).et(ylabel, true).s("</text>\n")
 }
 
 // axis is the drawn ticks of one axis of a frame: for x the major ticks
@@ -234,7 +234,12 @@ func figure(w *page, id string, e compare.Entry, limit float64) {
 	a, b := e.Sides()
 	gs, k := groups(e.Bins)
 	overlaySVG(w, e, a, b, gs, k)
-	ratioSVG(w, e, a, b, gs, k)
+	// Blinding maps every value by one affine map v → s·v + t per bin,
+	// which keeps differences in units of their uncertainty (the pulls)
+	// but not ratios: a blinded ratio says nothing about the true one.
+	if !e.Blinded {
+		ratioSVG(w, e, a, b, gs, k)
+	}
 	pullsSVG(w, e, limit, gs, k)
 }
 
@@ -287,8 +292,11 @@ func overlaySVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	if k > 1 {
 		la, lb = "band = lowest to highest value per group", "lines = lowest and highest"
 	}
-	w.s(`<text x="`).g(f.left).s(`" y="`).g(f.top - 10).s(`"><tspan fill="` + colorA + `">◇ `).e(shorten(a, 28)).s(": ").s(la).
-		s(`</tspan><tspan dx="18" fill="` + colorB + `">▭ `).e(shorten(b, 28)).s(": ").s(lb).s("</tspan></text>\n")
+	w.s(`<text x="`).g(f.left).s(`" y="`).g(f.top - 10).s(`"><tspan fill="` + colorA + `">◇ `)
+	svgName(w, a, 28)
+	w.s(": ").s(la).s(`</tspan><tspan dx="18" fill="` + colorB + `">▭ `)
+	svgName(w, b, 28)
+	w.s(": ").s(lb).s("</tspan></text>\n")
 	if k > 1 {
 		overlayDecimated(w, f, e, gs)
 	} else {
@@ -401,9 +409,10 @@ func extent(xs []float64) (lo, hi float64) {
 	return lo, hi
 }
 
-// ratioSVG draws b/a per bin over the band 1 ± σ_d/|a|, the combined
-// uncertainty of the difference relative to a: a point outside the band is
-// a pull beyond ±1. Bins with a = 0 have no ratio and are left out. Points
+// ratioSVG draws a/b per bin over the band 1 ± σ_d/|b|, the combined
+// uncertainty of the difference relative to b: a point outside the band is
+// a pull beyond ±1, on the same side as the pull (a − b)/σ_d of the panel
+// below. Bins with b = 0 have no ratio and are left out. Points
 // beyond the axis range are drawn as triangles on its edge.
 func ratioSVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	f := &frame{w: figW, h: 200, left: figLeft, right: figRight, top: 30, bottom: 40}
@@ -413,11 +422,11 @@ func ratioSVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	var devs, bands []float64
 	for i := range ratio {
 		ratio[i], band[i] = math.NaN(), math.NaN()
-		if e.A[i] == 0 || math.IsNaN(e.A[i]) || math.IsInf(e.A[i], 0) {
+		if e.B[i] == 0 || math.IsNaN(e.B[i]) || math.IsInf(e.B[i], 0) {
 			continue
 		}
-		ratio[i] = e.B[i] / e.A[i]
-		band[i] = e.SigmaDiff[i] / math.Abs(e.A[i])
+		ratio[i] = e.A[i] / e.B[i]
+		band[i] = e.SigmaDiff[i] / math.Abs(e.B[i])
 		if !math.IsInf(band[i], 0) && !math.IsNaN(band[i]) {
 			bands = append(bands, band[i])
 		}
@@ -445,9 +454,9 @@ func ratioSVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	f.y0, f.y1 = 1-1.1*half, 1+1.1*half
 	ylabel := "ratio"
 	if utf8.RuneCountInString(a+b) <= 14 {
-		ylabel = b + " / " + a
+		ylabel = a + " / " + b
 	}
-	f.open(w, "ratio", "ratio "+b+" / "+a, "ratio "+shorten(b, 14)+" / "+shorten(a, 14)+", band = combined uncertainty", "", ylabel)
+	f.open(w, "ratio", "ratio "+a+" / "+b, "ratio "+shorten(a, 14)+" / "+shorten(b, 14)+", band = combined uncertainty", "", ylabel)
 	w.s(`<line x1="`).g(f.left).s(`" x2="`).g(f.w - f.right).s(`" y1="`).f1(f.py(1)).s(`" y2="`).f1(f.py(1)).s(`" stroke="` + colorAxis + `"/>` + "\n")
 	over := 0
 	for _, g := range gs {
@@ -493,14 +502,28 @@ func ratioSVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 	w.s("</svg>\n")
 }
 
-// shorten keeps the last n-1 characters of a long name (the informative
-// end of a file path) after an ellipsis.
+// shorten fits a long name into n characters with an ellipsis in the
+// middle, keeping its start (the folder) and its end (the file name and
+// extension), e.g. "heron/long/…/spectrum.csv".
 func shorten(s string, n int) string {
 	r := []rune(s)
-	if len(r) <= n {
+	if len(r) <= n || n < 3 {
 		return s
 	}
-	return "…" + string(r[len(r)-n+1:])
+	tail := (n - 1) / 2
+	head := n - 1 - tail
+	return string(r[:head]) + "…" + string(r[len(r)-tail:])
+}
+
+// svgName appends a name shortened to n characters, with the whole name
+// in a <title> (a tooltip) when it was shortened.
+func svgName(w *page, s string, n int) {
+	short := shorten(s, n)
+	if short == s {
+		w.e(s)
+		return
+	}
+	w.s("<tspan><title>").e(s).s("</title>").e(short).s("</tspan>")
 }
 
 // quantile returns the q-quantile of xs (the nearest rank), 0 for none.

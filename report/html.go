@@ -21,14 +21,17 @@ h2{font-size:1.35em;border-top:2px solid #ccd2dc;padding-top:.8em;margin-top:2.4
 .subtitle{font-size:1.1em;color:#3b4454;margin:-.5em 0 .6em}
 .pass{color:#1d6b35;font-weight:600}.fail{color:#8a1c12;font-weight:700}
 .banner{font-size:1.35em;padding:.5em 1em;border-left:.4em solid;margin:.5em 0;max-width:none}
-.banner.agree{border-color:#1d6b35;background:#eef6f0}
-.banner.disagree{border-color:#8a1c12;background:#fbeeec}
+.banner.pass{border-color:#1d6b35;background:#eef6f0}
+.banner.fail{border-color:#8a1c12;background:#fbeeec}
+.banner.incomplete,.banner.pending,.banner.stale{border-color:#9a4a00;background:#fff1e0}
+.incomplete,.pending,.stale{color:#9a4a00;font-weight:700}
+.banner.state{font-size:1.1em;padding:.3em 1em}
+.stamp{font-size:.9em;color:#4a5363;overflow-wrap:anywhere}
 .banner.accepted{border-color:#b07d0e;background:#fdf5e2}
 .banner b{font-weight:700}
 table{border-collapse:collapse;margin:.6em 0;font-variant-numeric:tabular-nums}
 td,th{padding:.2em .7em;border-bottom:1px solid #e1e4ea;text-align:right}
 th{text-align:left;background:#f1f3f7}td:first-child{text-align:left}
-.toc{columns:2;font-size:.95em}.toc li{break-inside:avoid}
 figure{margin:1em 0;break-inside:avoid;page-break-inside:avoid}
 svg{display:block;width:100%;height:auto;background:#fff}
 .note{background:#f5f6f8;padding:.4em .8em;border-left:3px solid #858fa0;margin:.4em 0}
@@ -40,7 +43,7 @@ label{font-size:.95em;margin-left:.3em}
 details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 @media print{
   body{max-width:none;margin:0;padding:0;font-size:11pt}
-  .toc{columns:1}h2{break-before:page;page-break-before:always;border-top:none}
+  h2{break-before:page;page-break-before:always;border-top:none}
   figure{break-inside:avoid;page-break-inside:avoid;width:100%}
   .logtoggle,.logtoggle+label{display:none}
   a{color:inherit;text-decoration:none}
@@ -49,8 +52,10 @@ details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 
 // HTML writes one self-contained page (inline CSS and SVG, no script, no
 // network), made to be projected in a meeting and printed or saved as PDF:
-// the overall verdict on top with any accepted disagreement beside it, a
-// table of contents with failing comparisons first, and for each
+// the overall verdict on top with the missing comparisons, stale sign-offs
+// and any accepted disagreement beside it, every warning, a table of the
+// key numbers of each comparison (failing first, each linked to its
+// section) before the notes, and for each
 // comparison, over the full page width, the two chains' values (A as
 // points with error bars and bin-width bars, B as a step with its error
 // band), their ratio with the combined uncertainty band, the pulls per bin
@@ -58,7 +63,7 @@ details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 // linear or log count axis, the criteria in a fixed order and a collapsible
 // per-bin table. Above 2000 bins the per-bin panels are decimated and the
 // page says how.
-func HTML(w io.Writer, s *compare.Summary) error {
+func HTML(w io.Writer, s *compare.Summary, st Style) error {
 	size := 8192
 	for _, e := range s.Entries {
 		// a little more than the figures and the table of one comparison
@@ -77,41 +82,58 @@ func HTML(w io.Writer, s *compare.Summary) error {
 	p.s("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>").e(title).
 		s("</title>\n<style>" + pageCSS + "</style></head><body>\n")
 	p.s("<h1>").e(title).s("</h1>\n")
-	failed := failures(s)
-	if failed == 0 {
-		p.s(`<p class="banner agree">Verdict: <b class="pass">agree</b>: all `).d(comparisons(s)).s(" comparisons within tolerance</p>\n")
-	} else {
-		p.s(`<p class="banner disagree">Verdict: <b class="fail">disagree</b>: `).d(failed).s(" of ").d(comparisons(s)).s(" comparisons outside tolerance</p>\n")
+	v, why := headline(s)
+	p.s(`<p class="banner `).s(v).s(`">Verdict: <b class="`).s(v).s(`">`).s(v).s("</b>: ").e(why).s("</p>\n")
+	for _, m := range s.Missing {
+		p.s(`<p class="banner state `).s(m.Verdict).s(`"><b>`).s(m.Verdict).s("</b>: ").e(m.Observable).s(": ").e(m.Reason).s("</p>\n")
+	}
+	for _, x := range s.Stale {
+		p.s(`<p class="banner state stale"><b>stale</b> sign-off: `).e(x).s("</p>\n")
 	}
 	for _, a := range s.Accepted {
 		acceptedHTML(p, a)
 	}
+	for _, wn := range warnings(s) {
+		p.s(`<p class="note warn"><b>warning</b>: `).e(wn).s("</p>\n")
+	}
+	keyNumbersHTML(p, s)
 	for _, n := range s.Notes {
 		p.s(`<p class="note">`).e(n).s("</p>\n")
 	}
 	teamsHTML(p, s)
-	p.s(`<h3>Contents</h3><ol class="toc">` + "\n")
-	entries := ordered(s)
-	for i, e := range entries {
-		p.s(`<li><a href="#c`).d(i).s(`">`).e(entryTitle(e)).s("</a> ").s(verdictSpan(e.Pass)).s("</li>\n")
-	}
-	p.s("</ol>\n")
-	for i, e := range entries {
+	// the table of key numbers links each comparison: it is the contents
+	for i, e := range ordered(s) {
 		entryHTML(p, "c"+strconv.Itoa(i), e, s.Accepted)
 		p.maybeFlush()
 	}
-	p.s("<p class=\"note\">Two chains agreeing is not proof that either is right; the collaboration's own review and publication rules govern.</p>\n</body></html>\n")
+	p.s("<p class=\"note\">Two chains agreeing is not proof that either is right; the collaboration's own review and publication rules govern.</p>\n")
+	if l := stampLines(st.Stamp); len(l) > 0 {
+		p.s(`<p class="stamp">`)
+		for i, x := range l {
+			if i > 0 {
+				p.s("<br>")
+			}
+			p.e(x)
+		}
+		p.s("</p>\n")
+	}
+	p.s("</body></html>\n")
 	return p.flush()
 }
 
-func failures(s *compare.Summary) int {
-	n := 0
-	for _, e := range s.Entries {
-		if !e.Pass {
-			n++
-		}
+// keyNumbersHTML is the table of every comparison's key numbers, failing
+// first, on the first screen of the page: verdict, χ²/ndf, p-value and the
+// largest |pull|, each linked to its section.
+func keyNumbersHTML(p *page, s *compare.Summary) {
+	if len(s.Entries) == 0 {
+		return
 	}
-	return n + teamsFailures(s)
+	p.s("<table class=\"keys\"><tr><th>comparison</th><th>verdict</th><th>χ²/ndf</th><th>p-value</th><th>max |pull|</th></tr>\n")
+	for i, e := range ordered(s) {
+		p.s(`<tr><td><a href="#c`).d(i).s(`">`).e(entryTitle(e)).s("</a></td><td>").s(verdictSpan(e.Pass)).s("</td><td>").s(chi2NDF(e)).
+			s("</td><td>").s(pval(e.PValue)).s("</td><td>").s(num(e.MaxAbsPull)).s("</td></tr>\n")
+	}
+	p.s("</table>\n")
 }
 
 func esc(s string) string { return html.EscapeString(s) }
@@ -138,7 +160,7 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 		}
 	}
 	if e.Blinded {
-		p.s(`<p><span class="badge">blinded values</span> the numbers shown are blinded; pulls and p-values equal the true ones</p>` + "\n")
+		p.s(`<p><span class="badge">blinded values</span> the numbers shown are blinded; pulls and p-values equal the true ones. Blinding does not keep ratios, so no ratio panel is drawn</p>` + "\n")
 	}
 	if filesShown(e) {
 		a, b := e.Sides()
@@ -171,16 +193,16 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 		p.s("<p>The p-values are adjusted together (Holm) over ").d(e.Family).s(" p-values, so that agreeing chains fail with probability at most α = ").s(num(e.Alpha)).s(".</p>\n")
 	}
 	if l := sourcesLine(e); l != "" {
-		p.s("<p>").e(capitalize(l)).s("</p>\n")
+		p.s("<p>").et(capitalize(l), false).s("</p>\n")
 	}
 	for _, c := range e.Criteria {
 		if !c.Pass && c.Detail != "" {
-			p.s(`<p class="note">`).e(c.Name).s(": ").e(c.Detail).s("</p>\n")
+			p.s(`<p class="note">`).e(c.Name).s(": ").et(c.Detail, false).s("</p>\n")
 		}
 	}
-	p.s("<p>").e(capitalize(shapeLine(e))).s("</p>\n")
+	p.s("<p>").et(capitalize(shapeLine(e)), false).s("</p>\n")
 	for _, wn := range e.Warnings {
-		p.s(`<p class="note warn">`).e(wn).s("</p>\n")
+		p.s(`<p class="note warn">`).et(wn, false).s("</p>\n")
 	}
 	binTableHTML(p, e)
 }
@@ -195,7 +217,7 @@ func binTableHTML(p *page, e compare.Entry) {
 	} else {
 		p.s("all ").d(e.Bins).s(" bins")
 	}
-	p.s("</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
+	p.s("</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ<sub>d</sub></th><th>pull</th></tr>\n")
 	for _, i := range idx {
 		p.s("<tr>")
 		binRow(p, e, i, "<td>", "</td>")

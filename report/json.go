@@ -21,6 +21,33 @@ type jsonSummary struct {
 	Accepted    []compare.Acceptance `json:"accepted_disagreements"`
 	Teams       []jsonTeams          `json:"teams,omitempty"`
 	Observables []jsonEntry          `json:"observables"`
+	// Missing lists the comparisons a campaign cannot make yet; present
+	// only when there is one (the verdict is then incomplete or pending).
+	Missing []jsonMissing `json:"missing,omitempty"`
+	// Stale lists the stale sign-offs, "party: why"; present only when
+	// there is one.
+	Stale []string `json:"stale_signoffs,omitempty"`
+	// Stamp is what made the report, when, and from which inputs.
+	Stamp *jsonStamp `json:"stamp,omitempty"`
+}
+
+// jsonMissing is a [compare.Missing].
+type jsonMissing struct {
+	Name    string `json:"name"`
+	Verdict string `json:"verdict"`
+	Reason  string `json:"reason"`
+}
+
+// jsonStamp is a [Stamp]: the time is RFC 3339 in UTC.
+type jsonStamp struct {
+	Tool   string      `json:"tool"`
+	Time   string      `json:"time"`
+	Inputs []jsonInput `json:"inputs"`
+}
+
+type jsonInput struct {
+	File   string `json:"file"`
+	SHA256 string `json:"sha256"`
 }
 
 // jsonLimits are the declared limits, as the criteria hold them: α for
@@ -115,11 +142,20 @@ type jsonEntry struct {
 
 // JSONValue builds the JSON document of s as a value, for callers that
 // embed or hash it.
-func JSONValue(s *compare.Summary) any { return jsonValue(s) }
+func JSONValue(s *compare.Summary, st Style) any { return jsonValue(s, st.Stamp) }
 
-func jsonValue(s *compare.Summary) jsonSummary {
+func jsonValue(s *compare.Summary, stamp *Stamp) jsonSummary {
 	out := jsonSummary{Verdict: s.Verdict(), Title: s.Title, Campaign: s.Campaign, Notes: s.Notes,
-		Accepted: s.Accepted, Observables: []jsonEntry{}}
+		Accepted: s.Accepted, Observables: []jsonEntry{}, Stale: s.Stale}
+	for _, m := range s.Missing {
+		out.Missing = append(out.Missing, jsonMissing{Name: m.Observable, Verdict: m.Verdict, Reason: m.Reason})
+	}
+	if stamp != nil {
+		out.Stamp = &jsonStamp{Tool: stamp.Tool, Time: stampTime(stamp.Time), Inputs: []jsonInput{}}
+		for _, in := range stamp.Inputs {
+			out.Stamp.Inputs = append(out.Stamp.Inputs, jsonInput{File: in.Name, SHA256: in.SHA256})
+		}
+	}
 	if out.Accepted == nil {
 		out.Accepted = []compare.Acceptance{}
 	}
@@ -287,7 +323,7 @@ func appendShortDecimal(b []byte, v float64) ([]byte, bool) {
 }
 
 // JSON writes s as one indented JSON object followed by a newline.
-func JSON(w io.Writer, s *compare.Summary) error {
+func JSON(w io.Writer, s *compare.Summary, st Style) error {
 	size := 4096
 	for _, e := range s.Entries {
 		if e.Result != nil {
@@ -295,8 +331,8 @@ func JSON(w io.Writer, s *compare.Summary) error {
 		}
 	}
 	p := newPage(w, size)
-	j := jsonWriter{b: p.b}
-	j.summary(jsonValue(s))
+	j := jsonWriter{b: p.b, p: p}
+	j.summary(jsonValue(s, st.Stamp))
 	p.b = append(j.b, '\n')
 	return p.flush()
 }

@@ -8,6 +8,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+	"time"
 	"unicode/utf8"
 
 	"tandem/compare"
@@ -43,10 +44,17 @@ func (j jsonEscaper) Write(p []byte) (int, error) {
 
 // jsonEncoded writes s through encoding/json, as [JSON] did before it
 // wrote the document by hand; the tests hold JSON to it.
-func jsonEncoded(w io.Writer, s *compare.Summary) error {
+func jsonEncoded(w io.Writer, s *compare.Summary, st Style) error {
 	enc := json.NewEncoder(jsonEscaper{w})
 	enc.SetIndent("", "  ")
-	return enc.Encode(JSONValue(s))
+	return enc.Encode(JSONValue(s, st))
+}
+
+// testStamp is a fixed stamp whose names hold characters every format
+// escapes.
+func testStamp() *Stamp {
+	return &Stamp{Tool: "tandem test <rev> & \"q\"", Time: time.Date(2026, 12, 2, 15, 4, 5, 0, time.UTC),
+		Inputs: []Input{{Name: "heron/spectrum.csv", SHA256: "a3f1"}, {Name: "o\u202etter <&> ]]> \x00.csv"}}}
 }
 
 // jsonSummaries are summaries that reach every branch of the JSON writer:
@@ -76,6 +84,31 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		odd.Entries = append(odd.Entries, compare.Entry{Observable: fmt.Sprint("odd", i), Result: r})
 	}
 	out["odd"] = odd
+	state := fixture(t)
+	state.Missing = []compare.Missing{{Observable: "zenith", Verdict: compare.VerdictIncomplete, Reason: "not sealed yet by otter <&>"},
+		{Observable: "azi\u2028muth", Verdict: compare.VerdictPending, Reason: "re-sealed ]]> by heron"}}
+	state.Stale = []string{"heron: stale after a seal of zenith", "\xff: x"}
+	out["state"] = state
+	// large: longer than a page flush, with lists long enough to be
+	// formatted on every core (2·chunkNums and more), and undefined and
+	// infinite values spread through them
+	n := 2*chunkNums + 4321
+	rng := rand.New(rand.NewPCG(3, 4))
+	va, vb, ea := make([]float64, n), make([]float64, n), make([]float64, n)
+	for i := range n {
+		va[i], vb[i], ea[i] = rng.NormFloat64()*1e3, rng.NormFloat64()*1e-3, math.Abs(rng.NormFloat64())
+		switch i % 997 {
+		case 5:
+			ea[i], va[i], vb[i] = 0, 1, 2 // infinite pull
+		case 7:
+			ea[i], va[i], vb[i] = 0, 3, 3 // undefined pull
+		}
+	}
+	large, err := compare.Series(mk(va, ea), mk(vb, ea), compare.Options{Limits: compare.DefaultLimits})
+	if err != nil {
+		t.Fatal(err)
+	}
+	out["large"] = &compare.Summary{Entries: []compare.Entry{{Observable: "large", Result: large}}}
 	text := fixture(t)
 	text.Title = "ti\x1b[2Jtle <b>&amp;</b> \"q\" \\ \b\f\n\r\t\x00\x7f"
 	text.Notes = []string{"no\u202ete", "\u2028\u2029", "bad \xff\xfe utf8 \xe2\x80", "\u0085 \u061c \u200e\u200f \u2066\u2069 é 漢 😀"}
@@ -92,21 +125,49 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 // what encoding/json (the reference) writes for the same value.
 func TestJSONWriterMatchesEncoding(t *testing.T) {
 	for name, s := range jsonSummaries(t) {
-		var got, want bytes.Buffer
-		if err := JSON(&got, s); err != nil {
-			t.Fatal(err)
-		}
-		if err := jsonEncoded(&want, s); err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(got.Bytes(), want.Bytes()) {
-			g, w := got.Bytes(), want.Bytes()
-			i := 0
-			for i < min(len(g), len(w)) && g[i] == w[i] {
-				i++
+		for _, st := range []Style{{}, {Stamp: testStamp()}} {
+			var got, streamed, want bytes.Buffer
+			if err := JSON(&got, s, st); err != nil {
+				t.Fatal(err)
 			}
-			t.Errorf("%s: JSON differs from encoding/json at byte %d:\n got %q\nwant %q", name, i, g[max(0, i-80):min(len(g), i+80)], w[max(0, i-80):min(len(w), i+80)])
+			// a writer that is not a bytes.Buffer gets the document in
+			// pieces, as it is written
+			w := &countingWriter{w: &streamed}
+			if err := JSON(w, s, st); err != nil {
+				t.Fatal(err)
+			}
+			if err := jsonEncoded(&want, s, st); err != nil {
+				t.Fatal(err)
+			}
+			checkSameJSON(t, name, got.Bytes(), want.Bytes())
+			checkSameJSON(t, name+" (streamed)", streamed.Bytes(), want.Bytes())
+			if name == "large" && w.writes < 4 {
+				t.Errorf("large: the JSON came in %d writes of %d bytes, not streamed", w.writes, streamed.Len())
+			}
 		}
+	}
+}
+
+// countingWriter counts the writes it passes on.
+type countingWriter struct {
+	w      io.Writer
+	writes int
+}
+
+func (c *countingWriter) Write(p []byte) (int, error) {
+	c.writes++
+	return c.w.Write(p)
+}
+
+// checkSameJSON reports where got first differs from want.
+func checkSameJSON(t *testing.T, name string, g, w []byte) {
+	t.Helper()
+	if !bytes.Equal(g, w) {
+		i := 0
+		for i < min(len(g), len(w)) && g[i] == w[i] {
+			i++
+		}
+		t.Errorf("%s: JSON differs from encoding/json at byte %d:\n got %q\nwant %q", name, i, g[max(0, i-80):min(len(g), i+80)], w[max(0, i-80):min(len(w), i+80)])
 	}
 }
 
@@ -133,10 +194,10 @@ func FuzzJSONWriter(f *testing.F) {
 			s.Entries = []compare.Entry{{Observable: title, Title: reason, Result: r}}
 		}
 		var got, want bytes.Buffer
-		if err := JSON(&got, s); err != nil {
+		if err := JSON(&countingWriter{w: &got}, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {
 			t.Fatal(err)
 		}
-		if err := jsonEncoded(&want, s); err != nil {
+		if err := jsonEncoded(&want, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {
 			t.Fatal(err)
 		}
 		if !bytes.Equal(got.Bytes(), want.Bytes()) {

@@ -19,12 +19,23 @@ type junitSuites struct {
 }
 
 type junitSuite struct {
-	Name     string      `xml:"name,attr"`
-	Tests    int         `xml:"tests,attr"`
-	Failures int         `xml:"failures,attr"`
-	Errors   int         `xml:"errors,attr"`
-	Skipped  int         `xml:"skipped,attr"`
-	Cases    []junitCase `xml:"testcase"`
+	Name       string           `xml:"name,attr"`
+	Tests      int              `xml:"tests,attr"`
+	Failures   int              `xml:"failures,attr"`
+	Errors     int              `xml:"errors,attr"`
+	Skipped    int              `xml:"skipped,attr"`
+	Properties *junitProperties `xml:"properties,omitempty"`
+	Cases      []junitCase      `xml:"testcase"`
+}
+
+// junitProperties are a suite's properties: the report's stamp.
+type junitProperties struct {
+	Property []junitProperty `xml:"property"`
+}
+
+type junitProperty struct {
+	Name  string `xml:"name,attr"`
+	Value string `xml:"value,attr"`
 }
 
 type junitCase struct {
@@ -32,6 +43,7 @@ type junitCase struct {
 	Classname string        `xml:"classname,attr"`
 	Failure   *junitFailure `xml:"failure,omitempty"`
 	SystemOut *junitText    `xml:"system-out,omitempty"`
+	SystemErr *junitText    `xml:"system-err,omitempty"`
 }
 
 type junitFailure struct {
@@ -46,7 +58,7 @@ type junitText struct {
 }
 
 // junitValue is the JUnit document of s.
-func junitValue(s *compare.Summary) junitSuites {
+func junitValue(s *compare.Summary, stamp *Stamp) junitSuites {
 	name := s.Title
 	if s.Campaign != "" {
 		name = "campaign " + s.Campaign
@@ -55,6 +67,13 @@ func junitValue(s *compare.Summary) junitSuites {
 		name = "tandem cross-check"
 	}
 	out := junitSuites{Name: name}
+	var props *junitProperties
+	if stamp != nil {
+		props = &junitProperties{Property: []junitProperty{{"tandem.tool", stamp.Tool}, {"tandem.time", stampTime(stamp.Time)}}}
+		for _, in := range stamp.Inputs {
+			props.Property = append(props.Property, junitProperty{"tandem.input.sha256", in.SHA256 + " " + in.Name})
+		}
+	}
 	suiteOf := map[[2]string]int{}
 	for _, e := range s.Entries {
 		a, b := e.Sides()
@@ -67,7 +86,7 @@ func junitValue(s *compare.Summary) junitSuites {
 			if s.Campaign != "" {
 				suite = "campaign " + s.Campaign + ": " + suite
 			}
-			out.Suites = append(out.Suites, junitSuite{Name: suite})
+			out.Suites = append(out.Suites, junitSuite{Name: suite, Properties: props})
 		}
 		caseName := e.Observable + " / " + e.Column
 		if e.Title != "" {
@@ -79,6 +98,9 @@ func junitValue(s *compare.Summary) junitSuites {
 			crit = append(crit, criterionLine(cr))
 		}
 		c.SystemOut = &junitText{Text: strings.Join(crit, "\n")}
+		if len(e.Warnings) > 0 {
+			c.SystemErr = &junitText{Text: "warning: " + strings.Join(e.Warnings, "\nwarning: ")}
+		}
 		if !e.Pass {
 			f := e.Failures()
 			if len(f) == 0 {
@@ -88,13 +110,36 @@ func junitValue(s *compare.Summary) junitSuites {
 			for _, acc := range s.Accepted {
 				text += fmt.Sprintf("\ndisagreement accepted by %s: %s", joinList(acc.By), acc.Reason)
 			}
-			c.Failure = &junitFailure{Message: f[0], Type: "disagreement", Text: text}
+			c.Failure = &junitFailure{Message: f[0], Type: compare.VerdictFail, Text: text}
 			out.Suites[k].Failures++
 			out.Failures++
 		}
 		out.Suites[k].Tests++
 		out.Tests++
 		out.Suites[k].Cases = append(out.Suites[k].Cases, c)
+	}
+	// Each missing comparison and each stale sign-off is a failing case of
+	// its own: CI systems show skipped cases as green, and a campaign
+	// that is not complete must not look green.
+	if len(s.Missing)+len(s.Stale) > 0 {
+		suite := junitSuite{Name: "campaign " + s.Campaign + ": state", Properties: props}
+		if s.Campaign == "" {
+			suite.Name = "state"
+		}
+		for _, m := range s.Missing {
+			msg := m.Observable + " is " + m.Verdict + ": " + m.Reason
+			suite.Cases = append(suite.Cases, junitCase{Name: m.Observable + " (" + m.Verdict + ")", Classname: "tandem." + m.Observable,
+				Failure: &junitFailure{Message: msg, Type: m.Verdict, Text: "no comparison of " + m.Observable + " yet: " + m.Reason}})
+		}
+		for _, x := range s.Stale {
+			party, _, _ := strings.Cut(x, ":")
+			suite.Cases = append(suite.Cases, junitCase{Name: "sign-off of " + party + " (" + compare.VerdictStale + ")", Classname: "tandem.signoff",
+				Failure: &junitFailure{Message: "stale sign-off: " + x, Type: compare.VerdictStale, Text: "stale sign-off: " + x}})
+		}
+		suite.Tests, suite.Failures = len(suite.Cases), len(suite.Cases)
+		out.Tests += suite.Tests
+		out.Failures += suite.Failures
+		out.Suites = append(out.Suites, suite)
 	}
 	junitTeams(&out, s)
 	return out
@@ -105,8 +150,8 @@ func junitValue(s *compare.Summary) junitSuites {
 // mode the pair alone), with one test case per observable and column, named
 // "observable / column" (and its title when declared); a failing case
 // carries its failed criteria, and an accepted disagreement says so.
-func JUnit(w io.Writer, s *compare.Summary) error {
-	out := junitValue(s)
+func JUnit(w io.Writer, s *compare.Summary, st Style) error {
+	out := junitValue(s, st.Stamp)
 	p := newPage(w, 1024+512*len(s.Entries))
 	p.s(xml.Header)
 	writeJUnit(p, &out)
@@ -126,13 +171,24 @@ func writeJUnit(p *page, out *junitSuites) {
 	for _, su := range out.Suites {
 		p.s("\n  <testsuite name=\"").xmlAttr(su.Name).s(`" tests="`).d(su.Tests).s(`" failures="`).d(su.Failures).
 			s(`" errors="`).d(su.Errors).s(`" skipped="`).d(su.Skipped).s(`">`)
-		if len(su.Cases) == 0 {
+		if len(su.Cases) == 0 && su.Properties == nil {
 			p.s("</testsuite>")
 			continue
 		}
+		if pr := su.Properties; pr != nil {
+			p.s("\n    <properties>")
+			if len(pr.Property) == 0 {
+				p.s("</properties>")
+			} else {
+				for _, x := range pr.Property {
+					p.s("\n      <property name=\"").xmlAttr(x.Name).s(`" value="`).xmlAttr(x.Value).s(`"></property>`)
+				}
+				p.s("\n    </properties>")
+			}
+		}
 		for _, c := range su.Cases {
 			p.s("\n    <testcase name=\"").xmlAttr(c.Name).s(`" classname="`).xmlAttr(c.Classname).s(`">`)
-			if c.Failure == nil && c.SystemOut == nil {
+			if c.Failure == nil && c.SystemOut == nil && c.SystemErr == nil {
 				p.s("</testcase>")
 				continue
 			}
@@ -141,6 +197,9 @@ func writeJUnit(p *page, out *junitSuites) {
 			}
 			if o := c.SystemOut; o != nil {
 				p.s("\n      <system-out>").cdata(o.Text).s("</system-out>")
+			}
+			if o := c.SystemErr; o != nil {
+				p.s("\n      <system-err>").cdata(o.Text).s("</system-err>")
 			}
 			p.s("\n    </testcase>")
 		}

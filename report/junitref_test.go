@@ -11,13 +11,13 @@ import (
 
 // junitEncoded writes s through encoding/xml, as [JUnit] did before it
 // wrote the document by hand; the tests hold JUnit to it.
-func junitEncoded(w io.Writer, s *compare.Summary) error {
+func junitEncoded(w io.Writer, s *compare.Summary, st Style) error {
 	if _, err := io.WriteString(w, xml.Header); err != nil {
 		return err
 	}
 	enc := xml.NewEncoder(w)
 	enc.Indent("", "  ")
-	if err := enc.Encode(junitValue(s)); err != nil {
+	if err := enc.Encode(junitValue(s, st.Stamp)); err != nil {
 		return err
 	}
 	_, err := io.WriteString(w, "\n")
@@ -26,15 +26,17 @@ func junitEncoded(w io.Writer, s *compare.Summary) error {
 
 func checkJUnit(t *testing.T, name string, s *compare.Summary) {
 	t.Helper()
-	var got, want bytes.Buffer
-	if err := JUnit(&got, s); err != nil {
-		t.Fatal(err)
-	}
-	if err := junitEncoded(&want, s); err != nil {
-		t.Fatal(err)
-	}
-	if !bytes.Equal(got.Bytes(), want.Bytes()) {
-		t.Errorf("%s: JUnit differs from encoding/xml:\n got %q\nwant %q", name, got.Bytes(), want.Bytes())
+	for _, st := range []Style{{}, {Stamp: testStamp()}} {
+		var got, want bytes.Buffer
+		if err := JUnit(&got, s, st); err != nil {
+			t.Fatal(err)
+		}
+		if err := junitEncoded(&want, s, st); err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(got.Bytes(), want.Bytes()) {
+			t.Errorf("%s: JUnit differs from encoding/xml:\n got %q\nwant %q", name, got.Bytes(), want.Bytes())
+		}
 	}
 }
 

@@ -12,17 +12,27 @@ import (
 // each comparison, ready to paste into a meeting page or a merge request.
 func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 	ew := newPage(w, mdSize(s, st))
-	word := "agree"
-	if !s.Pass() {
-		word = "**disagree**"
-	}
 	title := s.Title
 	if title == "" {
 		title = "Cross-check"
 	}
-	fmt.Fprintf(ew, "## %s: %s\n\n", mdEscape(title), word)
+	v, why := headline(s)
+	ew.s("## ").s(mdEscape(title)).s(": ").s(mdWord(v)).s("\n\n")
+	ew.s("**Verdict: ").s(v).s("**: ").s(mdEscape(why)).s(".\n\n")
+	for _, m := range s.Missing {
+		ew.s("- **").s(m.Verdict).s("**: ").s(mdEscape(m.Observable)).s(": ").s(mdEscape(m.Reason)).s("\n")
+	}
+	for _, x := range s.Stale {
+		ew.s("- **stale** sign-off: ").s(mdEscape(x)).s("\n")
+	}
+	if len(s.Missing)+len(s.Stale) > 0 {
+		ew.s("\n")
+	}
 	for _, a := range s.Accepted {
 		fmt.Fprintf(ew, "**Disagreement accepted** by %s: %s\n\n", mdEscape(joinList(a.By)), mdEscape(a.Reason))
+	}
+	for _, wn := range warnings(s) {
+		ew.s("> **warning**: ").s(mdEscape(wn)).s("\n\n")
 	}
 	for _, n := range s.Notes {
 		fmt.Fprintf(ew, "- %s\n", mdEscape(n))
@@ -54,7 +64,7 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		for _, c := range e.Criteria {
 			res := "pass"
 			if !c.Pass {
-				res = "**FAIL**: " + mdEscape(c.Detail)
+				res = "**fail**: " + mdEscape(c.Detail)
 			}
 			name, v, adj, lim := critCells(c)
 			ew.s("| ").s(mdEscape(name)).s(" | ").s(v).s(" | ").s(adj).s(" | ").s(mdEscape(lim)).s(" | ").s(res).s(" |\n")
@@ -79,6 +89,12 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 		}
 		ew.maybeFlush()
 	}
+	if l := stampLines(st.Stamp); len(l) > 0 {
+		ew.s("\n---\n\n")
+		for _, x := range l {
+			ew.s(mdEscape(x)).s("  \n")
+		}
+	}
 	return ew.flush()
 }
 
@@ -89,11 +105,15 @@ func capitalize(s string) string {
 	return strings.ToUpper(s[:1]) + s[1:]
 }
 
-func mdVerdict(pass bool) string {
-	if pass {
-		return "pass"
+func mdVerdict(pass bool) string { return mdWord(verdictOf(pass)) }
+
+// mdWord is a verdict of compare.Verdict* in Markdown: bold unless it is
+// pass.
+func mdWord(v string) string {
+	if v == compare.VerdictPass {
+		return v
 	}
-	return "**fail**"
+	return "**" + v + "**"
 }
 
 var mdReplacer = strings.NewReplacer("|", "\\|", "<", "&lt;", ">", "&gt;", "*", "\\*", "_", "\\_", "`", "\\`", "\n", " ")

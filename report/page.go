@@ -80,6 +80,25 @@ func (p *page) e(x string) *page {
 	return p
 }
 
+// et appends x escaped as [page.e] does, with σ_d (the uncertainty of the
+// difference) written with a real subscript: σ<sub>d</sub> in HTML, or a
+// lowered tspan inside SVG text when svg is set.
+func (p *page) et(x string, svg bool) *page {
+	for {
+		before, after, ok := strings.Cut(x, "σ_d")
+		if !ok {
+			return p.e(x)
+		}
+		p.e(before)
+		if svg {
+			p.s(`σ<tspan baseline-shift="sub" font-size="75%">d</tspan>`)
+		} else {
+			p.s("σ<sub>d</sub>")
+		}
+		x = after
+	}
+}
+
 // f1 appends x as fmt's %.1f writes it.
 func (p *page) f1(x float64) *page {
 	p.set(appendF1(p.b, x))
@@ -256,6 +275,33 @@ func appendG6(b []byte, x float64) []byte {
 		return strconv.AppendInt(b, int64(x), 10)
 	}
 	return strconv.AppendFloat(b, x, 'g', 6, 64)
+}
+
+// noNegZero drops the minus sign of a number written from start on when
+// every digit of its mantissa is 0 ("-0", "-0.00", "-0.0e+00"): a value
+// that rounds to zero is shown as zero in the reports people read.
+func noNegZero(b []byte, start int) []byte {
+	if !negZero(b[start:]) {
+		return b
+	}
+	return append(b[:start], b[start+1:]...)
+}
+
+// negZero reports whether the number x starts with a minus sign and every
+// digit of its mantissa is 0.
+func negZero(x []byte) bool {
+	if len(x) == 0 || x[0] != '-' {
+		return false
+	}
+	for _, c := range x[1:] {
+		if c == 'e' || c == 'E' {
+			break
+		}
+		if c != '0' && c != '.' {
+			return false
+		}
+	}
+	return true
 }
 
 // appendG appends x in the shortest form, as strconv.AppendFloat(b, x,

@@ -37,6 +37,10 @@ func Extension(format string) string {
 type Style struct {
 	// Color enables ANSI colour in text output.
 	Color bool
+	// Stamp, when set, is written into the report: the tool, the time
+	// and the digest of each input. Every report tandem writes has one;
+	// tests leave it out or fix it.
+	Stamp *Stamp
 	// MaxRows limits the per-bin rows of text and Markdown tables; beyond it
 	// the worst bins by |pull| are shown. 0 means 200.
 	MaxRows int
@@ -48,18 +52,19 @@ type Style struct {
 func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
 	if format != "json" {
 		s = cleanSummary(s)
+		st.Stamp = cleanStamp(st.Stamp)
 	}
 	switch format {
 	case "text", "":
 		return Text(w, s, st)
 	case "json":
-		return JSON(w, s)
+		return JSON(w, s, st)
 	case "markdown":
 		return Markdown(w, s, st)
 	case "junit":
-		return JUnit(w, s)
+		return JUnit(w, s, st)
 	case "html":
-		return HTML(w, s)
+		return HTML(w, s, st)
 	}
 	return fmt.Errorf("unknown format %q (want text, json, markdown, junit or html)", format)
 }
@@ -74,7 +79,7 @@ func num(v float64) string {
 	case math.Abs(v) < 1e-4 || math.Abs(v) >= 1e6:
 		return strconv.FormatFloat(v, 'e', 3, 64)
 	}
-	return strconv.FormatFloat(v, 'g', 4, 64)
+	return string(noNegZero(strconv.AppendFloat(nil, v, 'g', 4, 64), 0))
 }
 
 // pval formats a p-value: four decimals, or three significant digits
@@ -93,13 +98,13 @@ func pval(p float64) string {
 // strconv.FormatFloat(v, 'f', places, 64) does.
 func fixed(v float64, places int) string {
 	var a [32]byte
-	return string(appendFixed(a[:0], v, places))
+	return string(noNegZero(appendFixed(a[:0], v, places), 0))
 }
 
 // val formats a table value exactly enough to read: six significant digits.
 func val(v float64) string {
 	var a [32]byte
-	return string(appendG6(a[:0], v))
+	return string(noNegZero(appendG6(a[:0], v), 0))
 }
 
 // rows picks the bins a human table shows: all of them up to the limit,
@@ -221,6 +226,9 @@ func pullLimit(e compare.Entry) float64 {
 // shapeLine describes the pull distribution in one sentence, with n/a for
 // what is undefined (a width needs two pulls).
 func shapeLine(e compare.Entry) string {
+	if identical(e) {
+		return "pulls: all 0, the tables are identical bin for bin (two independent chains do not give this); χ²/ndf = " + chi2NDF(e)
+	}
 	n := len(pullsUsed(e))
 	b := make([]byte, 0, 160)
 	b = append(b, "pulls: mean "...)
@@ -241,6 +249,19 @@ func shapeLine(e compare.Entry) string {
 	}
 	b = append(append(append(append(b, " (p = "...), pval(e.RunsP)...), "); χ²/ndf = "...), chi2NDF(e)...)
 	return string(b)
+}
+
+// identical reports whether both sides hold the same value in every bin.
+func identical(e compare.Entry) bool {
+	if e.Result == nil || e.NDF == 0 || len(e.A) != len(e.B) {
+		return false
+	}
+	for i := range e.A {
+		if e.A[i] != e.B[i] {
+			return false
+		}
+	}
+	return true
 }
 
 // chi2NDF writes χ²/ndf as "12.3/10", or "n/a (ndf 0)" when no bin
@@ -276,9 +297,9 @@ func binCells(dst []string, e compare.Entry, i int) []string {
 // which need no escaping in HTML or Markdown.
 func binRow(p *page, e compare.Entry, i int, pre, post string) {
 	p.s(pre).d(i + 1).s(post).s(pre)
-	p.b = appendG6(p.b, e.Lo[i])
+	p.b = noNegZero(appendG6(p.b, e.Lo[i]), len(p.b))
 	p.s(post).s(pre)
-	p.b = appendG6(p.b, e.Hi[i])
+	p.b = noNegZero(appendG6(p.b, e.Hi[i]), len(p.b))
 	p.s(post)
 	for _, ve := range [3][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}, {e.Diff[i], e.SigmaDiff[i]}} {
 		var k int
@@ -291,7 +312,7 @@ func binRow(p *page, e compare.Entry, i int, pre, post string) {
 	}
 	p.s(pre)
 	if pl := e.Pulls[i]; math.Abs(pl) < 1000 {
-		p.b = appendFixed(p.b, pl, 2)
+		p.b = noNegZero(appendFixed(p.b, pl, 2), len(p.b))
 	} else {
 		p.s(num(pl))
 	}
@@ -321,6 +342,16 @@ func withError(v, e float64) (string, string) {
 // appendWithError appends the value and the uncertainty of [withError]
 // one after the other, and returns where the uncertainty starts.
 func appendWithError(b []byte, v, e float64) ([]byte, int) {
+	start := len(b)
+	b, k := appendWithError1(b, v, e)
+	if negZero(b[start:k]) { // the value rounds to zero
+		b = append(b[:start], b[start+1:]...)
+		k--
+	}
+	return b, k
+}
+
+func appendWithError1(b []byte, v, e float64) ([]byte, int) {
 	if !(e > 0) || math.IsInf(e, 0) || math.IsNaN(v) || math.IsInf(v, 0) {
 		b = appendG6(b, v)
 		k := len(b)
@@ -377,4 +408,87 @@ func entryTitle(e compare.Entry) string {
 		t += fmt.Sprintf(" (%s vs %s)", e.Teams[0], e.Teams[1])
 	}
 	return t
+}
+
+// count writes n with the noun in the right number: "1 comparison",
+// "2 comparisons".
+func count(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return strconv.Itoa(n) + " " + many
+}
+
+// headline is the overall verdict of s (one of compare.Verdict*) and a
+// sentence of what it rests on, the same in every format.
+func headline(s *compare.Summary) (verdict, why string) {
+	verdict = s.Verdict()
+	n, k := comparisons(s), s.Failures()
+	made := func() string {
+		if n == 0 {
+			return "no comparison made"
+		}
+		return count(n, "comparison", "comparisons") + " made, " + strconv.Itoa(k) + " failing"
+	}
+	switch verdict {
+	case compare.VerdictPass:
+		switch n {
+		case 0:
+			why = "no comparison to make"
+		case 1:
+			why = "the 1 comparison passes"
+		default:
+			why = "all " + strconv.Itoa(n) + " comparisons pass"
+		}
+	case compare.VerdictFail:
+		why = strconv.Itoa(k) + " of " + strconv.Itoa(n) + " comparisons fail"
+		if n == 1 {
+			why = "the 1 comparison fails"
+		}
+	case compare.VerdictIncomplete, compare.VerdictPending:
+		var names []string
+		for _, m := range s.Missing {
+			names = append(names, m.Observable)
+		}
+		why = "comparisons of " + count(len(names), "observable", "observables") + " missing: " + strings.Join(names, ", ") + "; " + made()
+	case compare.VerdictStale:
+		why = made() + ", but " + count(len(s.Stale), "sign-off is", "sign-offs are") + " stale"
+	}
+	return verdict, why
+}
+
+// Headline is the overall verdict of s and a sentence of what it rests
+// on, as the reports write them.
+func Headline(s *compare.Summary) (verdict, why string) { return headline(cleanSummary(s)) }
+
+// missingLine is a missing comparison in words.
+func missingLine(m compare.Missing) string {
+	return m.Observable + ": " + m.Verdict + ", " + m.Reason
+}
+
+// warnings lists every warning of every comparison, each after the
+// comparison's title, for the top of a report.
+func warnings(s *compare.Summary) []string {
+	var out []string
+	for _, e := range s.Entries {
+		if e.Result == nil {
+			continue
+		}
+		for _, w := range e.Warnings {
+			out = append(out, entryTitle(e)+": "+w)
+		}
+	}
+	return out
+}
+
+// Warnings lists every warning of s, each after its comparison's title,
+// as the reports show them on top; cmd/tandem prints them on stderr.
+func Warnings(s *compare.Summary) []string { return warnings(cleanSummary(s)) }
+
+// verdictOf is compare.VerdictPass or compare.VerdictFail.
+func verdictOf(pass bool) string {
+	if pass {
+		return compare.VerdictPass
+	}
+	return compare.VerdictFail
 }

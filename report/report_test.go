@@ -16,6 +16,7 @@ import (
 	"regexp"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/google/go-cmp/cmp"
 
@@ -62,15 +63,27 @@ func fixture(t testing.TB) *compare.Summary {
 // TestGolden compares the Markdown, JUnit and text renderings with the
 // files in testdata/golden; run with -update to rewrite them after an
 // intended change, and review the diff.
+// The second set is a campaign that is not complete: an observable not
+// sealed by every team, one waiting for the blind step, a stale sign-off.
+// Both carry a fixed stamp, as tests inject it.
 func TestGolden(t *testing.T) {
-	s := fixture(t)
-	for _, c := range []struct{ format, file, reason string }{
-		{"markdown", "summary.md", "paste-ready Markdown for meeting pages"},
-		{"junit", "summary.junit.xml", "CI systems read these test cases"},
-		{"text", "summary.txt", "the default terminal output, without colour"},
+	full := fixture(t)
+	st := Style{Stamp: &Stamp{Tool: "tandem v0.0.0-golden 0123456789ab", Time: time.Date(2026, 12, 2, 15, 4, 5, 0, time.UTC),
+		Inputs: []Input{{Name: "tables/heron/spectrum.csv", SHA256: strings.Repeat("ab", 32)}, {Name: "tables/otter/spectrum.csv", SHA256: strings.Repeat("cd", 32)}}}}
+	incomplete := incompleteFixture(t)
+	for _, c := range []struct {
+		s                    *compare.Summary
+		format, file, reason string
+	}{
+		{full, "markdown", "summary.md", "paste-ready Markdown for meeting pages"},
+		{full, "junit", "summary.junit.xml", "CI systems read these test cases"},
+		{full, "text", "summary.txt", "the default terminal output, without colour"},
+		{incomplete, "markdown", "incomplete.md", "an incomplete campaign says so on top"},
+		{incomplete, "junit", "incomplete.junit.xml", "a failing case per missing comparison and stale sign-off"},
+		{incomplete, "text", "incomplete.txt", "an incomplete campaign says so on the verdict line"},
 	} {
 		var buf bytes.Buffer
-		if err := Render(&buf, c.format, s, Style{}); err != nil {
+		if err := Render(&buf, c.format, c.s, st); err != nil {
 			t.Fatal(err)
 		}
 		path := filepath.Join("testdata", "golden", c.file)
@@ -90,12 +103,26 @@ func TestGolden(t *testing.T) {
 	}
 }
 
+// incompleteFixture is the fixture of a campaign that is not complete:
+// zenith is not sealed by otter, azimuth waits for the blind step after a
+// re-seal, and heron's sign-off is stale.
+func incompleteFixture(t testing.TB) *compare.Summary {
+	s := fixture(t)
+	s.Accepted = nil
+	s.Missing = []compare.Missing{
+		{Observable: "zenith", Verdict: compare.VerdictIncomplete, Reason: "not sealed yet by otter"},
+		{Observable: "azimuth", Verdict: compare.VerdictPending, Reason: "sealed by every team; the custodian has not opened it yet (tandem blind)"},
+	}
+	s.Stale = []string{"heron: stale after a seal of azimuth"}
+	return s
+}
+
 // TestJUnitShape checks the usual JUnit XML shape CI systems expect
 // (common practice, as consumed by Jenkins/GitLab: testsuites > testsuite >
 // testcase, failures as <failure message=...> children, counts that add up).
 func TestJUnitShape(t *testing.T) {
 	var buf bytes.Buffer
-	if err := JUnit(&buf, fixture(t)); err != nil {
+	if err := JUnit(&buf, fixture(t), Style{}); err != nil {
 		t.Fatal(err)
 	}
 	var doc struct {
@@ -151,7 +178,7 @@ func TestJUnitShape(t *testing.T) {
 // contract).
 func TestJSONContract(t *testing.T) {
 	var buf bytes.Buffer
-	if err := JSON(&buf, fixture(t)); err != nil {
+	if err := JSON(&buf, fixture(t), Style{}); err != nil {
 		t.Fatal(err)
 	}
 	var doc map[string]any
@@ -198,7 +225,7 @@ func TestHTMLEscapesAndNoTrueValuesWhenBlinded(t *testing.T) {
 	s := fixture(t)
 	s.Entries[0].Observable = "<script>alert(1)</script>"
 	var buf bytes.Buffer
-	if err := HTML(&buf, s); err != nil {
+	if err := HTML(&buf, s, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	out := buf.String()
@@ -210,10 +237,26 @@ func TestHTMLEscapesAndNoTrueValuesWhenBlinded(t *testing.T) {
 			t.Errorf("HTML is not self-contained: contains %q", bad)
 		}
 	}
-	// values, ratio, pulls, and the pull histogram on a linear and a log axis
-	if got := strings.Count(out, "<svg"); got != 5*len(s.Entries) {
-		t.Errorf("%d figures, want %d", got, 5*len(s.Entries))
+	// values, ratio, pulls, and the pull histogram on a linear and a log
+	// axis; no ratio on blinded values, which blinding does not keep
+	// (fact of the affine map: (s·a+t)/(s·b+t) ≠ a/b unless t = 0)
+	if got, want := strings.Count(out, "<svg"), 5*len(s.Entries)-blindedEntries(s); got != want {
+		t.Errorf("%d figures, want %d", got, want)
 	}
+	if got, want := strings.Count(out, `class="ratio"`), len(s.Entries)-blindedEntries(s); got != want || blindedEntries(s) == 0 {
+		t.Errorf("%d ratio panels, want %d (one per comparison of true values; the fixture has %d blinded)", got, want, blindedEntries(s))
+	}
+}
+
+// blindedEntries counts the comparisons of blinded values.
+func blindedEntries(s *compare.Summary) int {
+	n := 0
+	for _, e := range s.Entries {
+		if e.Blinded {
+			n++
+		}
+	}
+	return n
 }
 
 // chromium finds headless Chromium (Debian's chromium package) or skips.
@@ -246,7 +289,7 @@ func TestHTMLInChromium(t *testing.T) {
 	page := filepath.Join(dir, "report.html")
 	var buf bytes.Buffer
 	s := fixture(t)
-	if err := HTML(&buf, s); err != nil {
+	if err := HTML(&buf, s, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	os.WriteFile(page, buf.Bytes(), 0o644)
@@ -298,9 +341,13 @@ func TestHTMLInChromium(t *testing.T) {
 	if pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(data, -1)); !bytes.HasPrefix(data, []byte("%PDF-")) || pages < 1+len(s.Entries) {
 		t.Errorf("printed report has %d pages, want at least %d", pages, 1+len(s.Entries))
 	}
-	for _, label := range []string{"values of heron and otter", "ratio otter / heron", "pulls per bin", "pull distribution", "pull distribution (log scale)"} {
-		if got := strings.Count(string(dom), fmt.Sprintf(`aria-label="%s"`, label)); got != len(s.Entries) {
-			t.Errorf("figure %q appears %d times in the rendered DOM, want %d", label, got, len(s.Entries))
+	for _, label := range []string{"values of heron and otter", "ratio heron / otter", "pulls per bin", "pull distribution", "pull distribution (log scale)"} {
+		want := len(s.Entries)
+		if strings.HasPrefix(label, "ratio") {
+			want -= blindedEntries(s)
+		}
+		if got := strings.Count(string(dom), fmt.Sprintf(`aria-label="%s"`, label)); got != want {
+			t.Errorf("figure %q appears %d times in the rendered DOM, want %d", label, got, want)
 		}
 	}
 }
@@ -404,12 +451,12 @@ func TestFiguresInChromium(t *testing.T) {
 	bin := chromium(t)
 	s := figureFixture(t)
 	var buf bytes.Buffer
-	if err := HTML(&buf, s); err != nil {
+	if err := HTML(&buf, s, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	page := buf.String()
-	if got := strings.Count(page, `class="ratio"`); got != len(s.Entries) {
-		t.Errorf("%d ratio panels for %d comparisons", got, len(s.Entries))
+	if got, want := strings.Count(page, `class="ratio"`), len(s.Entries)-blindedEntries(s); got != want {
+		t.Errorf("%d ratio panels for %d comparisons, %d of them blinded", got, len(s.Entries), blindedEntries(s))
 	}
 	if !strings.Contains(page, "5000 bins are drawn as 1000 groups of 5 consecutive bins") {
 		t.Errorf("the 5000-bin overlay does not say how it was decimated")
@@ -442,7 +489,9 @@ func TestFiguresInChromium(t *testing.T) {
 			t.Fatalf("no measurement in the DOM:\n%.500s", js)
 		}
 		t.Logf("%d px: %d figures, %d texts, smallest %.1f px", width, m.Figures, m.Texts, m.MinPx)
-		if m.Figures != 8*len(s.Entries) || m.Texts < 80*len(s.Entries) {
+		// the ratio panel of a blinded comparison is left out (two of the
+		// elements measured)
+		if m.Figures != 8*len(s.Entries)-2*blindedEntries(s) || m.Texts < 80*len(s.Entries) {
 			t.Errorf("%d px: %d figures with %d texts shown", width, m.Figures, m.Texts)
 		}
 		if len(m.Small) > 0 {
@@ -497,7 +546,7 @@ func BenchmarkHTML500(b *testing.B) {
 	var size int
 	for b.Loop() {
 		var buf bytes.Buffer
-		if err := HTML(&buf, s); err != nil {
+		if err := HTML(&buf, s, Style{}); err != nil {
 			b.Fatal(err)
 		}
 		size = buf.Len()
@@ -523,7 +572,7 @@ func TestJSONHonestInfinities(t *testing.T) {
 		t.Fatal(err)
 	}
 	var buf bytes.Buffer
-	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "o", Result: r}}}); err != nil {
+	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "o", Result: r}}}, Style{}); err != nil {
 		t.Fatalf("JSON with an infinite pull: %v", err)
 	}
 	out := buf.String()
@@ -604,7 +653,7 @@ func TestUndefinedSaysNA(t *testing.T) {
 		}
 	}
 	var buf bytes.Buffer
-	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "zero", Result: zero}, {Observable: "one", Result: one}}}); err != nil {
+	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "zero", Result: zero}, {Observable: "one", Result: one}}}, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	var doc struct {
@@ -740,17 +789,17 @@ func TestTickLabels(t *testing.T) {
 func TestAcceptedBesideVerdict(t *testing.T) {
 	s := fixture(t)
 	var buf bytes.Buffer
-	if err := HTML(&buf, s); err != nil {
+	if err := HTML(&buf, s, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	page := buf.String()
-	v := strings.Index(page, `<p class="banner disagree">Verdict:`)
+	v := strings.Index(page, `<p class="banner fail">Verdict:`)
 	a := strings.Index(page, `<p class="banner accepted"><b>Disagreement accepted</b> by heron and otter: the tilt comes from a known alignment shift</p>`)
 	if v < 0 || a < 0 || strings.Contains(page[v:a], "<h") {
 		t.Errorf("accepted disagreement not right after the verdict (verdict at %d, accepted at %d)", v, a)
 	}
 	buf.Reset()
-	if err := JSON(&buf, s); err != nil {
+	if err := JSON(&buf, s, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	var doc struct {
@@ -786,7 +835,7 @@ func TestJUnitTableMode(t *testing.T) {
 		s.Entries[i].LabelA, s.Entries[i].LabelB = "heron.csv", "otter.csv"
 	}
 	var buf bytes.Buffer
-	if err := JUnit(&buf, s); err != nil {
+	if err := JUnit(&buf, s, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	if !strings.Contains(buf.String(), `<testsuite name="heron.csv vs otter.csv" tests="2"`) {
@@ -871,7 +920,7 @@ func BenchmarkJSON1e6(b *testing.B) {
 	var size int
 	for b.Loop() {
 		var buf bytes.Buffer
-		if err := JSON(&buf, s); err != nil {
+		if err := JSON(&buf, s, Style{}); err != nil {
 			b.Fatal(err)
 		}
 		size = buf.Len()

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 	"unicode/utf8"
 
 	"tandem/compare"
@@ -23,6 +24,8 @@ func paint(st Style, code, s string) string {
 	return code + s + ansiReset
 }
 
+// verdictWord is a pass or fail in the text report (the event-level
+// sync report uses it too).
 func verdictWord(st Style, pass bool) string {
 	if pass {
 		return paint(st, ansiGreen, "AGREE")
@@ -30,22 +33,46 @@ func verdictWord(st Style, pass bool) string {
 	return paint(st, ansiRed+ansiBold, "DISAGREE")
 }
 
-// Text writes a terminal report: the overall verdict first, any accepted
-// disagreement beside it, one line per comparison, then for each
-// comparison its criteria (in a fixed order), warnings and a per-bin table.
+// textVerdict writes a verdict of compare.Verdict* for the terminal: in
+// capitals on the verdict line (big), in small letters per comparison,
+// green for pass and red for the others.
+func textVerdict(st Style, v string, big bool) string {
+	w := v
+	if big {
+		w = strings.ToUpper(v)
+	}
+	switch v {
+	case compare.VerdictPass:
+		return paint(st, ansiGreen, w)
+	case compare.VerdictFail:
+		return paint(st, ansiRed+ansiBold, w)
+	}
+	return paint(st, ansiRed, w)
+}
+
+// Text writes a terminal report: the overall verdict first with what it
+// rests on, the missing comparisons and stale sign-offs, any accepted
+// disagreement, the warnings, one line per comparison, then for each
+// comparison its criteria (in a fixed order), warnings and a per-bin
+// table, and the stamp last.
 func Text(w io.Writer, s *compare.Summary, st Style) error {
 	ew := newPage(w, mdSize(s, st))
-	pass := s.Pass()
-	fmt.Fprintf(ew, "verdict: %s", verdictWord(st, pass))
-	if !pass {
-		fmt.Fprintf(ew, " (%d of %d comparisons outside tolerance)", failures(s), comparisons(s))
+	v, why := headline(s)
+	ew.s("verdict: ").s(textVerdict(st, v, true)).s(" (").s(why).s(")\n")
+	for _, m := range s.Missing {
+		ew.s("missing: ").s(missingLine(m)).s("\n")
 	}
-	fmt.Fprintln(ew)
+	for _, x := range s.Stale {
+		ew.s("stale sign-off: ").s(x).s("\n")
+	}
 	for _, a := range s.Accepted {
 		fmt.Fprintf(ew, "%s by %s: %s\n", paint(st, ansiBold, "DISAGREEMENT ACCEPTED"), joinList(a.By), a.Reason)
 	}
 	if s.Title != "" {
 		fmt.Fprintf(ew, "%s\n", s.Title)
+	}
+	for _, wn := range warnings(s) {
+		ew.s("warning: ").s(wn).s("\n")
 	}
 	for _, n := range s.Notes {
 		fmt.Fprintf(ew, "note: %s\n", n)
@@ -53,10 +80,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 	teamsText(ew, s, st)
 	entries := ordered(s)
 	for _, e := range entries {
-		mark := "ok  "
-		if !e.Pass {
-			mark = paint(st, ansiRed, "FAIL")
-		}
+		mark := textVerdict(st, e.Verdict(), false)
 		ew.s("  ").s(mark).s(" ").s(entryTitle(e)).s(": χ²/ndf = ").s(chi2NDF(e)).s(", p = ").s(pval(e.PValue)).s(", max |pull| = ").s(num(e.MaxAbsPull)).s("\n")
 	}
 	var crit [][]string
@@ -65,7 +89,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		if e.Blinded {
 			ew.s(" [blinded values]")
 		}
-		ew.s(": ").s(verdictWord(st, e.Pass)).s("\n")
+		ew.s(": ").s(textVerdict(st, e.Verdict(), false)).s("\n")
 		if e.Title != "" {
 			ew.s("  ").s(e.Title).s("\n")
 		}
@@ -75,10 +99,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		}
 		crit = append(crit[:0], []string{"criterion", "value", "adjusted", "limit", "result"})
 		for _, c := range e.Criteria {
-			res := "pass"
-			if !c.Pass {
-				res = paint(st, ansiRed, "FAIL")
-			}
+			res := textVerdict(st, verdictOf(c.Pass), false)
 			name, v, adj, lim := critCells(c)
 			crit = append(crit, []string{name, v, adj, lim, res})
 		}
@@ -115,6 +136,12 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		}
 		alignTable(ew, "  ", bins, true)
 		ew.maybeFlush()
+	}
+	if l := stampLines(st.Stamp); len(l) > 0 {
+		ew.s("\n")
+		for _, x := range l {
+			ew.s(x).s("\n")
+		}
 	}
 	return ew.flush()
 }

@@ -7,6 +7,7 @@ import (
 	"strings"
 	"sync"
 
+	"tandem/blind/internal/format"
 	"tandem/compare"
 	"tandem/report"
 )
@@ -93,7 +94,9 @@ func (c *Campaign) Accepted() []compare.Acceptance {
 }
 
 // BlindedSummary is the comparison of the blinded tables with the notes on
-// top, for reports.
+// top, for reports. An observable that cannot be compared yet is missing
+// from it, as incomplete (a team has not sealed it) or pending (sealed,
+// waiting for the blind step); a present sign-off that is stale is listed.
 func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
 	cmp, err := c.Compare()
 	if err != nil {
@@ -102,7 +105,49 @@ func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
 	s := *cmp.Summary
 	s.Notes = append(append([]string(nil), s.Notes...), c.Notes(cmp)...)
 	s.Accepted = c.Accepted()
+	st := c.State()
+	teams := c.Protocol.Teams()
+	for _, p := range cmp.Incomplete {
+		v := compare.VerdictIncomplete
+		if os := st.Observables[p.Observable]; os != nil && os.Sealed(teams) {
+			v = compare.VerdictPending
+		}
+		s.Missing = append(s.Missing, compare.Missing{Observable: p.Observable, Verdict: v, Reason: p.Reason})
+	}
+	for _, so := range c.Signoffs() {
+		if so.Present && so.Stale {
+			s.Stale = append(s.Stale, so.Party+": "+staleReason(firstStale(so)))
+		}
+	}
 	return &s, cmp, nil
+}
+
+// ReportInputs are the files a report of the campaign rests on, each with
+// the SHA-256 the ledger records for it: campaign.toml, then the compared
+// tables (blinded, or the unblinded ones in final reports), by
+// observable and team.
+func (c *Campaign) ReportInputs(final bool) []report.Input {
+	out := []report.Input{{Name: ProtocolFile, SHA256: format.Digest(c.ProtocolBytes)}}
+	st := c.State()
+	var tables map[Slot]*Published
+	if cmp, err := c.Compare(); err == nil {
+		tables = cmp.Tables
+	}
+	for _, o := range c.Protocol.Observables {
+		for _, t := range c.Protocol.Teams() {
+			if final {
+				rel := Slot{t, o.Name}.UnblindedPath()
+				if d, ok := st.Files[rel]; ok {
+					out = append(out, report.Input{Name: rel, SHA256: d})
+				}
+				continue
+			}
+			if p := tables[Slot{t, o.Name}]; p != nil {
+				out = append(out, report.Input{Name: p.Path, SHA256: p.Digest})
+			}
+		}
+	}
+	return out
 }
 
 // FinalSummary is the comparison of the true tables, with the notes.
@@ -131,11 +176,12 @@ func ReportPath(stem, format string) string {
 // that fails to render writes nothing, and a failed write leaves the
 // others written.
 func (c *Campaign) WriteReports(s *compare.Summary, formats []string, stem string) ([]string, error) {
+	stamp := report.NewStamp(c.ReportInputs(stem == "final")...)
 	bufs := make([]bytes.Buffer, len(formats))
 	errs := make([]error, len(formats))
 	var wg sync.WaitGroup
 	for i, f := range formats {
-		wg.Go(func() { errs[i] = report.Render(&bufs[i], f, s, report.Style{}) })
+		wg.Go(func() { errs[i] = report.Render(&bufs[i], f, s, report.Style{Stamp: stamp}) })
 	}
 	wg.Wait()
 	if err := errors.Join(errs...); err != nil {

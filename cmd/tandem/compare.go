@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"errors"
 	"flag"
 	"fmt"
@@ -15,7 +14,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"tandem/blind/protocol"
-	"tandem/blind/safefile"
 	"tandem/compare"
 	"tandem/compare/input"
 	"tandem/compare/table"
@@ -469,24 +467,6 @@ func flatten(m [][]float64) []float64 {
 }
 
 // emit renders s to stdout or atomically to path.
-func emit(e *env, s *compare.Summary, format, path string) error {
-	st := report.Style{Color: path == "" && format == "text" && colorOK(e.stdout)}
-	if path == "" {
-		var buf bytes.Buffer
-		if err := report.Render(&buf, format, s, st); err != nil {
-			return err
-		}
-		_, err := e.stdout.Write(buf.Bytes())
-		return err
-	}
-	err := safefile.WriteFrom(path, 0o644, func(w io.Writer) error { return report.Render(w, format, s, st) })
-	if err != nil {
-		return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", path, err)}
-	}
-	e.infof("%s: wrote %s report (%s)", path, format, s.Verdict())
-	return nil
-}
-
 func colorOK(w io.Writer) bool {
 	if os.Getenv("NO_COLOR") != "" || os.Getenv("TERM") == "dumb" {
 		return false

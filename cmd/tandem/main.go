@@ -12,6 +12,8 @@
 package main
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"flag"
 	"fmt"
@@ -56,17 +58,20 @@ Usage:
     tandem verify DIR
     tandem resolve DIR                     remove the branch of a forked log not kept
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
+                                           (exit 1 while incomplete, pending
+                                           or stale)
 
     tandem --version                       the version and the revision built
 
 Run "tandem COMMAND -h" for the flags of one command. Flags may come before
 or after the positional arguments. With -o FILE and no --format, the file's
-extension (.txt .json .md .xml .html) chooses the format.
+extension (.txt .json .md .xml .html) chooses the format. Every report is
+stamped with the version, the time and the SHA-256 of each input.
 
 Exit status:
     0  success, or the chains agree
-    1  the chains disagree, or a step was refused (missing sign-off,
-       failed verification)
+    1  the chains disagree, a step was refused (missing sign-off,
+       failed verification), or report found the campaign not complete
     2  bad usage or bad input (the message names the file, line and column)
 `
 
@@ -119,6 +124,9 @@ var silentFail = &exitError{code: 1, err: errors.New("")}
 type env struct {
 	stdin          io.Reader
 	stdout, stderr io.Writer
+	// stdinDigest, when set, is the SHA-256 of what was read from stdin
+	// (for the stamp of a report that compares it).
+	stdinDigest func() string
 }
 
 func (e *env) warnf(format string, args ...any) {
@@ -153,6 +161,9 @@ func commands() []command {
 }
 
 func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
+	if Version != "" {
+		report.Version = Version // the reports' stamps name it too
+	}
 	e := &env{stdin: stdin, stdout: stdout, stderr: stderr}
 	if len(args) == 0 {
 		fmt.Fprint(stderr, usage)
@@ -168,12 +179,44 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	}
 	for _, c := range commands() {
 		if c.name == args[0] {
+			if c.name == "compare" {
+				// a table read from stdin is hashed as it is read, for
+				// the report's stamp (seal needs the *os.File itself)
+				h := sha256.New()
+				e.stdin = io.TeeReader(stdin, h)
+				e.stdinDigest = func() string { return hex.EncodeToString(h.Sum(nil)) }
+			}
 			return finish(e, c.run(e, args[1:]))
 		}
 	}
-	fmt.Fprintf(stderr, "tandem: error: unknown command %q\n", args[0])
+	fmt.Fprintf(stderr, "tandem: error: unknown command %q\n", report.EscapeText(args[0]))
+	if s := suggestCommand(args[0]); s != "" {
+		fmt.Fprintf(stderr, "tandem: hint: did you mean \"tandem %s\"?\n", s)
+	}
 	fmt.Fprintf(stderr, "tandem: hint: run \"tandem -h\" for the list of commands\n")
 	return 2
+}
+
+// suggestCommand returns the command closest to name, as suggestFlag
+// finds flags: one it starts, or one within an edit distance of 1 (2 for
+// names of five or more letters); "" if none is.
+func suggestCommand(name string) string {
+	name = strings.ToLower(strings.TrimLeft(name, "-"))
+	best, bestD := "", 1<<30
+	limit := 1
+	if len(name) >= 5 {
+		limit = 2
+	}
+	for _, c := range commands() {
+		d := editDistance(name, c.name)
+		if len(name) >= 3 && strings.HasPrefix(c.name, name) {
+			d = min(d, 1)
+		}
+		if d <= limit && d < bestD {
+			best, bestD = c.name, d
+		}
+	}
+	return best
 }
 
 func finish(e *env, err error) int {
@@ -327,6 +370,12 @@ func printFlags(w io.Writer, fs *flag.FlagSet) {
 			names[i] = dashed(n)
 		}
 		arg, help := flag.UnquoteUsage(en.f)
+		if !strings.Contains(en.f.Usage, "`") {
+			arg = placeholder(arg)
+		}
+		// UnquoteUsage takes the first `NAME` as the placeholder; later
+		// backquotes are emphasis the help would show raw
+		help = strings.ReplaceAll(help, "`", "")
 		line := "  " + strings.Join(names, ", ")
 		if arg != "" {
 			line += " " + arg
@@ -336,6 +385,25 @@ func printFlags(w io.Writer, fs *flag.FlagSet) {
 		}
 		fmt.Fprintf(w, "%s\n        %s\n", line, help)
 	}
+}
+
+// placeholder replaces the Go type name the flag package shows for a flag
+// whose help names no `VALUE` (float, string, int) with a word for what
+// is typed.
+func placeholder(goType string) string {
+	switch goType {
+	case "float":
+		return "X"
+	case "int", "int64", "uint", "uint64":
+		return "N"
+	case "string":
+		return "TEXT"
+	case "duration":
+		return "DURATION"
+	case "value":
+		return "VALUE"
+	}
+	return goType
 }
 
 // parse parses flags that may stand before or after positional arguments,

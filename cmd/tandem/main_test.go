@@ -73,3 +73,27 @@ func TestScripts(t *testing.T) {
 		},
 	})
 }
+
+// TestSuggestCommand: a mistyped command gets the closest command (one
+// edit, or two for names of five letters or more, a swap of neighbours
+// counting as one), and nothing when none is close.
+func TestSuggestCommand(t *testing.T) {
+	for in, want := range map[string]string{
+		"comapre": "compare", "compre": "compare", "reprot": "report", "stauts": "status",
+		"unblnid": "unblind", "sing": "sign", "verfy": "verify", "rep": "report", "--sync": "sync",
+		"frobnicate": "", "x": "", "": "",
+	} {
+		if got := suggestCommand(in); got != want {
+			t.Errorf("suggestCommand(%q) = %q, want %q", in, got, want)
+		}
+	}
+}
+
+// TestPlaceholder: help never shows Go's type names for a flag's value.
+func TestPlaceholder(t *testing.T) {
+	for in, want := range map[string]string{"float": "X", "int": "N", "int64": "N", "string": "TEXT", "duration": "DURATION", "value": "VALUE", "FILE": "FILE"} {
+		if got := placeholder(in); got != want {
+			t.Errorf("placeholder(%q) = %q, want %q", in, got, want)
+		}
+	}
+}

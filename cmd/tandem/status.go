@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"tandem/blind/campaign"
+	"tandem/compare"
 	"tandem/report"
 )
 
@@ -28,7 +29,7 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		if err != nil {
 			return campaignErr(err)
 		}
-		if err := emit(e, s, cf.format, cf.output); err != nil {
+		if err := emitStamped(e, s, cf.format, cf.output, report.NewStamp(c.ReportInputs(true)...)); err != nil {
 			return err
 		}
 		if !s.Pass() {
@@ -44,7 +45,7 @@ func compareCampaign(e *env, dir string, cf *compareFlags) error {
 		e.warnf("%s: incomplete: %s", p.Observable, p.Reason)
 	}
 	if len(s.Entries) > 0 {
-		if err := emit(e, s, cf.format, cf.output); err != nil {
+		if err := emitStamped(e, s, cf.format, cf.output, report.NewStamp(c.ReportInputs(false)...)); err != nil {
 			return err
 		}
 	}
@@ -242,16 +243,28 @@ const reportHelp = `Usage:
     tandem report DIR [--format html|markdown|junit|json|text] [-o FILE]
 
 Renders the campaign's comparison (blinded tables before unblinding, true
-tables after). Without --format, writes every format under DIR/reports/
-(campaign.* before unblinding, final.* after, the same files unblind
-writes). "tandem compare DIR" only prints.
+tables after). Without --format and -o, writes every format under
+DIR/reports/ (campaign.* before unblinding, final.* after, the same files
+unblind writes). With -o FILE and no --format, the extension chooses the
+format: .txt, .json, .md, .xml (JUnit), .html.
+
+Every report is stamped with the tool's version, the time (UTC) and the
+SHA-256 of campaign.toml and of each table compared.
+
+Verdicts: pass, fail, and while the campaign is not complete incomplete
+(an observable not sealed by every team), pending (a seal waiting for
+tandem blind) or stale (a sign-off made on an earlier state).
+
+Exit status: 0 when the campaign is complete (its verdict is pass or
+fail), 1 when it is incomplete, pending or stale (the reports are written
+and say so), 2 bad usage.
 `
 
 func runReport(e *env, args []string) error {
 	fs := newFlags(e, "report", reportHelp)
 	var format, output string
 	fs.StringVar(&format, "format", "", "one `FORMAT`: html, markdown, junit, json or text")
-	stringVar(fs, &output, []string{"o", "output"}, "", "write to `FILE` instead of stdout")
+	stringVar(fs, &output, []string{"o", "output"}, "", "write to `FILE` instead of stdout (atomically); its extension chooses the format when --format is not given")
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
@@ -263,39 +276,51 @@ func runReport(e *env, args []string) error {
 	if format != "" && !slices.Contains(report.Formats, format) {
 		return usageErr("--format %q is not one of %s", format, strings.Join(report.Formats, ", "))
 	}
+	if output == "-" {
+		output = ""
+		if format == "" {
+			format = "text"
+		}
+	}
 	if format == "" && output != "" {
-		return usageErr("-o needs --format")
+		f, ok := formatFromPath(output)
+		if !ok {
+			return withHint(usageErr("-o %s: the extension does not name a report format", output),
+				"use .txt, .json, .md, .xml (JUnit) or .html, or give --format")
+		}
+		format = f
+	}
+	if err := checkOutput(output); err != nil {
+		return err
 	}
 	c, err := openCampaign(dir)
 	if err != nil {
 		return err
 	}
-	if format == "" {
-		var files []string
-		if c.Unblinded() {
-			files, err = c.WriteFinalReports()
-		} else {
-			files, err = c.WriteBlindedReports()
-		}
-		if err != nil {
-			return campaignErr(err)
-		}
-		e.infof("wrote %s", strings.Join(files, ", "))
-		return nil
+	final := c.Unblinded()
+	var s *compare.Summary
+	if final {
+		s, err = c.FinalSummary()
+	} else {
+		s, _, err = c.BlindedSummary()
 	}
-	if c.Unblinded() {
-		s, err := c.FinalSummary()
-		if err != nil {
-			return campaignErr(err)
-		}
-		return emit(e, s, format, output)
-	}
-	s, cmp, err := c.BlindedSummary()
 	if err != nil {
 		return campaignErr(err)
 	}
-	for _, p := range cmp.Incomplete {
-		e.warnf("%s: incomplete: %s", p.Observable, p.Reason)
+	if format == "" {
+		var files []string
+		if final {
+			files, err = c.WriteReports(s, report.Formats, "final")
+		} else {
+			files, err = c.WriteReports(s, report.Formats, "campaign")
+		}
+		if err != nil {
+			return campaignErr(err)
+		}
+		printWarnings(e, s)
+		e.infof("wrote %s", strings.Join(files, ", "))
+	} else if err := emitStamped(e, s, format, output, report.NewStamp(c.ReportInputs(final)...)); err != nil {
+		return err
 	}
-	return emit(e, s, format, output)
+	return notComplete(s)
 }
