@@ -156,9 +156,9 @@ func SyncHTML(w io.Writer, r *events.Result) error {
 // syncBanner writes the verdict in large type with what it rests on, and
 // each failure below it.
 func syncBanner(w io.Writer, r *events.Result) {
-	cls, word := "pass", "AGREE"
+	cls, word := "pass", "pass"
 	if !r.Pass {
-		cls, word = "fail", "DISAGREE"
+		cls, word = "fail", "fail"
 	}
 	outside := 0
 	for _, v := range r.Variables {

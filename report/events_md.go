@@ -37,9 +37,9 @@ func byteSize(n int64) string {
 func SyncMarkdown(w io.Writer, r *events.Result) error {
 	r = cleanResult(r)
 	ew := &errWriter{w: w}
-	word := "agree"
+	word := "pass"
 	if !r.Pass {
-		word = "**disagree**"
+		word = "**fail**"
 	}
 	fmt.Fprintf(ew, "## Event sync %s vs %s: %s\n\n", mdEscape(r.LabelA), mdEscape(r.LabelB), word)
 	for _, f := range r.Failures {

@@ -94,7 +94,7 @@ func TestSyncTextAndHTML(t *testing.T) {
 	if err := SyncText(&txt, r, Style{}); err != nil {
 		t.Fatal(err)
 	}
-	for _, want := range []string{"verdict: DISAGREE", "2864 common", ">> the chains part at cut quality", "overlap per bin of energy"} {
+	for _, want := range []string{"verdict: FAIL", "2864 common", ">> the chains part at cut quality", "overlap per bin of energy"} {
 		if !strings.Contains(txt.String(), want) {
 			t.Errorf("text lacks %q", want)
 		}
@@ -218,7 +218,7 @@ func TestSyncPageInChromium(t *testing.T) {
 			t.Fatal(err)
 		}
 		page := buf.String()
-		for _, want := range []string{`<div class="banner fail" role="status"><b>DISAGREE</b>`, `aria-label="cut-flow efficiencies"`,
+		for _, want := range []string{`<div class="banner fail" role="status"><b>fail</b>`, `aria-label="cut-flow efficiencies"`,
 			`>events</text>`, `>relative difference |a−b| / max(|a|, |b|)</text>`, `>10³</text>`, `>10⁴</text>`} {
 			if !strings.Contains(page, want) {
 				t.Errorf("%s: page lacks %q", c.name, want)
@@ -306,7 +306,7 @@ func TestSyncJUnitAndMarkdown(t *testing.T) {
 		t.Fatal(err)
 	}
 	md := buf.String()
-	for _, want := range []string{"## Event sync heron vs otter: **disagree**", "| energy | **fail** |", "| **quality** (the chains part here) |",
+	for _, want := range []string{"## Event sync heron vs otter: **fail**", "| energy | **fail** |", "| **quality** (the chains part here) |",
 		"Tables not sorted by key", "### Overlap per bin of energy"} {
 		if !strings.Contains(md, want) {
 			t.Errorf("Markdown lacks %q", want)

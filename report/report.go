@@ -475,6 +475,9 @@ func warnings(s *compare.Summary) []string {
 			continue
 		}
 		for _, w := range e.Warnings {
+			if w == compare.PairwiseNote {
+				continue // said once, at the head of the N-team section
+			}
 			out = append(out, entryTitle(e)+": "+w)
 		}
 	}

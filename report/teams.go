@@ -100,7 +100,7 @@ func teamsText(ew *page, s *compare.Summary, st Style) {
 	}
 	ew.s("\n").s(strconv.Itoa(len(s.Teams[0].Teams))).s(" teams: ").s(teamsIntro).s("\n")
 	for _, t := range s.Teams {
-		ew.s("\n== ").s(teamsTitle(t)).s(": ").s(verdictWord(st, t.Pass)).s("\n")
+		ew.s("\n== ").s(teamsTitle(t)).s(": ").s(textVerdict(st, verdictOf(t.Pass), false)).s("\n")
 		var files []string
 		for i, team := range t.Teams {
 			if i < len(t.Files) && t.Files[i] != team {

@@ -28,9 +28,9 @@ func paint(st Style, code, s string) string {
 // sync report uses it too).
 func verdictWord(st Style, pass bool) string {
 	if pass {
-		return paint(st, ansiGreen, "AGREE")
+		return paint(st, ansiGreen, "PASS")
 	}
-	return paint(st, ansiRed+ansiBold, "DISAGREE")
+	return paint(st, ansiRed+ansiBold, "FAIL")
 }
 
 // textVerdict writes a verdict of compare.Verdict* for the terminal: in

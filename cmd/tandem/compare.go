@@ -372,11 +372,8 @@ func runCompare(e *env, args []string) error {
 		}
 		return inputErr(err)
 	}
-	for _, r := range results {
-		if slices.Contains(r.Warnings, compare.CountsLikeWarning) {
-			e.warnf("column %q: %s", r.Column, compare.CountsLikeWarning)
-		}
-	}
+	// Every result warning, the counts hint included, reaches stderr
+	// where the report is emitted.
 	name := cf.name
 	if name == "" {
 		name = strings.TrimSuffix(filepath.Base(a.Source), filepath.Ext(a.Source))
