@@ -163,7 +163,7 @@ func CountTests(in CountInput, set CountSettings) (*CountStats, error) {
 		return nil, fmt.Errorf("exposure ratio must be a finite number > 0, got %v", set.ExposureRatio)
 	}
 	if set.Samples < 0 || set.Samples > MaxMCSamples {
-		return nil, fmt.Errorf("Monte Carlo samples must be in [0, %d], got %d", MaxMCSamples, set.Samples)
+		return nil, fmt.Errorf("the Monte Carlo sample count must be in [0, %d], got %d", MaxMCSamples, set.Samples)
 	}
 	p0 := r / (1 + r)
 	if in.Common != nil && p0 != 0.5 {

@@ -55,13 +55,6 @@ func effStr(e events.Efficiency) string {
 	return fmt.Sprintf("%.2f%% [%.2f, %.2f]", 100*e.Value, 100*e.Lo, 100*e.Hi)
 }
 
-func pct(k, n int64) string {
-	if n == 0 {
-		return "n/a"
-	}
-	return strconv.FormatFloat(100*float64(k)/float64(n), 'g', 4, 64) + "%"
-}
-
 func tolStr(t events.Tolerance) string {
 	return fmt.Sprintf("abs %s, rel %s", num(t.Abs), num(t.Rel))
 }

@@ -75,7 +75,7 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		{{1e300, 1, 1, 2}, {1e-10, 1, 0, 0}, {-1e300, 1.5, 2, 2}, {1e-10, 1, 0, 0}}, // ±Inf and NaN pulls
 		{{5, 6}, {0.5, 0.5}, {5, 6}, {0.5, 0.5}},                                    // ndf 0 with ρ = 1
 		{{1e-9, 2e-7, 3e22}, {1e-10, 1e-8, 1e21}, {1.1e-9, 2e-7, 3.1e22}, {1e-10, 1e-8, 1e21}},
-		{{-0.0, 0, 1}, {1, 1, 1}, {0, 1e-300, 1}, {1, 1, 1}},
+		{{math.Copysign(0, -1), 0, 1}, {1, 1, 1}, {0, 1e-300, 1}, {1, 1, 1}},
 	} {
 		r, err := compare.Series(mk(c[0], c[1]), mk(c[2], c[3]), compare.Options{Correlation: float64(i%2) * 0.999999, Limits: compare.DefaultLimits})
 		if err != nil {
@@ -175,7 +175,7 @@ func checkSameJSON(t *testing.T, name string, g, w []byte) {
 // and any numbers.
 func FuzzJSONWriter(f *testing.F) {
 	f.Add("plain", "re\u2066ason\x07 <&>", 1.5, 1e-7, math.Inf(1))
-	f.Add("\xff\u2028", "\u0085\"\\", -0.0, 1e21, math.NaN())
+	f.Add("\xff\u2028", "\u0085\"\\", math.Copysign(0, -1), 1e21, math.NaN())
 	f.Fuzz(func(t *testing.T, title, reason string, x, y, z float64) {
 		rng := rand.New(rand.NewPCG(math.Float64bits(x), math.Float64bits(y)))
 		n := 1 + rng.IntN(5)

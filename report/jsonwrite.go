@@ -228,14 +228,6 @@ func (j *jsonWriter) maybeFlush() {
 	j.b = j.p.b
 }
 
-func (j *jsonWriter) numPtr(v *jnum) {
-	if v == nil {
-		j.b = append(j.b, "null"...)
-		return
-	}
-	j.num(*v)
-}
-
 func (j *jsonWriter) summary(s jsonSummary) {
 	j.open('{')
 	j.key("verdict")

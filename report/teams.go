@@ -22,17 +22,6 @@ const teamsIntro = "the N-team test judges; the pairwise comparisons are diagnos
 // count).
 func comparisons(s *compare.Summary) int { return len(s.Entries) + len(s.Teams) }
 
-// teamsFailures counts the failing N-team tests.
-func teamsFailures(s *compare.Summary) int {
-	n := 0
-	for _, t := range s.Teams {
-		if !t.Pass {
-			n++
-		}
-	}
-	return n
-}
-
 // teamsTitle names one N-team test, e.g. "rate / flux (3 teams)".
 func teamsTitle(t *compare.TeamsResult) string {
 	s := t.Observable

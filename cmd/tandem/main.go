@@ -540,8 +540,6 @@ func argCount(n int) string {
 
 // nameList writes names for people: "kestrel, marmot" (never Go's
 // "[kestrel marmot]").
-func nameList(names []string) string { return strings.Join(names, ", ") }
-
 // formatFromPath picks the report format from an output file's extension
 // (.json, .md, .html, .xml, .txt; .junit.xml too), for -o FILE without
 // --format. ok is false for any other extension.
