@@ -102,7 +102,9 @@ func (t *Table) validateCells() error {
 			continue
 		}
 		switch {
-		case ylo < pylo || (ylo == pylo && yhi < pyhi):
+		case ylo == pylo:
+			return Errorf(t.Source, t.line(i), 0, "cell %d: y range [%s, %s] starts with the cell before it, [%s, %s], but ends elsewhere; cells of one band share their y edges", i+1, Format(ylo), Format(yhi), Format(pylo), Format(pyhi))
+		case ylo < pylo:
 			return Errorf(t.Source, t.line(i), 0, "cell %d: cells are not sorted by y (y range [%s, %s] after [%s, %s]); cells go in rows of equal y, x fastest", i+1, Format(ylo), Format(yhi), Format(pylo), Format(pyhi))
 		case ylo < pyhi:
 			return Errorf(t.Source, t.line(i), 0, "cell %d: y range [%s, %s] overlaps the band [%s, %s] before it; cells of one band share their y edges", i+1, Format(ylo), Format(yhi), Format(pylo), Format(pyhi))
