@@ -1,6 +1,10 @@
 package compare
 
-import "tandem/compare/table"
+import (
+	"fmt"
+
+	"tandem/compare/table"
+)
 
 // Comparisons of 2-D tables (see [table.Table.Is2D]) run every statistic
 // over the cells exactly as over the bins of a 1-D table: the pulls, χ²
@@ -36,8 +40,14 @@ func markCells(r *Result, t *table.Table) {
 	}
 	r.YLo, r.YHi = t.YLo, t.YHi
 	for i := range r.Criteria {
-		if r.Criteria[i].Name == CritRuns && r.Criteria[i].Note == "" {
-			r.Criteria[i].Note = CellsRunsNote
+		c := &r.Criteria[i]
+		switch {
+		case c.Name == CritRuns && c.Note == "":
+			c.Note = CellsRunsNote
+		case c.Name == CritMaxPull && !c.Pass && r.MaxPullBin >= 0:
+			k := r.MaxPullBin
+			c.Detail = fmt.Sprintf("cell %d (x %s to %s, y %s to %s) has pull %s", k+1,
+				table.Format(r.Lo[k]), table.Format(r.Hi[k]), table.Format(r.YLo[k]), table.Format(r.YHi[k]), fmtG(r.Pulls[k]))
 		}
 	}
 }

@@ -146,7 +146,11 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 	}
 	limit := pullLimit(e)
 	p.s(`<figure class="panels">` + "\n")
-	figure(p, id, e, limit)
+	if e.Cells() {
+		cellFigures(p, id, e, limit) // 2-D: pull map and slices (map.go)
+	} else {
+		figure(p, id, e, limit)
+	}
 	p.s("</figure>\n")
 	if _, k := groups(e.Bins); k > 1 {
 		p.s(`<p class="note">`).d(e.Bins).s(" bins are drawn as ").d((e.Bins + k - 1) / k).s(" groups of ").d(k).
@@ -195,7 +199,11 @@ func binTableHTML(p *page, e compare.Entry) {
 	} else {
 		p.s("all ").d(e.Bins).s(" bins")
 	}
-	p.s("</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
+	p.s("</summary>\n<table><tr>")
+	for _, h := range binHeads(e) {
+		p.s("<th>").s(h).s("</th>")
+	}
+	p.s("<th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
 	for _, i := range idx {
 		p.s("<tr>")
 		binRow(p, e, i, "<td>", "</td>")
