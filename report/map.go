@@ -171,7 +171,7 @@ func pullMapSVG(w *page, e compare.Entry, limit float64) {
 		w.nums(`<text x="%" y="%" font-size="`, bx+bw+8, y+5)
 		w.g(tickFont).s(`">`).s(strconv.FormatFloat(t, 'g', 3, 64)).s("</text>\n")
 	}
-	w.s(`<text class="axis" transform="translate(`).g(bx - 8).s(",").g((top + bot) / 2).s(`) rotate(-90)" text-anchor="middle">pull (a − b) / σ_d</text>` + "\n")
+	w.s(`<text class="axis" transform="translate(`).g(bx + bw + 64).s(",").g((top + bot) / 2).s(`) rotate(-90)" text-anchor="middle">pull (a − b) / σ_d</text>` + "\n")
 	w.s(`<text x="`).g(f.w - f.right).s(`" y="`).g(f.top - 10).s(`" text-anchor="end">`)
 	if limit > 0 {
 		w.s("outlined: |pull| > ").s(num(limit)).s("; ")
