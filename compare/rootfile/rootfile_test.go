@@ -318,7 +318,7 @@ func FuzzRead(f *testing.F) {
 		if err := os.WriteFile(p, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		for _, obj := range []string{":h", ":g", ""} {
+		for _, obj := range []string{":h", ":g", ":h2", ""} {
 			if _, err := Read(p + obj); err != nil {
 				mustBeInputError(t, err)
 			}

@@ -69,8 +69,8 @@ print(json.dumps({"value": sw.T.ravel().tolist(), "err": np.sqrt(sw2.T.ravel()).
 // by ROOT) and checks every cell against numpy's histogram2d of the data
 // ROOT filled them with.
 func TestTH2FromGoHep(t *testing.T) {
-	file := gohep(t, "hbook/rootcnv/testdata/gauss-h2.root")
-	data := gohep(t, "hbook/rootcnv/testdata/gauss-2d-data.dat")
+	file := gohep(t, gaussH2)
+	data := gohep(t, gauss2D)
 	for _, c := range []struct {
 		name, edges string
 		tol         float64
