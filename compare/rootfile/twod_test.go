@@ -2,6 +2,7 @@ package rootfile
 
 import (
 	"encoding/json"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -59,9 +60,10 @@ func runPython(t *testing.T, script string, v any, args ...string) {
 const histScript = `
 import json, sys, numpy as np
 d = np.loadtxt(sys.argv[1])
-edges = [float(e) for e in sys.argv[2].split(",")]
-sw, _, _ = np.histogram2d(d[:,0], d[:,1], bins=[edges, edges], weights=d[:,2])
-sw2, _, _ = np.histogram2d(d[:,0], d[:,1], bins=[edges, edges], weights=d[:,2]**2)
+xe = [float(e) for e in sys.argv[2].split(",")]
+ye = [float(e) for e in sys.argv[-1].split(",")]
+sw, _, _ = np.histogram2d(d[:,0], d[:,1], bins=[xe, ye], weights=d[:,2])
+sw2, _, _ = np.histogram2d(d[:,0], d[:,1], bins=[xe, ye], weights=d[:,2]**2)
 print(json.dumps({"value": sw.T.ravel().tolist(), "err": np.sqrt(sw2.T.ravel()).tolist(), "numpy": np.__version__}))
 `
 
@@ -88,7 +90,7 @@ func TestTH2FromGoHep(t *testing.T) {
 			Value, Err []float64
 			Numpy      string
 		}
-		runPython(t, histScript, &want, data, c.edges)
+		runPython(t, histScript, &want, data, c.edges, c.edges)
 		if !tb.Is2D() || tb.Len() != 9 || tb.LoName != XLo || tb.YHiName != YHi {
 			t.Fatalf("%s: not 9 cells: %+v", c.name, tb)
 		}
@@ -142,9 +144,11 @@ c = float(np.sum(p**2))
 print(json.dumps({"pulls": p.tolist(), "chi2": c, "p": float(stats.chi2.sf(c, len(p)))}))
 `
 
-// TestTH2PairAgreesWithCSV writes two TH2Ds with groot (fixed seeds),
-// compares them as ROOT histograms and as the same cells in CSV, and checks
-// both against numpy and scipy.
+// TestTH2PairAgreesWithCSV writes two TH2Ds with groot (fixed seeds,
+// weights between 0.5 and 1.5, so √Σw² is not √Σw), checks the cells read
+// against numpy's histogram2d of the same fills, compares the pair as ROOT
+// histograms and as the same cells in CSV, and checks both comparisons
+// against numpy and scipy.
 func TestTH2PairAgreesWithCSV(t *testing.T) {
 	dir := t.TempDir()
 	var tabs [2]*table.Table
@@ -152,8 +156,15 @@ func TestTH2PairAgreesWithCSV(t *testing.T) {
 	for k := range 2 {
 		h := hbook.NewH2D(4, 0, 2, 3, -1, 1.5)
 		r := rand.New(rand.NewPCG(uint64(k+1), 7))
+		var fills strings.Builder
 		for range 5000 {
-			h.Fill(r.NormFloat64()*0.7+1, r.NormFloat64()*0.8+0.2, 0.5+r.Float64())
+			x, y, w := r.NormFloat64()*0.7+1, r.NormFloat64()*0.8+0.2, 0.5+r.Float64()
+			h.Fill(x, y, w)
+			fmt.Fprintf(&fills, "%v %v %v\n", x, y, w)
+		}
+		dat := filepath.Join(dir, fmt.Sprintf("fills%d.dat", k))
+		if err := os.WriteFile(dat, []byte(fills.String()), 0o644); err != nil {
+			t.Fatal(err)
 		}
 		root := filepath.Join(dir, []string{"a.root", "b.root"}[k])
 		f, err := groot.Create(root)
@@ -168,6 +179,27 @@ func TestTH2PairAgreesWithCSV(t *testing.T) {
 		}
 		if tabs[k], err = Read(root + ":map"); err != nil {
 			t.Fatal(err)
+		}
+		var want struct{ Value, Err []float64 }
+		// the edges as read, written exactly (shortest round-trip form)
+		tb := tabs[k]
+		xe, ye := fmt.Sprint(tb.Lo[0]), fmt.Sprint(tb.YLo[0])
+		for i := 0; i < 4; i++ {
+			xe += "," + fmt.Sprint(tb.Hi[i])
+		}
+		for i := 0; i < 3; i++ {
+			ye += "," + fmt.Sprint(tb.YHi[4*i])
+		}
+		runPython(t, histScript, &want, dat, xe, ye)
+		for i := range want.Value {
+			for _, c := range []struct {
+				col       string
+				got, want float64
+			}{{Value, tabs[k].Cols[0][i], want.Value[i]}, {Err, tabs[k].Cols[1][i], want.Err[i]}} {
+				if math.Abs(c.got-c.want) > 1e-9*math.Max(1, math.Abs(c.want)) {
+					t.Errorf("%s cell %d %s: %v, numpy %v", root, i+1, c.col, c.got, c.want)
+				}
+			}
 		}
 		csvs[k] = filepath.Join(dir, []string{"a.csv", "b.csv"}[k])
 		w, err := os.Create(csvs[k])
