@@ -191,6 +191,10 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 
 // binTableHTML writes the per-bin values in a collapsed <details> block.
 func binTableHTML(p *page, e compare.Entry) {
+	if e.Cells() {
+		cellTableHTML(p, e) // 2-D (map.go)
+		return
+	}
 	idx, cut := rows(e.Result, Style{MaxRows: maxTableRows})
 	a, b := e.Sides()
 	p.s("<details><summary>Per-bin values: ")
@@ -199,11 +203,7 @@ func binTableHTML(p *page, e compare.Entry) {
 	} else {
 		p.s("all ").d(e.Bins).s(" bins")
 	}
-	p.s("</summary>\n<table><tr>")
-	for _, h := range binHeads(e) {
-		p.s("<th>").s(h).s("</th>")
-	}
-	p.s("<th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
+	p.s("</summary>\n<table><tr><th>bin</th><th>lo</th><th>hi</th><th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ_d</th><th>pull</th></tr>\n")
 	for _, i := range idx {
 		p.s("<tr>")
 		binRow(p, e, i, "<td>", "</td>")

@@ -238,3 +238,27 @@ func slicesSVG(w *page, e compare.Entry) {
 		overlaySVG(w, sub, a, b, gs, k)
 	}
 }
+
+// cellTableHTML is binTableHTML for the cells of a 2-D comparison: both
+// coordinates of each cell.
+func cellTableHTML(p *page, e compare.Entry) {
+	idx, cut := rows(e.Result, Style{MaxRows: maxTableRows})
+	a, b := e.Sides()
+	p.s("<details><summary>Per-cell values: ")
+	if cut {
+		p.s("the ").d(len(idx)).s(" cells with the largest |pull| of ").d(e.Bins).s(" (the JSON report has every cell)")
+	} else {
+		p.s("all ").d(e.Bins).s(" cells")
+	}
+	p.s("</summary>\n<table><tr>")
+	for _, h := range binHeads(e) {
+		p.s("<th>").s(h).s("</th>")
+	}
+	p.s("<th>").e(a).s("</th><th>±</th><th>").e(b).s("</th><th>±</th><th>a − b</th><th>σ<sub>d</sub></th><th>pull</th></tr>\n")
+	for _, i := range idx {
+		p.s("<tr>")
+		binRow(p, e, i, "<td>", "</td>")
+		p.s("</tr>\n")
+	}
+	p.s("</table></details>\n")
+}
