@@ -118,13 +118,17 @@ func TestSplitEdges(t *testing.T) {
 	}
 }
 
-// FuzzParseCells: 2-D tables never panic the reader; an accepted one keeps
+// FuzzParseCells: 2-D tables never panic the CSV or JSON reader; an
+// accepted CSV table keeps
 // the cell order of Table.Is2D, no two cells overlap (checked against
 // every other cell, not only the one before), and it survives a
 // write/parse round trip unchanged. The edge names come from the fuzzed
 // --edges value too.
 func FuzzParseCells(f *testing.F) {
 	for _, s := range fuzzseed.Load(f, "cells_*.cells") {
+		f.Add(s, "xlo,xhi,ylo,yhi")
+	}
+	for _, s := range fuzzseed.Load(f, "cells_*.cellsjson") {
 		f.Add(s, "xlo,xhi,ylo,yhi")
 	}
 	f.Add([]byte("a,b,c,d,v\n0,1,0,1,2\n"), "a,b,c,d")
@@ -134,6 +138,14 @@ func FuzzParseCells(f *testing.F) {
 			return
 		}
 		opt := CSVOptions{Lo: names[0], Hi: names[1], YLo: names[2], YHi: names[3]}
+		// The JSON reader takes the same edges: a table or an *Error.
+		if js, err := ParseJSON("fuzz.json", data, opt); err != nil {
+			if _, ok := err.(*Error); !ok {
+				t.Fatalf("JSON: error of type %T: %v", err, err)
+			}
+		} else if !js.Is2D() || js.Validate() != nil {
+			t.Fatalf("JSON: accepted an invalid 2-D table: %v", js.Validate())
+		}
 		tb, err := ParseCSV("fuzz.csv", data, opt)
 		if err != nil {
 			if _, ok := err.(*Error); !ok {
