@@ -119,10 +119,9 @@ func TestSplitEdges(t *testing.T) {
 }
 
 // FuzzParseCells: 2-D tables never panic the CSV or JSON reader; an
-// accepted CSV table keeps
-// the cell order of Table.Is2D, no two cells overlap (checked against
-// every other cell, not only the one before), and it survives a
-// write/parse round trip unchanged. The edge names come from the fuzzed
+// accepted CSV table keeps the cell order of Table.Is2D, no two cells
+// overlap (checked against every other cell, not only the one before),
+// and it survives a write/parse round trip unchanged. The edge names come from the fuzzed
 // --edges value too.
 func FuzzParseCells(f *testing.F) {
 	for _, s := range fuzzseed.Load(f, "cells_*.cells") {
