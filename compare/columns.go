@@ -35,6 +35,7 @@ func Columns(a, b *table.Table, sels []Selection, opt Options) ([]*Result, error
 			if err != nil {
 				return nil, err
 			}
+			markCells(r, a)
 			out = append(out, r)
 			continue
 		}
@@ -53,6 +54,7 @@ func Columns(a, b *table.Table, sels []Selection, opt Options) ([]*Result, error
 		if countsLikePair(a, b, sel) {
 			r.Warnings = append(r.Warnings, CountsLikeWarning)
 		}
+		markCells(r, a)
 		out = append(out, r)
 	}
 	var unknown []string

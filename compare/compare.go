@@ -126,11 +126,14 @@ type Source struct {
 type Result struct {
 	Column string `json:"column"`
 	// LabelA and LabelB name the two sides (file names, or teams).
-	LabelA      string    `json:"label_a,omitempty"`
-	LabelB      string    `json:"label_b,omitempty"`
-	Bins        int       `json:"bins"`
-	Lo          []float64 `json:"-"`
-	Hi          []float64 `json:"-"`
+	LabelA string    `json:"label_a,omitempty"`
+	LabelB string    `json:"label_b,omitempty"`
+	Bins   int       `json:"bins"`
+	Lo     []float64 `json:"-"`
+	Hi     []float64 `json:"-"`
+	// YLo and YHi are the y edges of the cells of a 2-D comparison (then
+	// Lo and Hi are the x edges); nil for 1-D bins. See [Cells].
+	YLo, YHi    []float64 `json:"-"`
 	A, B        []float64 `json:"-"`
 	ErrA, ErrB  []float64 `json:"-"`
 	Diff        []float64 `json:"-"`

@@ -168,7 +168,11 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 	}
 	limit := pullLimit(e)
 	p.s(`<figure class="panels">` + "\n")
-	figure(p, id, e, limit)
+	if e.Cells() {
+		cellFigures(p, id, e, limit) // 2-D: pull map and slices (map.go)
+	} else {
+		figure(p, id, e, limit)
+	}
 	p.s("</figure>\n")
 	if _, k := groups(e.Bins); k > 1 {
 		p.s(`<p class="note">`).d(e.Bins).s(" bins are drawn as ").d((e.Bins + k - 1) / k).s(" groups of ").d(k).
@@ -209,6 +213,10 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 
 // binTableHTML writes the per-bin values in a collapsed <details> block.
 func binTableHTML(p *page, e compare.Entry) {
+	if e.Cells() {
+		cellTableHTML(p, e) // 2-D (map.go)
+		return
+	}
 	idx, cut := rows(e.Result, Style{MaxRows: maxTableRows})
 	a, b := e.Sides()
 	p.s("<details><summary>Per-bin values: ")

@@ -131,13 +131,14 @@ type jsonEntry struct {
 	// AcceptedDisagreement says that this comparison fails and the
 	// signing parties accepted the disagreement (see
 	// accepted_disagreements).
-	AcceptedDisagreement bool     `json:"accepted_disagreement"`
-	Warnings             []string `json:"warnings"`
-	ZeroSigmaBins        []int    `json:"zero_sigma_bins,omitempty"`
-	Covariance           bool     `json:"covariance"`
-	AsymmetricErrs       bool     `json:"asymmetric_errors"`
-	Pulls                any      `json:"pulls"`
-	PerBin               jsonBins `json:"per_bin"`
+	AcceptedDisagreement bool       `json:"accepted_disagreement"`
+	Warnings             []string   `json:"warnings"`
+	ZeroSigmaBins        []int      `json:"zero_sigma_bins,omitempty"`
+	Covariance           bool       `json:"covariance"`
+	AsymmetricErrs       bool       `json:"asymmetric_errors"`
+	Pulls                any        `json:"pulls"`
+	Cells                []jsonCell `json:"cells,omitempty"` // 2-D comparisons only (map.go)
+	PerBin               jsonBins   `json:"per_bin"`
 }
 
 // JSONValue builds the JSON document of s as a value, for callers that
@@ -170,7 +171,7 @@ func jsonValue(s *compare.Summary, stamp *Stamp) jsonSummary {
 			MaxAbsPull: jnum(e.MaxAbsPull), MaxPullP: jnum(e.MaxPullP),
 			KSStatistic: jnum(e.KSStat), KSP: jnum(e.KSP), Runs: e.Runs, RunsP: jnum(e.RunsP),
 			Verdict: e.Verdict(), Failures: e.Failures(), Warnings: e.Warnings,
-			Covariance: e.Covariance, AsymmetricErrs: e.Asymmetric, Pulls: numList(e.Pulls),
+			Covariance: e.Covariance, AsymmetricErrs: e.Asymmetric, Pulls: numList(e.Pulls), Cells: jsonCells(e.Result),
 			PerBin: jsonBins{Lo: numList(e.Lo), Hi: numList(e.Hi), A: numList(e.A), ErrA: numList(e.ErrA), B: numList(e.B),
 				ErrB: numList(e.ErrB), Diff: numList(e.Diff), SigmaD: numList(e.SigmaDiff)},
 			Family: e.Family, Condition: jnum(e.Condition),

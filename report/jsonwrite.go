@@ -415,6 +415,10 @@ func (j *jsonWriter) entry(e *jsonEntry) {
 	j.bool(e.AsymmetricErrs)
 	j.key("pulls")
 	j.nums(e.Pulls)
+	if len(e.Cells) > 0 {
+		j.key("cells")
+		j.cells(e.Cells)
+	}
 	j.key("per_bin")
 	j.open('{')
 	for _, l := range [...]struct {

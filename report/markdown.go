@@ -81,7 +81,15 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 			fmt.Fprintf(ew, "\nThe %d bins with the largest |pull| of %d:\n", len(idx), e.Bins)
 		}
 		a, b := e.Sides()
-		ew.s("\n| bin | lo | hi | ").s(mdEscape(a)).s(" | ± | ").s(mdEscape(b)).s(" | ± | a − b | σ\\_d | pull |\n| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |\n")
+		ew.s("\n|")
+		for _, h := range binHeads(e) {
+			ew.s(" ").s(h).s(" |")
+		}
+		ew.s(" ").s(mdEscape(a)).s(" | ± | ").s(mdEscape(b)).s(" | ± | a − b | σ\\_d | pull |\n|")
+		for range len(binHeads(e)) + 7 {
+			ew.s(" ---: |")
+		}
+		ew.s("\n")
 		for _, i := range idx {
 			ew.s("|")
 			binRow(ew, e, i, " ", " |")

@@ -289,7 +289,8 @@ func binCells(dst []string, e compare.Entry, i int) []string {
 	vb, eb := withError(e.B[i], e.ErrB[i])
 	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
 	p := pullText(e.Pulls[i]) // n/a when undefined, ±Inf when infinite
-	return append(dst, strconv.Itoa(i+1), val(e.Lo[i]), val(e.Hi[i]), va, ea, vb, eb, d, sd, p)
+	dst = appendYEdges(append(dst, strconv.Itoa(i+1), val(e.Lo[i]), val(e.Hi[i])), e, i)
+	return append(dst, va, ea, vb, eb, d, sd, p)
 }
 
 // binRow appends the cells of [binCells] for bin i, each between pre and
@@ -301,6 +302,7 @@ func binRow(p *page, e compare.Entry, i int, pre, post string) {
 	p.s(post).s(pre)
 	p.b = noNegZero(appendG6(p.b, e.Hi[i]), len(p.b))
 	p.s(post)
+	yEdgesRow(p, e, i, pre, post)
 	for _, ve := range [3][2]float64{{e.A[i], e.ErrA[i]}, {e.B[i], e.ErrB[i]}, {e.Diff[i], e.SigmaDiff[i]}} {
 		var k int
 		p.scratch, k = appendWithError(p.scratch[:0], ve[0], ve[1])

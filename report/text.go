@@ -122,7 +122,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 		}
 		a, b := e.Sides()
 		cells := make([]string, 0, 10*(len(idx)+1))
-		cells = append(cells, "bin", "lo", "hi", shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull")
+		cells = append(append(cells, binHeads(e)...), shorten(a, 16), "±", shorten(b, 16), "±", "a − b", "σ_d", "pull")
 		bins := make([][]string, 1, len(idx)+1)
 		bins[0] = cells
 		for _, i := range idx {
@@ -130,7 +130,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 			cells = binCells(cells, e, i)
 			c := cells[k:len(cells):len(cells)]
 			if e.MaxPullBin == i || (st.Color && !passPull(e, i)) {
-				c[9] = paint(st, ansiBold, c[9])
+				c[len(c)-1] = paint(st, ansiBold, c[len(c)-1])
 			}
 			bins = append(bins, c)
 		}

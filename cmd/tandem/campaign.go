@@ -306,7 +306,13 @@ func readSealInput(e *env, o *protocol.Observable, pos []string) (*table.Table, 
 		if _, obj := rootfile.Split(spec); obj == "" && o.Object != "" {
 			spec += ":" + o.Object
 		}
-		if t, err = rootfile.Read(spec); err == nil {
+		if t, err = rootfile.Read(spec); err == nil && t.Is2D() {
+			// the protocol's edges name two columns: campaign observables are 1-D
+			te := table.Errorf(spec, 0, 0, "is a 2-D histogram (cells with x and y edges); a campaign observable is 1-D")
+			te.Hint = "compare 2-D tables in table mode: tandem compare FILE_A FILE_B"
+			return nil, inputErr(te)
+		}
+		if err == nil {
 			t, err = o.FromObject(t, rootfile.Value, rootfile.Err)
 		}
 		if t != nil {

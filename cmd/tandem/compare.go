@@ -110,7 +110,7 @@ var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "see
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
-	fs.StringVar(&cf.edges, "edges", table.DefaultLo+","+table.DefaultHi, "names of the bin-edge columns `LO,HI`")
+	fs.StringVar(&cf.edges, "edges", table.DefaultLo+","+table.DefaultHi, "names of the bin-edge columns `LO,HI`, or XLO,XHI,YLO,YHI for cells of a 2-D table")
 	fs.Var(&cf.values, "value", "value `COLUMN` to compare (repeatable)")
 	fs.Var(&cf.errs, "error", "uncertainty `COLUMN` (repeatable; one error source each)")
 	fs.Var(&cf.errCorr, "error-correlation", "correlation of one error source between the chains, `NAME=RHO` (repeatable; RHO a number in [-1, 1] or a per-bin column)")
@@ -291,13 +291,13 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	return nil
 }
 
-func (cf *compareFlags) edgeNames() (string, string, error) {
-	lo, hi, ok := strings.Cut(cf.edges, ",")
-	lo, hi = strings.TrimSpace(lo), strings.TrimSpace(hi)
-	if !ok || lo == "" || hi == "" || strings.Contains(hi, ",") {
-		return "", "", usageErr("--edges wants two column names LO,HI, got %q", cf.edges)
+// edgeNames splits --edges: two names (1-D bins) or four (2-D cells).
+func (cf *compareFlags) edgeNames() ([]string, error) {
+	names, ok := table.SplitEdges(cf.edges)
+	if !ok {
+		return nil, usageErr("--edges wants two different column names LO,HI (bins) or four XLO,XHI,YLO,YHI (cells of a 2-D table), got %q", cf.edges)
 	}
-	return lo, hi, nil
+	return names, nil
 }
 
 func runCompare(e *env, args []string) error {
@@ -332,13 +332,16 @@ func runCompare(e *env, args []string) error {
 			return usageErr("output %s is also an input", cf.output)
 		}
 	}
-	lo, hi, err := cf.edgeNames()
+	edges, err := cf.edgeNames()
 	if err != nil {
 		return err
 	}
-	opt, err := csvOptions(lo, hi, cf.delimiter, cf.limits)
+	opt, err := csvOptions(edges[0], edges[1], cf.delimiter, cf.limits)
 	if err != nil {
 		return err
+	}
+	if len(edges) == 4 {
+		opt.YLo, opt.YHi = edges[2], edges[3]
 	}
 	ts, err := input.ReadAllWaiting(e.stdin, opt, e.waitNotice(), pos...)
 	if err != nil {

@@ -53,6 +53,8 @@ func gohep(tb testing.TB, rel string) string {
 const (
 	gaussH1   = "hbook/rootcnv/testdata/gauss-h1.root"     // written by ROOT with make-root-h1.py beside it
 	gaussData = "hbook/rootcnv/testdata/gauss-1d-data.dat" // the (x, weight) pairs that script filled
+	gaussH2   = "hbook/rootcnv/testdata/gauss-h2.root"     // TH2D/TH2F written by ROOT with make-root-h2.py beside it
+	gauss2D   = "hbook/rootcnv/testdata/gauss-2d-data.dat" // the (x, y, weight) rows that script filled
 	graphs    = "groot/testdata/graphs.root"               // TGraph, TGraphErrors, TGraphAsymmErrors written by ROOT
 	dirs      = "groot/testdata/dirs-6.14.00.root"         // nested directories, ROOT 6.14.00
 	flatTree  = "groot/testdata/x-flat-tree.root"          // TTree "tree"; values documented in groot/rtree/reader_test.go

@@ -27,6 +27,7 @@ var mutationTargets = []struct {
 	tree    string   // for ReadTree
 }{
 	{rel: gaussH1, objects: []string{"h1d", "h1f", "h1d-var", "h1f-var"}},
+	{rel: gaussH2, objects: []string{"h2d", "h2f", "h2d-var", "h2f-var"}},
 	{rel: graphs, objects: []string{"tge", "tgae"}},
 	{rel: dirs, objects: []string{"dir1/dir11/h1"}},
 	{rel: smallTree, tree: "tree"},

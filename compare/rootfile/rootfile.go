@@ -1,4 +1,4 @@
-// Package rootfile reads ROOT files with go-hep's groot: one-dimensional
+// Package rootfile reads ROOT files with go-hep's groot: 1-D and 2-D
 // histograms and graphs into tandem tables ([Read]), and the numeric
 // branches of a TTree as streamed rows ([ReadTree], [TreeColumns]).
 //
@@ -11,9 +11,16 @@
 //     values from the bin contents, errors √(Σw²) when the sum of squared
 //     weights is stored, else √|content|. Under- and overflow are left out
 //     and reported in [table.Table.Notes].
+//
 //   - TGraphErrors and TGraphAsymmErrors: a point (x, y) with x errors
 //     (e_lo, e_hi) becomes the bin [x - e_lo, x + e_hi]; y errors become
 //     "err" (equal) or "err_minus"/"err_plus".
+//
+//   - TH2D and TH2F: a 2-D table of cells (see [table.Table.Is2D]) with
+//     the x edges "xlo", "xhi" and the y edges "ylo", "yhi", one cell per
+//     bin in ROOT's global bin order (x fastest), values and errors as for
+//     TH1. The under- and overflow bins (the frame of the grid) are left
+//     out and their total reported in [table.Table.Notes].
 //
 // A plain TGraph has no x errors, hence no bins, and is refused.
 //
@@ -108,14 +115,12 @@ func readHist(spec string) (t *table.Table, err error) {
 	}
 	t = &table.Table{Source: spec, LoName: table.DefaultLo, HiName: table.DefaultHi}
 	switch o := obj.(type) {
-	case rhist.H2, rhist.H1 /* H2 checked first: a 2-D histogram is not 1-D */ :
-		h1, ok := o.(rhist.H1)
-		if _, is2 := o.(rhist.H2); is2 || !ok {
-			e := table.Errorf(spec, 0, 0, "%s is a %s, a 2-D histogram: not yet supported in this release", path, obj.Class())
-			e.Hint = "compare its projections (TH2::ProjectionX or ProjectionY, saved as TH1D), or export its cells as CSV with columns for the x and y edges"
-			return nil, e
+	case rhist.H2:
+		if err := fromH2(t, o); err != nil {
+			return nil, table.Errorf(spec, 0, 0, "%s: %v", path, err)
 		}
-		if err := fromH1(t, h1); err != nil {
+	case rhist.H1:
+		if err := fromH1(t, o); err != nil {
 			return nil, table.Errorf(spec, 0, 0, "%v", err)
 		}
 	case rhist.GraphErrors:
@@ -125,7 +130,7 @@ func readHist(spec string) (t *table.Table, err error) {
 	case rhist.Graph:
 		return nil, table.Errorf(spec, 0, 0, "%s is a TGraph without errors: its points have no bin widths or uncertainties", path)
 	default:
-		return nil, table.Errorf(spec, 0, 0, "%s is a %s, not a 1-D histogram (TH1D, TH1F) or a graph with errors", path, obj.Class())
+		return nil, table.Errorf(spec, 0, 0, "%s is a %s, not a histogram (TH1D, TH1F, TH2D, TH2F) or a graph with errors", path, obj.Class())
 	}
 	if err := t.Validate(); err != nil {
 		return nil, err
@@ -148,7 +153,7 @@ func onlyObject(f *riofs.File) (string, error) {
 			return err
 		}
 		switch obj.(type) {
-		case rhist.H1, rhist.Graph:
+		case rhist.H1, rhist.H2, rhist.Graph:
 			found = append(found, strings.TrimPrefix(strings.TrimPrefix(path, f.Name()), "/"))
 		}
 		return nil
@@ -159,7 +164,7 @@ func onlyObject(f *riofs.File) (string, error) {
 	case len(found) == 1:
 		return found[0], nil
 	case len(found) == 0:
-		return "", fmt.Errorf("the file holds no 1-D histogram or graph; it holds %s", contents(f))
+		return "", fmt.Errorf("the file holds no histogram or graph; it holds %s", contents(f))
 	}
 	return "", fmt.Errorf("the file holds %d histograms and graphs (%s); name one as FILE.root:PATH", len(found), strings.Join(found, ", "))
 }
@@ -278,6 +283,85 @@ func fromGraph(t *table.Table, g rhist.GraphErrors) error {
 	} else {
 		t.Names = append(t.Names, ErrMinus, ErrPlus)
 		t.Cols = append(t.Cols, down, up)
+	}
+	return nil
+}
+
+// Edge names of the 2-D tables read from TH2D and TH2F.
+const (
+	XLo = "xlo"
+	XHi = "xhi"
+	YLo = "ylo"
+	YHi = "yhi"
+)
+
+// h2 is what tandem needs of a TH2D or TH2F; XBinContent takes ROOT's
+// global bin number ix + (nx+2)·iy.
+type h2 interface {
+	rhist.H2
+	NbinsX() int
+	NbinsY() int
+	XAxis() rhist.Axis
+	YAxis() rhist.Axis
+	XBinContent(int) float64
+}
+
+// axisEdges returns the n+1 edges of an axis: the stored edges of a
+// variable binning, else xmin + i·width with the last edge xmax exactly.
+func axisEdges(ax rhist.Axis, n int) []float64 {
+	if e := ax.XBins(); len(e) == n+1 {
+		return slices.Clone(e)
+	}
+	e := make([]float64, n+1)
+	for i := 1; i <= n; i++ {
+		e[i-1] = ax.BinLowEdge(i)
+	}
+	e[n] = ax.XMax()
+	return e
+}
+
+func fromH2(t *table.Table, h rhist.H2) error {
+	hh, ok := h.(h2)
+	if !ok {
+		return fmt.Errorf("%s %q: unsupported histogram class", h.Class(), h.Name())
+	}
+	nx, ny := hh.NbinsX(), hh.NbinsY()
+	if nx <= 0 || ny <= 0 || nx > MaxBins/ny {
+		return fmt.Errorf("%d × %d bins: want at least one and at most %d cells", nx, ny, MaxBins)
+	}
+	xe, ye := axisEdges(hh.XAxis(), nx), axisEdges(hh.YAxis(), ny)
+	sumw2 := h.SumW2s()
+	stride, total := nx+2, (nx+2)*(ny+2)
+	if len(sumw2) != 0 && len(sumw2) != total {
+		return fmt.Errorf("%d sums of squared weights for %d bins", len(sumw2), total)
+	}
+	n := nx * ny
+	t.LoName, t.HiName, t.YLoName, t.YHiName = XLo, XHi, YLo, YHi
+	t.Lo, t.Hi, t.YLo, t.YHi = make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n)
+	val, errs := make([]float64, 0, n), make([]float64, 0, n)
+	flow := 0.0
+	for iy := 0; iy <= ny+1; iy++ {
+		for ix := 0; ix <= nx+1; ix++ {
+			g := ix + stride*iy
+			c := hh.XBinContent(g)
+			if ix == 0 || iy == 0 || ix == nx+1 || iy == ny+1 {
+				flow += c
+				continue
+			}
+			t.Lo, t.Hi = append(t.Lo, xe[ix-1]), append(t.Hi, xe[ix])
+			t.YLo, t.YHi = append(t.YLo, ye[iy-1]), append(t.YHi, ye[iy])
+			val = append(val, c)
+			if len(sumw2) == total {
+				errs = append(errs, math.Sqrt(sumw2[g]))
+			} else {
+				errs = append(errs, math.Sqrt(math.Abs(c)))
+			}
+		}
+	}
+	t.Names = []string{Value, Err}
+	t.Cols = [][]float64{val, errs}
+	if flow != 0 {
+		t.Notes = append(t.Notes, fmt.Sprintf("%s: under- and overflow bins holding %s in all left out", h.Name(), table.Format(flow)))
 	}
 	return nil
 }

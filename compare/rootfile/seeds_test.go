@@ -46,7 +46,27 @@ func writeSeeds(dir string) error {
 	if err := f.Close(); err != nil {
 		return err
 	}
+	if err := writeSeed2D(filepath.Join(dir, "hist2.root")); err != nil {
+		return err
+	}
 	return writeTree(filepath.Join(dir, "tree.root"), "dir", 40, func(i int, e *event) {})
+}
+
+// writeSeed2D writes a TH2D "h2" of 3 × 2 cells with variable y bins,
+// some fills in the under- and overflow frame.
+func writeSeed2D(path string) error {
+	f, err := groot.Create(path)
+	if err != nil {
+		return err
+	}
+	h := hbook.NewH2DFromEdges([]float64{0, 1, 2, 4}, []float64{-1, 0.5, 3})
+	for i, xy := range [][2]float64{{0.5, 0}, {1.5, 1}, {3, 2}, {3.9, -0.9}, {0.1, 2.9}, {-1, 0}, {5, 5}} {
+		h.Fill(xy[0], xy[1], 1+0.5*float64(i))
+	}
+	if err := f.Put("h2", rhist.NewH2DFrom(h)); err != nil {
+		return err
+	}
+	return f.Close()
 }
 
 // event is one entry of the trees written by writeTree.
@@ -121,6 +141,9 @@ func TestWriteSeeds(t *testing.T) {
 	}
 	if _, err := Read("testdata/seeds/hist.root:h"); err != nil {
 		t.Error(err)
+	}
+	if h2, err := Read("testdata/seeds/hist2.root:h2"); err != nil || !h2.Is2D() || h2.Len() != 6 {
+		t.Errorf("2-D seed: %v", err)
 	}
 	n := 0
 	if err := ReadTree("testdata/seeds/tree.root:dir/events", []string{"evt"}, func(row []float64) error {

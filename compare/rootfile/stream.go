@@ -45,11 +45,15 @@ const (
 
 // tableMeta is the shape of a histogram table in the stream.
 type tableMeta struct {
-	Bins   int      `json:"bins"`
-	LoName string   `json:"lo_name"`
-	HiName string   `json:"hi_name"`
-	Names  []string `json:"names"`
-	Notes  []string `json:"notes,omitempty"`
+	Bins   int    `json:"bins"`
+	LoName string `json:"lo_name"`
+	HiName string `json:"hi_name"`
+	// YLoName and YHiName name the y edges of a 2-D table (cells); the
+	// y-edge frames then follow the x-edge frames.
+	YLoName string   `json:"ylo_name,omitempty"`
+	YHiName string   `json:"yhi_name,omitempty"`
+	Names   []string `json:"names"`
+	Notes   []string `json:"notes,omitempty"`
 }
 
 // wireError is a *table.Error in the stream.
@@ -121,9 +125,17 @@ func (fw *frameWriter) fail(spec string, err error) error {
 }
 
 func (fw *frameWriter) table(t *table.Table) error {
-	fw.json('t', tableMeta{Bins: t.Len(), LoName: t.LoName, HiName: t.HiName, Names: t.Names, Notes: t.Notes})
+	m := tableMeta{Bins: t.Len(), LoName: t.LoName, HiName: t.HiName, Names: t.Names, Notes: t.Notes}
+	if t.Is2D() {
+		m.YLoName, m.YHiName = t.YLoName, t.YHiName
+	}
+	fw.json('t', m)
 	fw.floats('f', t.Lo)
 	fw.floats('f', t.Hi)
+	if t.Is2D() {
+		fw.floats('f', t.YLo)
+		fw.floats('f', t.YHi)
+	}
 	for _, c := range t.Cols {
 		fw.floats('f', c)
 	}
@@ -209,7 +221,11 @@ func (fr *frameReader) readTable(spec string) (*table.Table, error) {
 	if m.Bins < 0 || m.Bins > MaxBins || len(m.Names) > maxValues {
 		return nil, fmt.Errorf("%w: %d bins and %d columns", errMalformed, m.Bins, len(m.Names))
 	}
-	cols := make([][]float64, 2+len(m.Names))
+	edges := 2
+	if m.YLoName != "" || m.YHiName != "" {
+		edges = 4
+	}
+	cols := make([][]float64, edges+len(m.Names))
 	for i := range cols {
 		_, payload, err := fr.next("f", 8*m.Bins)
 		if err == nil && len(payload) != 8*m.Bins {
@@ -224,7 +240,10 @@ func (fr *frameReader) readTable(spec string) (*table.Table, error) {
 		return nil, err
 	}
 	t := &table.Table{Source: spec, LoName: m.LoName, HiName: m.HiName, Lo: cols[0], Hi: cols[1],
-		Names: m.Names, Cols: cols[2:], Notes: m.Notes}
+		Names: m.Names, Cols: cols[edges:], Notes: m.Notes}
+	if edges == 4 {
+		t.YLoName, t.YHiName, t.YLo, t.YHi = m.YLoName, m.YHiName, cols[2], cols[3]
+	}
 	if len(m.Names) == 0 {
 		t.Cols = nil
 	}

@@ -21,7 +21,11 @@ const (
 // layouts, which use Lo, Hi and Limits).
 type CSVOptions struct {
 	// Lo and Hi name the bin-edge columns; empty means DefaultLo/DefaultHi.
+	// In a 2-D table they are the x edges.
 	Lo, Hi string
+	// YLo and YHi name the y-edge columns of a 2-D table (see
+	// [Table.Is2D]); both empty for a 1-D table.
+	YLo, YHi string
 	// Delim is the field separator; 0 means detect from the header line
 	// (a tab when the header has a tab and no comma, else a comma). A
 	// header separated by semicolons is refused unless Delim is ';'.
@@ -131,6 +135,9 @@ func parse(name string, r io.Reader, size int64, opt CSVOptions, target int) (*T
 	}
 	if len(t.Lo) == 0 {
 		return nil, Errorf(name, 0, 0, "table has a header but no bins")
+	}
+	if err := t.takeY(opt); err != nil {
+		return nil, err
 	}
 	// Every number was checked finite as it was parsed; check the bins.
 	if err := t.validateBins(); err != nil {

@@ -274,6 +274,9 @@ func (s *structured) table(name string, opt CSVOptions, line func(int) int) (*Ta
 		}
 		t.Lines = append(t.Lines, int32(line(r)))
 	}
+	if err := t.takeY(opt); err != nil {
+		return nil, err
+	}
 	if err := t.Validate(); err != nil {
 		return nil, err
 	}

@@ -45,8 +45,13 @@ type Table struct {
 	Source string
 	// LoName and HiName are the names of the bin-edge columns.
 	LoName, HiName string
-	// Lo and Hi are the bin edges.
+	// Lo and Hi are the bin edges (the x edges of a 2-D table).
 	Lo, Hi []float64
+	// YLoName and YHiName name the y-edge columns of a 2-D table, whose
+	// bins are cells [Lo, Hi) × [YLo, YHi); YLo and YHi are nil in a 1-D
+	// table. See [Table.Is2D] for the order cells keep.
+	YLoName, YHiName string
+	YLo, YHi         []float64
 	// Names lists the other columns in file order.
 	Names []string
 	// Cols holds the data of each column in Names, in the same order.
@@ -132,7 +137,13 @@ func (t *Table) Validate() error {
 	if t.HiName == t.LoName {
 		return Errorf(t.Source, 0, 0, "bin-edge columns must differ, both are %q", t.LoName)
 	}
+	if (t.YLo != nil || t.YHi != nil) && (len(t.YLo) != n || len(t.YHi) != n) {
+		return Errorf(t.Source, 0, 0, "internal error: y edges have %d and %d rows, want %d", len(t.YLo), len(t.YHi), n)
+	}
 	for i := 0; i < n; i++ {
+		if t.Is2D() && (!finite(t.YLo[i]) || !finite(t.YHi[i])) {
+			return Errorf(t.Source, t.line(i), 0, "cell %d: edges must be finite numbers", i+1)
+		}
 		if !finite(t.Lo[i]) || !finite(t.Hi[i]) {
 			return Errorf(t.Source, t.line(i), 0, "bin %d: edges must be finite numbers", i+1)
 		}
@@ -153,11 +164,22 @@ func (t *Table) validateBins() error {
 		return Errorf(t.Source, 0, 0, "table has no bins")
 	}
 	seen := map[string]bool{t.LoName: true, t.HiName: true}
+	if t.Is2D() {
+		for _, name := range []string{t.YLoName, t.YHiName} {
+			if seen[name] {
+				return Errorf(t.Source, 0, 0, "bin-edge columns must differ, %q is named twice", name)
+			}
+			seen[name] = true
+		}
+	}
 	for _, name := range t.Names {
 		if seen[name] {
 			return Errorf(t.Source, 0, 0, "duplicate column %q", name)
 		}
 		seen[name] = true
+	}
+	if t.Is2D() {
+		return t.validateCells()
 	}
 	for i := 0; i < n; i++ {
 		lo, hi := t.Lo[i], t.Hi[i]
@@ -211,6 +233,9 @@ func Format(v float64) string {
 //
 // It returns an error naming the first bin that differs.
 func SameEdges(a, b *Table, tol float64) error {
+	if a.Is2D() || b.Is2D() {
+		return sameCells(a, b, tol)
+	}
 	if a.Len() != b.Len() {
 		return Errorf(b.Source, 0, 0, "has %d bins but %s has %d", b.Len(), a.Source, a.Len())
 	}
@@ -224,7 +249,8 @@ func SameEdges(a, b *Table, tol float64) error {
 	return nil
 }
 
-// WriteCSV writes the table as CSV: the header, then one row per bin, with
+// WriteCSV writes the table as CSV: the header (the x edges, then the y
+// edges of a 2-D table, then the other columns), then one row per bin, with
 // every number in the shortest form that parses back exactly ([Format]).
 // This is the canonical encoding that commitments and digests cover.
 func (t *Table) WriteCSV(w io.Writer) error {
@@ -232,6 +258,12 @@ func (t *Table) WriteCSV(w io.Writer) error {
 	bw.WriteString(t.LoName)
 	bw.WriteByte(',')
 	bw.WriteString(t.HiName)
+	if t.Is2D() {
+		bw.WriteByte(',')
+		bw.WriteString(t.YLoName)
+		bw.WriteByte(',')
+		bw.WriteString(t.YHiName)
+	}
 	for _, n := range t.Names {
 		bw.WriteByte(',')
 		bw.WriteString(n)
@@ -242,6 +274,12 @@ func (t *Table) WriteCSV(w io.Writer) error {
 		buf = appendNum(buf[:0], t.Lo[i])
 		buf = append(buf, ',')
 		buf = appendNum(buf, t.Hi[i])
+		if t.Is2D() {
+			buf = append(buf, ',')
+			buf = appendNum(buf, t.YLo[i])
+			buf = append(buf, ',')
+			buf = appendNum(buf, t.YHi[i])
+		}
 		for _, c := range t.Cols {
 			buf = append(buf, ',')
 			buf = appendNum(buf, c[i])
