@@ -949,6 +949,8 @@ var vectorTables = map[string]string{
 	"team-b/flux":  "lo,hi,value,stat,syst\n0,1,10,1.5,0.5\n1,2,21,2,0.75\n2,4,14.5,1.75,0.5\n4,8,8.5,1.25,0.25\n",
 	"team-a/ratio": "from,to,r,err\n0,0.5,1.5e-07,2e-08\n0.5,1.5,1.25e-07,2e-08\n1.5,1e+06,9e-08,1.5e-08\n",
 	"team-b/ratio": "from,to,r,err\n0,0.5,1.4e-07,2e-08\n0.5,1.5,1.3e-07,2e-08\n1.5,1e+06,9.5e-08,1.5e-08\n",
+	"team-a/events": "lo,hi,n,stat\n0,1,12,3.4641016151377544\n1,2,7,2.6457513110645907\n2,3,3,1.7320508075688772\n3,4,0,0\n4,5,1,1\n",
+	"team-b/events": "lo,hi,n,stat\n0,1,9,3\n1,2,8,2.8284271247461903\n2,3,2,1.4142135623730951\n3,4,1,1\n4,5,0,0\n",
 	"team-a/flux2": "lo,hi,value,stat,syst\n0,1,10.25,1.5,0.5\n1,2,20.5,2,0.75\n2,4,15,1.75,0.5\n4,8,8.25,1.25,0.25\n",
 }
 
@@ -1030,6 +1032,41 @@ func (g *gen) blinded() *gen {
 	g.seal("team-a", "ratio", "team-a/ratio", "")
 	g.seal("team-b", "ratio", "team-b/ratio", "")
 	g.blind() // both observables open
+	return g
+}
+
+// countsObservable is the observable of event counts the counts vectors
+// add by an amendment (SPEC.md, section 7.1).
+const countsObservable = `
+[[observable]]
+name = "events"
+title = "event counts in five bins"
+
+  [[observable.column]]
+  name = "n"
+  errors = ["stat"]
+  counts = true
+  seed = 2026
+  mc_samples = 1000
+  scale = [0.5, 2.0]
+  shift = [-50.0, 50.0]
+  accept_risk = "five bins of invented counts: the self-audit may break a random key of so small a table"
+`
+
+// withCounts: the reviewer amends the protocol to add the observable
+// events, compared as counts, and both teams seal it.
+func (g *gen) withCounts() *gen {
+	g.t.Helper()
+	c := g.open()
+	cur, err := os.ReadFile(filepath.Join(g.dir, ProtocolFile))
+	if err != nil {
+		g.t.Fatal(err)
+	}
+	if _, err := c.Amend("reviewer", append(cur, countsObservable...), "add the event counts of the sparse tail", g.signers["reviewer"]); err != nil {
+		g.t.Fatal(err)
+	}
+	g.seal("team-a", "events", "team-a/events", "")
+	g.seal("team-b", "events", "team-b/events", "")
 	return g
 }
 
@@ -1416,6 +1453,25 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.forgeSignMod("team-a", "team-a", nil, func(sig []byte, _, data map[string]string) []byte {
 				data["observable"] = "flux"
 				return sig
+			})
+		}},
+		{"ok-counts", "ok", "the protocol amended to add events, a column of event counts (counts = true); both teams sealed it, the custodian's open entry logs the count tests it ran on the true counts (counts/events.r1-….txt), every party signed and the custodian unblinded: verify recomputes the logged tests from the unblinded tables", func(g *gen) {
+			g.withCounts().signed().unblind()
+		}},
+		{"bad-digest-counts", "bad-digest", "as ok-counts before signing, with a per-bin p-value of the logged count tests edited after the open entry logged the file", func(g *gen) {
+			g.withCounts().blinded()
+			g.editFile(g.glob("counts/events.r1-*.txt"), func(s string) string {
+				return strings.Replace(s, "bin: binomial ", "bin: binomial 0", 1)
+			})
+		}},
+		{"bad-entry-counts-missing", "bad-entry", "the protocol amended to add events, compared as counts, both teams sealed it and the custodian opened it, but its open entry logs no count tests (re-signed by the custodian, the file removed)", func(g *gen) {
+			g.withCounts().blind()
+			f := g.glob("counts/events.r1-*.txt")
+			os.Remove(filepath.Join(g.dir, filepath.FromSlash(f)))
+			g.reentry("custodian", g.signers["custodian"], func(e *format.Entry) {
+				if e.Data["observable"] == "events" && e.Step == "open" {
+					delete(e.Files, f)
+				}
 			})
 		}},
 		{"private-key", "private-key", "as ok-blinded, with the custodian's age identity copied into the campaign folder", func(g *gen) {
