@@ -736,7 +736,7 @@ func katStatement() *format.Statement {
 		Sealed:   []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
 		Blinded:  []string{"team-a/flux " + h("b1"), "team-b/flux " + h("b2")},
 		Compared: []string{"flux value team-a team-b pass", "flux width team-a team-b fail"},
-		Verdict:  "fail", Accepted: "the tilt is understood", AcceptedRisks: []string{"flux/value the errors are public anyway"}}
+		Verdict:  "fail", Accepted: []string{"flux width team-a team-b the tilt is understood"}, AcceptedRisks: []string{"flux/value the errors are public anyway"}}
 	d, err := st.ComparisonDigest()
 	if err != nil {
 		panic(err) // the lines above name only listed slots
@@ -770,14 +770,25 @@ func statementVectors() []*vector {
 		mk("compared-unlisted", "non-canonical", "a compared line naming team-c, which has no blinded line", strings.Replace(s, "compared: flux width team-a team-b fail", "compared: flux width team-a team-c fail", 1)),
 		mk("compared-self", "non-canonical", "a team compared with itself", strings.Replace(s, "compared: flux width team-a team-b fail", "compared: flux width team-a team-a fail", 1)),
 		mk("compared-edited", "non-canonical", "a compared line's verdict changed after the comparison digest was computed: the digest no longer hashes the listed lines", strings.Replace(s, "compared: flux value team-a team-b pass", "compared: flux value team-a team-b fail", 1)),
-		mk("verdict-pass-with-fail", "non-canonical", "verdict pass (without a reason) while a compared line fails; the digest is that of the lines", string(katVariant(func(st *format.Statement) { st.Verdict, st.Accepted = "pass", "" }))),
+		mk("verdict-pass-with-fail", "non-canonical", "verdict pass (without a reason) while a compared line fails; the digest is that of the lines", string(katVariant(func(st *format.Statement) { st.Verdict, st.Accepted = "pass", nil }))),
 		mk("pass-with-reason", "non-canonical", "every compared line passes, verdict pass, with an accepted-disagreement line; the digest is that of the lines", string(katVariant(func(st *format.Statement) {
 			st.Compared[1] = strings.Replace(st.Compared[1], " fail", " pass", 1)
 			st.Verdict = "pass"
 		}))),
+		mk("accept-one-for-two", "non-canonical", "two compared lines fail, and one accepted-disagreement line gives a reason for only one of them: each failing comparison needs its own, bound to it", string(katVariant(func(st *format.Statement) {
+			st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+		}))),
+		mk("accept-each", "ok", "two compared lines fail, each with its own accepted-disagreement line, in the order of the compared lines", string(katVariant(func(st *format.Statement) {
+			st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+			st.Accepted = []string{"flux value team-a team-b the value shift is the known calibration offset", st.Accepted[0]}
+		}))),
+		mk("accept-wrong-order", "non-canonical", "two compared lines fail, each with an accepted-disagreement line, but the lines are not in the order of the compared lines", string(katVariant(func(st *format.Statement) {
+			st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+			st.Accepted = []string{st.Accepted[0], "flux value team-a team-b the value shift is the known calibration offset"}
+		}))),
 		mk("pass", "ok", "every compared line passes, verdict pass, no accepted-disagreement line", string(katVariant(func(st *format.Statement) {
 			st.Compared[1] = strings.Replace(st.Compared[1], " fail", " pass", 1)
-			st.Verdict, st.Accepted = "pass", ""
+			st.Verdict, st.Accepted = "pass", nil
 		}))),
 		mk("c1-reason", "non-canonical", "the accepted-disagreement reason holds U+0085 (a C1 control)", strings.Replace(s, "the tilt is", "the tilt\u0085is", 1)),
 		mk("bidi-reason", "non-canonical", "the accepted-disagreement reason holds U+202E (right-to-left override)", strings.Replace(s, "the tilt is", "the tilt \u202eis", 1)),
@@ -945,13 +956,13 @@ edges = ["from", "to"]
 `
 
 var vectorTables = map[string]string{
-	"team-a/flux":  "lo,hi,value,stat,syst\n0,1,10.5,1.5,0.5\n1,2,20.25,2,0.75\n2,4,15,1.75,0.5\n4,8,8.125,1.25,0.25\n",
-	"team-b/flux":  "lo,hi,value,stat,syst\n0,1,10,1.5,0.5\n1,2,21,2,0.75\n2,4,14.5,1.75,0.5\n4,8,8.5,1.25,0.25\n",
-	"team-a/ratio": "from,to,r,err\n0,0.5,1.5e-07,2e-08\n0.5,1.5,1.25e-07,2e-08\n1.5,1e+06,9e-08,1.5e-08\n",
-	"team-b/ratio": "from,to,r,err\n0,0.5,1.4e-07,2e-08\n0.5,1.5,1.3e-07,2e-08\n1.5,1e+06,9.5e-08,1.5e-08\n",
+	"team-a/flux":   "lo,hi,value,stat,syst\n0,1,10.5,1.5,0.5\n1,2,20.25,2,0.75\n2,4,15,1.75,0.5\n4,8,8.125,1.25,0.25\n",
+	"team-b/flux":   "lo,hi,value,stat,syst\n0,1,10,1.5,0.5\n1,2,21,2,0.75\n2,4,14.5,1.75,0.5\n4,8,8.5,1.25,0.25\n",
+	"team-a/ratio":  "from,to,r,err\n0,0.5,1.5e-07,2e-08\n0.5,1.5,1.25e-07,2e-08\n1.5,1e+06,9e-08,1.5e-08\n",
+	"team-b/ratio":  "from,to,r,err\n0,0.5,1.4e-07,2e-08\n0.5,1.5,1.3e-07,2e-08\n1.5,1e+06,9.5e-08,1.5e-08\n",
 	"team-a/events": "lo,hi,n,stat\n0,1,12,3.4641016151377544\n1,2,7,2.6457513110645907\n2,3,3,1.7320508075688772\n3,4,0,0\n4,5,1,1\n",
 	"team-b/events": "lo,hi,n,stat\n0,1,9,3\n1,2,8,2.8284271247461903\n2,3,2,1.4142135623730951\n3,4,1,1\n4,5,0,0\n",
-	"team-a/flux2": "lo,hi,value,stat,syst\n0,1,10.25,1.5,0.5\n1,2,20.5,2,0.75\n2,4,15,1.75,0.5\n4,8,8.25,1.25,0.25\n",
+	"team-a/flux2":  "lo,hi,value,stat,syst\n0,1,10.25,1.5,0.5\n1,2,20.5,2,0.75\n2,4,15,1.75,0.5\n4,8,8.25,1.25,0.25\n",
 }
 
 func newGen(t *testing.T) *gen {
@@ -1298,8 +1309,8 @@ func rewrap(sig []byte, n int) []byte {
 // signData is the data of a sign entry for st.
 func signData(st *Statement) map[string]string {
 	d := map[string]string{"party": st.Party, "verdict": st.Verdict}
-	if st.Accepted != "" {
-		d["accepted_disagreement"] = st.Accepted
+	if len(st.Accepted) > 0 {
+		d["accepted_disagreement"] = format.AcceptedMember(st.Accepted)
 	}
 	return d
 }
@@ -1508,7 +1519,7 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSignMod("reviewer", "reviewer", func(st *Statement) {
 				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
-				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[0], " fail") + " we think flux differs"}
 				d, err := st.ComparisonDigest()
 				if err != nil {
 					t.Fatal(err)
@@ -1605,7 +1616,7 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSign("reviewer", "reviewer", func(st *Statement) {
 				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
-				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[0], " fail") + " we think flux differs"}
 				d, err := st.ComparisonDigest()
 				if err != nil {
 					t.Fatal(err)
@@ -1619,7 +1630,7 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSign("reviewer", "reviewer", func(st *Statement) {
 				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
-				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[0], " fail") + " we think flux differs"}
 			})
 		}},
 	}
