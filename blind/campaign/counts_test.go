@@ -209,3 +209,19 @@ func TestPublishP(t *testing.T) {
 		t.Error("NaN must stay NaN")
 	}
 }
+
+// TestSealRefusesNonCounts: a counts column is checked at seal time,
+// naming the bin and never the value.
+func TestSealRefusesNonCounts(t *testing.T) {
+	dir := buildDemo(t, "init")
+	countsProtocol(t, dir)
+	if _, err := campaign.Init(dir, signer(t, dir, "custodian")); err != nil {
+		t.Fatal(err)
+	}
+	tb := poissonTable(1)
+	tb.Cols[0][3] = 2.5
+	_, err := open(t, dir).Seal("heron", "tail", tb, signer(t, dir, "heron"), "")
+	if err == nil || !strings.Contains(err.Error(), "bin 4: column \"n\" is declared counts = true") || strings.Contains(err.Error(), "2.5") {
+		t.Errorf("seal of a non-integer count: %v", err)
+	}
+}
