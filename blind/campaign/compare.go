@@ -5,6 +5,7 @@ import (
 	"encoding/hex"
 	"fmt"
 	"io"
+	"math"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -114,6 +115,10 @@ func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tabl
 					// the blinded values are no counts: Gaussian pulls of
 					// the blinded tables, for display only
 					opt.Counts, opt.ExposureRatio, opt.MCSamples, opt.Seed, opt.SumW2 = false, 0, 0, 0, ""
+					// a counts column publishes no uncertainty (SPEC.md
+					// 7.1): the blinded differences are shown, without
+					// pulls, under a tolerance that never decides
+					opt.AbsTol = math.MaxFloat64
 				}
 				rs, err := compare.Tables(a, b, []table.Selection{col.Selection()}, opt.EdgeTol, opt)
 				if err != nil {
@@ -123,7 +128,7 @@ func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tabl
 					if lb == nil {
 						return fmt.Errorf("observable %s, %s vs %s: no count tests logged for column %s", o.Name, teams[i], teams[j], col.Name)
 					}
-					rs[0].Warnings = []string{"counts: the exact tests ran on the true counts when the comparison opened (the custodian logged them); the p-values are rounded up to 1, 2 or 5 × 10^k, and the pulls are those of the blinded tables"}
+					rs[0].Warnings = []string{"counts: the exact tests ran on the true counts when the comparison opened (the custodian logged them); the p-values are rounded up to 1, 2 or 5 × 10^k; no pulls are shown before unblinding, since a counts column publishes no uncertainty"}
 					rs[0].JudgeCounts(countsStats(lb), col.CompareOptions(alpha))
 				}
 				s.Entries = append(s.Entries, compare.Entry{

@@ -33,7 +33,6 @@ edges = ["lo", "hi"]
 
   [[observable.column]]
   name = "n"
-  errors = ["stat"]
   counts = true
   seed = 7
   mc_samples = 2000
@@ -47,11 +46,12 @@ edges = ["lo", "hi"]
 }
 
 // poissonTable draws 20 bins of counts with means 8·e^(−x/4), a falling
-// tail with bins of a few events, and σ = √N.
+// tail with bins of a few events (no uncertainty column: a campaign's
+// counts column has none).
 func poissonTable(seed uint64) *table.Table {
 	rng := rand.New(rand.NewPCG(seed, 1))
 	t := &table.Table{Source: "tail.csv", LoName: "lo", HiName: "hi"}
-	var n, e []float64
+	var n []float64
 	for i := range 20 {
 		mu := 8 * math.Exp(-float64(i)/4)
 		// inversion of the Poisson CDF
@@ -61,9 +61,9 @@ func poissonTable(seed uint64) *table.Table {
 			p *= mu / float64(k)
 		}
 		t.Lo, t.Hi = append(t.Lo, float64(i)), append(t.Hi, float64(i+1))
-		n, e = append(n, float64(k)), append(e, math.Sqrt(float64(k)))
+		n = append(n, float64(k))
 	}
-	t.Names, t.Cols = []string{"n", "stat"}, [][]float64{n, e}
+	t.Names, t.Cols = []string{"n"}, [][]float64{n}
 	return t
 }
 

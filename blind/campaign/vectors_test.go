@@ -960,8 +960,8 @@ var vectorTables = map[string]string{
 	"team-b/flux":   "lo,hi,value,stat,syst\n0,1,10,1.5,0.5\n1,2,21,2,0.75\n2,4,14.5,1.75,0.5\n4,8,8.5,1.25,0.25\n",
 	"team-a/ratio":  "from,to,r,err\n0,0.5,1.5e-07,2e-08\n0.5,1.5,1.25e-07,2e-08\n1.5,1e+06,9e-08,1.5e-08\n",
 	"team-b/ratio":  "from,to,r,err\n0,0.5,1.4e-07,2e-08\n0.5,1.5,1.3e-07,2e-08\n1.5,1e+06,9.5e-08,1.5e-08\n",
-	"team-a/events": "lo,hi,n,stat\n0,1,12,3.4641016151377544\n1,2,7,2.6457513110645907\n2,3,3,1.7320508075688772\n3,4,0,0\n4,5,1,1\n",
-	"team-b/events": "lo,hi,n,stat\n0,1,9,3\n1,2,8,2.8284271247461903\n2,3,2,1.4142135623730951\n3,4,1,1\n4,5,0,0\n",
+	"team-a/events": "lo,hi,n\n0,1,12\n1,2,7\n2,3,3\n3,4,0\n4,5,1\n",
+	"team-b/events": "lo,hi,n\n0,1,9\n1,2,8\n2,3,2\n3,4,1\n4,5,0\n",
 	"team-a/flux2":  "lo,hi,value,stat,syst\n0,1,10.25,1.5,0.5\n1,2,20.5,2,0.75\n2,4,15,1.75,0.5\n4,8,8.25,1.25,0.25\n",
 }
 
@@ -1055,7 +1055,6 @@ title = "event counts in five bins"
 
   [[observable.column]]
   name = "n"
-  errors = ["stat"]
   counts = true
   seed = 2026
   mc_samples = 1000
