@@ -12,6 +12,7 @@ import (
 	"tandem/blind/audit"
 	"tandem/blind/internal/format"
 	"tandem/blind/protocol"
+	"tandem/compare/table"
 )
 
 // Published tables of one blind step.
@@ -83,12 +84,14 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 		if step == StepOpen {
 			p.data["round"] = strconv.Itoa(os.Round() + 1)
 		}
+		truth := map[string]*table.Table{}
 		for _, t := range todo {
 			s := os.Latest[t]
 			f, err := c.openSealed(StepBlind, s, ids)
 			if err != nil {
 				return nil, err
 			}
+			truth[t] = f.Table
 			sc, rel := scope, s.BlindedPath(s.Version, s.Commitment)
 			if step == StepBlind {
 				sc, rel = blind.TeamScope(t), s.OwnPath(s.Version, s.Commitment)
@@ -103,6 +106,19 @@ func (c *Campaign) Blind(ids []age.Identity, custodian ssh.Signer) (*BlindResult
 				// a table is published once; a later round names it only
 				p.files[rel] = bf.Encode()
 			}
+		}
+		if step == StepOpen && hasCounts(&o) {
+			// the count tests run on the true counts, here, and only
+			// their (rounded) results are published
+			cf, err := c.countTests(&o, os.Round()+1, os.Latest, truth)
+			if err != nil {
+				return nil, err
+			}
+			if countsHook != nil {
+				countsHook(cf)
+			}
+			data := cf.Encode()
+			p.files[CountsPath(o.Name, os.Round()+1, format.Digest(data))] = data
 		}
 		work = append(work, p)
 	}

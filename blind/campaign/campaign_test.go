@@ -510,7 +510,7 @@ func TestRevisionRound(t *testing.T) {
 			t.Errorf("reason %q: %v", bad, err)
 		}
 	}
-	if _, _, err := open(t, dir).Draft("heron", "tilt \x07understood"); err == nil || !strings.Contains(err.Error(), "control character") {
+	if _, _, err := open(t, dir).Draft("heron", "zenith=the tilt \x07is understood"); err == nil || !strings.Contains(err.Error(), "control character") {
 		t.Errorf("accept reason with a control character: %v", err)
 	}
 	res, err := open(t, dir).Seal("otter", "zenith", tb, signer(t, dir, "otter"), "new tower survey")
@@ -544,7 +544,7 @@ func TestRevisionRound(t *testing.T) {
 		t.Errorf("notes lack the revision: %s", notes)
 	}
 	for _, p := range []string{"heron", "otter", "ibis"} {
-		if err := sign(t, dir, p, "understood"); err != nil {
+		if err := sign(t, dir, p, "zenith=the tilt is understood"); err != nil {
 			t.Fatal(err)
 		}
 	}

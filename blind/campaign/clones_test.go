@@ -89,7 +89,7 @@ func TestClonesMerge(t *testing.T) {
 		for _, p := range []string{"heron", "otter", "ibis"} {
 			c := clone(t, dir)
 			cp := open(t, c)
-			st, _, err := cp.Draft(p, "understood")
+			st, _, err := cp.Draft(p, "zenith=the tilt is understood")
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -171,7 +171,7 @@ func TestResolveFork(t *testing.T) {
 	a, b := clone(t, dir), clone(t, dir)
 	for i, c := range []string{a, b} {
 		cp := open(t, c)
-		st, _, err := cp.Draft("heron", []string{"understood", "understood, on the second machine"}[i])
+		st, _, err := cp.Draft("heron", []string{"zenith=the tilt is understood", "zenith=the tilt is understood, on the second machine"}[i])
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -207,7 +207,7 @@ func TestResolveFork(t *testing.T) {
 	withOtter := clone(t, merged)
 	lb := snapshot(t, loser)
 	cp := open(t, loser)
-	st, _, err := cp.Draft("otter", "understood")
+	st, _, err := cp.Draft("otter", "zenith=the tilt is understood")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -285,7 +285,7 @@ func concurrentAmends(t *testing.T, keep int) {
 
 func mustDraft(t *testing.T, c *campaign.Campaign, party string) *campaign.Statement {
 	t.Helper()
-	st, _, err := c.Draft(party, "understood")
+	st, _, err := c.Draft(party, "zenith=the tilt is understood")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -5,6 +5,7 @@ import (
 	"encoding/hex"
 	"fmt"
 	"io"
+	"math"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -61,7 +62,11 @@ func (c *Campaign) Compare() (*Comparison, error) {
 			tables[t] = tb
 			cmp.Tables[Slot{t, o.Name}] = pub
 		}
-		if err := addEntries(cmp.Summary, o, teams, tables, true, c.Protocol.FamilyAlpha()); err != nil {
+		logged, err := c.loggedCounts(o, os)
+		if err != nil {
+			return nil, err
+		}
+		if err := addEntries(cmp.Summary, o, teams, tables, true, logged, c.Protocol.FamilyAlpha()); err != nil {
 			return nil, err
 		}
 	}
@@ -90,8 +95,11 @@ func (c *Campaign) pendingReason(os *ObservableState) string {
 	return "sealed by every team; the custodian has not opened it yet (tandem blind)"
 }
 
-// addEntries compares every pair of teams on every column.
-func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tables map[string]*table.Table, blinded bool, alpha float64) error {
+// addEntries compares every pair of teams on every column. On blinded
+// tables a counts column shows the pulls of the blinded tables and is
+// judged by the count tests logged at the opening (logged, keyed by
+// column, team A, team B); true tables are compared as counts directly.
+func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tables map[string]*table.Table, blinded bool, logged map[[3]string]*format.CountsBlock, alpha float64) error {
 	for i := 0; i < len(teams); i++ {
 		for j := i + 1; j < len(teams); j++ {
 			a, b := tables[teams[i]], tables[teams[j]]
@@ -101,9 +109,27 @@ func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tabl
 				if col.Covariance {
 					opt.CovA, opt.CovB = covariance(a, col), covariance(b, col)
 				}
+				var lb *format.CountsBlock
+				if col.Counts && blinded {
+					lb = logged[[3]string{col.Name, teams[i], teams[j]}]
+					// the blinded values are no counts: Gaussian pulls of
+					// the blinded tables, for display only
+					opt.Counts, opt.ExposureRatio, opt.MCSamples, opt.Seed, opt.SumW2 = false, 0, 0, 0, ""
+					// a counts column publishes no uncertainty (SPEC.md
+					// 7.1): the blinded differences are shown, without
+					// pulls, under a tolerance that never decides
+					opt.AbsTol = math.MaxFloat64
+				}
 				rs, err := compare.Tables(a, b, []table.Selection{col.Selection()}, opt.EdgeTol, opt)
 				if err != nil {
 					return fmt.Errorf("observable %s, %s vs %s: %w", o.Name, teams[i], teams[j], err)
+				}
+				if col.Counts && blinded {
+					if lb == nil {
+						return fmt.Errorf("observable %s, %s vs %s: no count tests logged for column %s", o.Name, teams[i], teams[j], col.Name)
+					}
+					rs[0].Warnings = []string{"counts: the exact tests ran on the true counts when the comparison opened (the custodian logged them); the p-values are rounded up to 1, 2 or 5 × 10^k; no pulls are shown before unblinding, since a counts column publishes no uncertainty"}
+					rs[0].JudgeCounts(countsStats(lb), col.CompareOptions(alpha))
 				}
 				s.Entries = append(s.Entries, compare.Entry{
 					Observable: o.Name, Title: o.Title, Teams: [2]string{teams[i], teams[j]},
@@ -205,7 +231,7 @@ func (c *Campaign) CompareUnblinded() (*compare.Summary, error) {
 			}
 			tables[t] = f.Table
 		}
-		if err := addEntries(s, o, teams, tables, false, c.Protocol.FamilyAlpha()); err != nil {
+		if err := addEntries(s, o, teams, tables, false, nil, c.Protocol.FamilyAlpha()); err != nil {
 			return nil, err
 		}
 	}

@@ -51,7 +51,7 @@ func runStep(dir, point string) error {
 	case "blind":
 		_, err = c.Blind(ids, key("custodian"))
 	case "sign":
-		st, _, derr := c.Draft("heron", "crash test")
+		st, _, derr := c.Draft("heron", "zenith=a crash test of the sign step")
 		if derr != nil {
 			return derr
 		}

@@ -11,6 +11,10 @@ import (
 	"tandem/blind/internal/sshsig"
 )
 
+// SetCountsHook lets a test play a custodian that logs count tests it did
+// not compute.
+func SetCountsHook(f func(*format.CountsFile)) { countsHook = f }
+
 // SetCrashHook lets the crash tests stop a child process at a chosen point.
 func SetCrashHook(f func(string)) { crashHook = f }
 

@@ -52,7 +52,7 @@ func (c *Campaign) Notes(cmp *Comparison) []string {
 			continue
 		}
 		signed = append(signed, s.Party)
-		if r := s.Statement.Accepted; r != "" {
+		for _, r := range acceptedTexts(s.Statement.Accepted) {
 			if reasons[r] == nil {
 				order = append(order, r)
 			}
@@ -79,16 +79,31 @@ func (c *Campaign) Accepted() []compare.Acceptance {
 	var out []compare.Acceptance
 	idx := map[string]int{}
 	for _, s := range c.Signoffs() {
-		if !s.Valid || s.Statement.Accepted == "" {
+		if !s.Valid {
 			continue
 		}
-		r := s.Statement.Accepted
-		if i, ok := idx[r]; ok {
-			out[i].By = append(out[i].By, s.Party)
-			continue
+		for _, r := range acceptedTexts(s.Statement.Accepted) {
+			if i, ok := idx[r]; ok {
+				out[i].By = append(out[i].By, s.Party)
+				continue
+			}
+			idx[r] = len(out)
+			out = append(out, compare.Acceptance{By: []string{s.Party}, Reason: r})
 		}
-		idx[r] = len(out)
-		out = append(out, compare.Acceptance{By: []string{s.Party}, Reason: r})
+	}
+	return out
+}
+
+// acceptedTexts words a statement's accepted-disagreement lines
+// ("O C A B REASON") as "O/C (A vs B): REASON".
+func acceptedTexts(lines []string) []string {
+	var out []string
+	for _, l := range lines {
+		f := strings.SplitN(l, " ", 5)
+		if len(f) < 5 {
+			continue // ParseStatement refuses such a line
+		}
+		out = append(out, f[0]+"/"+f[1]+" ("+f[2]+" vs "+f[3]+"): "+f[4])
 	}
 	return out
 }

@@ -10,7 +10,6 @@ import (
 
 	"tandem/blind/internal/format"
 	"tandem/blind/internal/sshsig"
-	"tandem/blind/protocol"
 )
 
 // Statement is a sign-off statement (see the format for its bytes).
@@ -63,9 +62,12 @@ func (c *Campaign) current() (*Statement, error) {
 // commitment, every sealed commitment (with the team that signed it) and
 // blinded digest, the ledger head, every comparison with its verdict, the
 // comparison digest of those lines and the campaign's verdict.
-// A failing verdict needs a reason, which goes into the statement; an
+// Each failing comparison needs its own reason, given in accept as
+// "OBSERVABLE=REASON", or "OBSERVABLE/COLUMN=REASON" when the observable
+// has several columns (see [ParseAcceptance]); the statement binds each
+// reason to its comparison. Empty strings in accept are ignored. An
 // incomplete campaign cannot be signed.
-func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, error) {
+func (c *Campaign) Draft(party string, accept ...string) (*Statement, *Comparison, error) {
 	if c.Unblinded() {
 		return nil, nil, refuse(StepSign, ProblemState, "the campaign is already unblinded")
 	}
@@ -73,15 +75,15 @@ func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, e
 	if q == nil {
 		return nil, nil, fmt.Errorf("%q is not a party of campaign %s", party, c.Protocol.Campaign)
 	}
-	if err := protocol.CleanText(acceptReason); err != nil {
-		return nil, nil, fmt.Errorf("the reason for accepting a disagreement: %v", err)
-	}
 	st, err := c.current()
 	if err != nil {
 		return nil, nil, err
 	}
+	reasons, err := c.ParseAcceptance(accept)
+	if err != nil {
+		return nil, nil, err
+	}
 	cmp, _ := c.Compare()
-	acceptReason = strings.TrimSpace(acceptReason)
 	switch {
 	case cmp.Verdict == Incomplete:
 		var ps []Problem
@@ -89,10 +91,10 @@ func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, e
 			ps = append(ps, Problem{Kind: ProblemMissing, Message: p.Observable + ": incomplete, " + p.Reason})
 		}
 		return nil, nil, &RefusedError{Step: StepSign, Problems: ps}
-	case cmp.Verdict == Fail && acceptReason == "":
-		return nil, nil, refuse(StepSign, ProblemState, "the comparison disagrees; signing needs --accept-disagreement with a reason")
-	case cmp.Verdict == Pass && acceptReason != "":
-		return nil, nil, fmt.Errorf("the comparison agrees; there is no disagreement to accept")
+	}
+	accepted, err := acceptLines(cmp, reasons)
+	if err != nil {
+		return nil, nil, err
 	}
 	if d, err := st.ComparisonDigest(); err != nil || d != cmp.Digest {
 		// The statement's lines must give the digest they end with.
@@ -102,7 +104,7 @@ func (c *Campaign) Draft(party, acceptReason string) (*Statement, *Comparison, e
 	st.Date = c.now().UTC().Format(time.RFC3339)
 	c.drafted = c.Heads()
 	st.LedgerSeq, st.LedgerHash = c.ViewDigest(c.drafted)
-	st.Accepted = acceptReason
+	st.Accepted = accepted
 	return st, cmp, nil
 }
 
@@ -156,8 +158,8 @@ func (c *Campaign) Sign(st *Statement, signer ssh.Signer) (statementPath string,
 	}
 	crashPoint("sign")
 	data := map[string]string{"party": st.Party, "verdict": st.Verdict}
-	if st.Accepted != "" {
-		data["accepted_disagreement"] = st.Accepted
+	if len(st.Accepted) > 0 {
+		data["accepted_disagreement"] = format.AcceptedMember(st.Accepted)
 	}
 	err = c.appendEntry(format.Entry{Step: string(StepSign), Actor: st.Party,
 		Files: map[string]string{sp: format.Digest(body), gp: format.Digest(sig)}, Data: data}, signer)
@@ -205,8 +207,8 @@ func (c *Campaign) staleness(st *Statement, v View, e *format.Entry) []Problem {
 		return probs
 	}
 	if e != nil {
-		if e.Data["verdict"] != st.Verdict || e.Data["accepted_disagreement"] != st.Accepted {
-			add(ProblemSignoff, "%s: the sign entry %s logs verdict %q and reason %q, the statement %q and %q", who, EntryName(e), e.Data["verdict"], e.Data["accepted_disagreement"], st.Verdict, st.Accepted)
+		if e.Data["verdict"] != st.Verdict || e.Data["accepted_disagreement"] != format.AcceptedMember(st.Accepted) {
+			add(ProblemSignoff, "%s: the sign entry %s logs verdict %q and reasons %q, the statement %q and %q", who, EntryName(e), e.Data["verdict"], e.Data["accepted_disagreement"], st.Verdict, format.AcceptedMember(st.Accepted))
 			return probs
 		}
 	}
@@ -241,7 +243,7 @@ func (c *Campaign) staleness(st *Statement, v View, e *format.Entry) []Problem {
 	if strings.Join(st.AcceptedRisks, "\n") != strings.Join(cur.AcceptedRisks, "\n") {
 		add(ProblemStale, "%s names other accepted risks than the protocol", who)
 	}
-	if st.Verdict == string(Fail) && st.Accepted == "" {
+	if st.Verdict == string(Fail) && len(st.Accepted) == 0 {
 		add(ProblemSignoff, "%s signs a failing comparison without a reason", who)
 	}
 	return probs

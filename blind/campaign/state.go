@@ -79,6 +79,9 @@ type Round struct {
 	Number int
 	Seq    int
 	Seals  map[string]int // team → version
+	// Counts is the count-tests file the open entry logged (nil when the
+	// observable has no counts column).
+	Counts *Published
 }
 
 // ObservableState is what the ledger says about one observable.
@@ -344,6 +347,7 @@ func (c *Campaign) replay() *State {
 			}
 			seals := map[string]*Seal{}
 			ok := true
+			countsFile := ""
 			for _, t := range teams {
 				v, has := e.Data["seal."+t]
 				if !has {
@@ -390,6 +394,15 @@ func (c *Campaign) replay() *State {
 					bad(e, ProblemEntry, "round %q, but this is round %d of %s", e.Data["round"], o.Round()+1, o.Name)
 					continue
 				}
+				if ob := p.Observable(o.Name); ob != nil && hasCounts(ob) {
+					countsFile = CountsPath(o.Name, o.Round()+1, strings.Repeat("0", 64))
+					for f, d := range e.Files {
+						if strings.HasPrefix(f, countsPrefix(o.Name, o.Round()+1)) {
+							countsFile = CountsPath(o.Name, o.Round()+1, d)
+						}
+					}
+					want = append(want, countsFile)
+				}
 			}
 			if !files(e, want) {
 				continue
@@ -400,7 +413,11 @@ func (c *Campaign) replay() *State {
 				for t, l := range seals {
 					vs[t] = l.Version
 				}
-				o.Rounds = append(o.Rounds, Round{Number: o.Round() + 1, Seq: i + 1, Seals: vs})
+				r := Round{Number: o.Round() + 1, Seq: i + 1, Seals: vs}
+				if countsFile != "" {
+					r.Counts = &Published{Path: countsFile, Digest: e.Files[countsFile], Seq: i + 1}
+				}
+				o.Rounds = append(o.Rounds, r)
 				st.Changes = append(st.Changes, e)
 			}
 			for t, l := range seals {

@@ -40,7 +40,7 @@ func TestSignedWrongVerdict(t *testing.T) {
 	g.sign("team-b")
 	g.forgeSign("reviewer", "reviewer", func(st *Statement) {
 		st.Compared[1] = strings.Replace(st.Compared[1], " pass", " fail", 1)
-		st.Verdict, st.Accepted = "fail", "a reason"
+		st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[1], " fail") + " a reason of several words"}
 		d, err := st.ComparisonDigest()
 		if err != nil {
 			t.Fatal(err)

@@ -75,12 +75,18 @@ type Action struct {
 
 func (a Action) String() string { return a.Party + ": " + a.Do }
 
+// custodianFlags are the flags of a custodian step in a hint: the age or
+// SSH identity that opens key.age, and the SSH key that signs the entry
+// (FILE is a placeholder the reader fills in; with ssh-agent and
+// TANDEM_CUSTODIAN_IDENTITY_FILE set, both may be left out).
+const custodianFlags = " --identity FILE --key FILE"
+
 // Status works out the campaign's state and every party's next action.
 func (c *Campaign) Status() (*Status, error) {
 	s := &Status{Campaign: c.Protocol.Campaign, LedgerLength: len(c.Ledger), Observables: []ObservableStatus{}, Signoffs: []SignoffStatus{}, Logs: []LogStatus{}, Next: []Action{}}
 	if !c.Started() {
 		s.State = CampaignNotStarted
-		s.Next = append(s.Next, Action{"custodian", "start the campaign: tandem init " + c.Dir})
+		s.Next = append(s.Next, Action{"custodian", "start the campaign: tandem init " + c.Dir + " --key FILE"})
 		return s, nil
 	}
 	names := []string{protocol.RoleCustodian}
@@ -154,7 +160,7 @@ func (c *Campaign) Status() (*Status, error) {
 		}
 	}
 	if needBlind && !c.Unblinded() {
-		add(Action{"custodian", "blind: publish the newly sealed tables (tandem blind " + c.Dir + ")"})
+		add(Action{"custodian", "blind: publish the newly sealed tables (tandem blind " + c.Dir + custodianFlags + ")"})
 	}
 	s.Signoffs = c.Signoffs()
 	rep := c.audit()
@@ -165,7 +171,7 @@ func (c *Campaign) Status() (*Status, error) {
 		s.State = CampaignUnblinded
 		for _, rel := range c.missingFinalReports() {
 			s.Notes = append(s.Notes, rel+": missing (unblind was interrupted)")
-			add(Action{"custodian", "finish the final reports: tandem unblind " + c.Dir})
+			add(Action{"custodian", "finish the final reports: tandem unblind " + c.Dir + custodianFlags})
 		}
 		return s, nil
 	case cmp.Verdict == Incomplete:
@@ -200,7 +206,7 @@ func (c *Campaign) Status() (*Status, error) {
 	}
 	if ready {
 		s.State = CampaignReady
-		add(Action{"custodian", "unblind: tandem unblind " + c.Dir})
+		add(Action{"custodian", "unblind: tandem unblind " + c.Dir + custodianFlags})
 	}
 	return s, nil
 }

@@ -14,6 +14,7 @@ import (
 	"tandem/blind"
 	"tandem/blind/internal/format"
 	"tandem/blind/protocol"
+	"tandem/compare"
 	"tandem/compare/table"
 )
 
@@ -264,7 +265,30 @@ func (c *Campaign) checkSeal(team, observable string, t *table.Table, reason str
 	if err := protocol.CleanText(reason); err != nil {
 		return nil, fmt.Errorf("--reason: %v", err)
 	}
-	return Canonical(o, t)
+	ct, err := Canonical(o, t)
+	if err != nil {
+		return nil, err
+	}
+	// the count tests run at the opening on these values: refuse what is
+	// no event count now, where the team can fix it (the value itself is
+	// not quoted)
+	for _, col := range o.Columns {
+		if !col.Counts {
+			continue
+		}
+		for i, v := range ct.Column(col.Name) {
+			if !compare.IsCount(v) {
+				line := 0
+				if i < len(t.Lines) {
+					line = int(t.Lines[i])
+				} else if t.Lines == nil && t.FirstLine > 0 {
+					line = t.FirstLine + i
+				}
+				return nil, table.Errorf(t.Source, line, 0, "bin %d: column %q is declared counts = true, and its value is not an event count (a non-negative integer)", i+1, col.Name)
+			}
+		}
+	}
+	return ct, nil
 }
 
 // Canonical checks a team's table against the observable's declaration and

@@ -736,7 +736,7 @@ func katStatement() *format.Statement {
 		Sealed:   []string{"team-a/flux v1 " + h("s1") + " by team-a " + fp("team-a"), "team-b/flux v1 " + h("s2") + " by team-b " + fp("team-b")},
 		Blinded:  []string{"team-a/flux " + h("b1"), "team-b/flux " + h("b2")},
 		Compared: []string{"flux value team-a team-b pass", "flux width team-a team-b fail"},
-		Verdict:  "fail", Accepted: "the tilt is understood", AcceptedRisks: []string{"flux/value the errors are public anyway"}}
+		Verdict:  "fail", Accepted: []string{"flux width team-a team-b the tilt is understood"}, AcceptedRisks: []string{"flux/value the errors are public anyway"}}
 	d, err := st.ComparisonDigest()
 	if err != nil {
 		panic(err) // the lines above name only listed slots
@@ -770,14 +770,25 @@ func statementVectors() []*vector {
 		mk("compared-unlisted", "non-canonical", "a compared line naming team-c, which has no blinded line", strings.Replace(s, "compared: flux width team-a team-b fail", "compared: flux width team-a team-c fail", 1)),
 		mk("compared-self", "non-canonical", "a team compared with itself", strings.Replace(s, "compared: flux width team-a team-b fail", "compared: flux width team-a team-a fail", 1)),
 		mk("compared-edited", "non-canonical", "a compared line's verdict changed after the comparison digest was computed: the digest no longer hashes the listed lines", strings.Replace(s, "compared: flux value team-a team-b pass", "compared: flux value team-a team-b fail", 1)),
-		mk("verdict-pass-with-fail", "non-canonical", "verdict pass (without a reason) while a compared line fails; the digest is that of the lines", string(katVariant(func(st *format.Statement) { st.Verdict, st.Accepted = "pass", "" }))),
+		mk("verdict-pass-with-fail", "non-canonical", "verdict pass (without a reason) while a compared line fails; the digest is that of the lines", string(katVariant(func(st *format.Statement) { st.Verdict, st.Accepted = "pass", nil }))),
 		mk("pass-with-reason", "non-canonical", "every compared line passes, verdict pass, with an accepted-disagreement line; the digest is that of the lines", string(katVariant(func(st *format.Statement) {
 			st.Compared[1] = strings.Replace(st.Compared[1], " fail", " pass", 1)
 			st.Verdict = "pass"
 		}))),
+		mk("accept-one-for-two", "non-canonical", "two compared lines fail, and one accepted-disagreement line gives a reason for only one of them: each failing comparison needs its own, bound to it", string(katVariant(func(st *format.Statement) {
+			st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+		}))),
+		mk("accept-each", "ok", "two compared lines fail, each with its own accepted-disagreement line, in the order of the compared lines", string(katVariant(func(st *format.Statement) {
+			st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+			st.Accepted = []string{"flux value team-a team-b the value shift is the known calibration offset", st.Accepted[0]}
+		}))),
+		mk("accept-wrong-order", "non-canonical", "two compared lines fail, each with an accepted-disagreement line, but the lines are not in the order of the compared lines", string(katVariant(func(st *format.Statement) {
+			st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
+			st.Accepted = []string{st.Accepted[0], "flux value team-a team-b the value shift is the known calibration offset"}
+		}))),
 		mk("pass", "ok", "every compared line passes, verdict pass, no accepted-disagreement line", string(katVariant(func(st *format.Statement) {
 			st.Compared[1] = strings.Replace(st.Compared[1], " fail", " pass", 1)
-			st.Verdict, st.Accepted = "pass", ""
+			st.Verdict, st.Accepted = "pass", nil
 		}))),
 		mk("c1-reason", "non-canonical", "the accepted-disagreement reason holds U+0085 (a C1 control)", strings.Replace(s, "the tilt is", "the tilt\u0085is", 1)),
 		mk("bidi-reason", "non-canonical", "the accepted-disagreement reason holds U+202E (right-to-left override)", strings.Replace(s, "the tilt is", "the tilt \u202eis", 1)),
@@ -945,11 +956,13 @@ edges = ["from", "to"]
 `
 
 var vectorTables = map[string]string{
-	"team-a/flux":  "lo,hi,value,stat,syst\n0,1,10.5,1.5,0.5\n1,2,20.25,2,0.75\n2,4,15,1.75,0.5\n4,8,8.125,1.25,0.25\n",
-	"team-b/flux":  "lo,hi,value,stat,syst\n0,1,10,1.5,0.5\n1,2,21,2,0.75\n2,4,14.5,1.75,0.5\n4,8,8.5,1.25,0.25\n",
-	"team-a/ratio": "from,to,r,err\n0,0.5,1.5e-07,2e-08\n0.5,1.5,1.25e-07,2e-08\n1.5,1e+06,9e-08,1.5e-08\n",
-	"team-b/ratio": "from,to,r,err\n0,0.5,1.4e-07,2e-08\n0.5,1.5,1.3e-07,2e-08\n1.5,1e+06,9.5e-08,1.5e-08\n",
-	"team-a/flux2": "lo,hi,value,stat,syst\n0,1,10.25,1.5,0.5\n1,2,20.5,2,0.75\n2,4,15,1.75,0.5\n4,8,8.25,1.25,0.25\n",
+	"team-a/flux":   "lo,hi,value,stat,syst\n0,1,10.5,1.5,0.5\n1,2,20.25,2,0.75\n2,4,15,1.75,0.5\n4,8,8.125,1.25,0.25\n",
+	"team-b/flux":   "lo,hi,value,stat,syst\n0,1,10,1.5,0.5\n1,2,21,2,0.75\n2,4,14.5,1.75,0.5\n4,8,8.5,1.25,0.25\n",
+	"team-a/ratio":  "from,to,r,err\n0,0.5,1.5e-07,2e-08\n0.5,1.5,1.25e-07,2e-08\n1.5,1e+06,9e-08,1.5e-08\n",
+	"team-b/ratio":  "from,to,r,err\n0,0.5,1.4e-07,2e-08\n0.5,1.5,1.3e-07,2e-08\n1.5,1e+06,9.5e-08,1.5e-08\n",
+	"team-a/events": "lo,hi,n\n0,1,12\n1,2,7\n2,3,3\n3,4,0\n4,5,1\n",
+	"team-b/events": "lo,hi,n\n0,1,9\n1,2,8\n2,3,2\n3,4,1\n4,5,0\n",
+	"team-a/flux2":  "lo,hi,value,stat,syst\n0,1,10.25,1.5,0.5\n1,2,20.5,2,0.75\n2,4,15,1.75,0.5\n4,8,8.25,1.25,0.25\n",
 }
 
 func newGen(t *testing.T) *gen {
@@ -1030,6 +1043,40 @@ func (g *gen) blinded() *gen {
 	g.seal("team-a", "ratio", "team-a/ratio", "")
 	g.seal("team-b", "ratio", "team-b/ratio", "")
 	g.blind() // both observables open
+	return g
+}
+
+// countsObservable is the observable of event counts the counts vectors
+// add by an amendment (SPEC.md, section 7.1).
+const countsObservable = `
+[[observable]]
+name = "events"
+title = "event counts in five bins"
+
+  [[observable.column]]
+  name = "n"
+  counts = true
+  seed = 2026
+  mc_samples = 1000
+  scale = [0.5, 2.0]
+  shift = [-50.0, 50.0]
+  accept_risk = "five bins of invented counts: the self-audit may break a random key of so small a table"
+`
+
+// withCounts: the reviewer amends the protocol to add the observable
+// events, compared as counts, and both teams seal it.
+func (g *gen) withCounts() *gen {
+	g.t.Helper()
+	c := g.open()
+	cur, err := os.ReadFile(filepath.Join(g.dir, ProtocolFile))
+	if err != nil {
+		g.t.Fatal(err)
+	}
+	if _, err := c.Amend("reviewer", append(cur, countsObservable...), "add the event counts of the sparse tail", g.signers["reviewer"]); err != nil {
+		g.t.Fatal(err)
+	}
+	g.seal("team-a", "events", "team-a/events", "")
+	g.seal("team-b", "events", "team-b/events", "")
 	return g
 }
 
@@ -1261,8 +1308,8 @@ func rewrap(sig []byte, n int) []byte {
 // signData is the data of a sign entry for st.
 func signData(st *Statement) map[string]string {
 	d := map[string]string{"party": st.Party, "verdict": st.Verdict}
-	if st.Accepted != "" {
-		d["accepted_disagreement"] = st.Accepted
+	if len(st.Accepted) > 0 {
+		d["accepted_disagreement"] = format.AcceptedMember(st.Accepted)
 	}
 	return d
 }
@@ -1418,6 +1465,25 @@ func campaignVectors(t *testing.T, out string) []*vector {
 				return sig
 			})
 		}},
+		{"ok-counts", "ok", "the protocol amended to add events, a column of event counts (counts = true); both teams sealed it, the custodian's open entry logs the count tests it ran on the true counts (counts/events.r1-….txt), every party signed and the custodian unblinded: verify recomputes the logged tests from the unblinded tables", func(g *gen) {
+			g.withCounts().signed().unblind()
+		}},
+		{"bad-digest-counts", "bad-digest", "as ok-counts before signing, with a per-bin p-value of the logged count tests edited after the open entry logged the file", func(g *gen) {
+			g.withCounts().blinded()
+			g.editFile(g.glob("counts/events.r1-*.txt"), func(s string) string {
+				return strings.Replace(s, "bin: binomial ", "bin: binomial 0", 1)
+			})
+		}},
+		{"bad-entry-counts-missing", "bad-entry", "the protocol amended to add events, compared as counts, both teams sealed it and the custodian opened it, but its open entry logs no count tests (re-signed by the custodian, the file removed)", func(g *gen) {
+			g.withCounts().blind()
+			f := g.glob("counts/events.r1-*.txt")
+			os.Remove(filepath.Join(g.dir, filepath.FromSlash(f)))
+			g.reentry("custodian", g.signers["custodian"], func(e *format.Entry) {
+				if e.Data["observable"] == "events" && e.Step == "open" {
+					delete(e.Files, f)
+				}
+			})
+		}},
 		{"private-key", "private-key", "as ok-blinded, with the custodian's age identity copied into the campaign folder", func(g *gen) {
 			g.blinded()
 			id := g.ids[0].(*age.X25519Identity)
@@ -1452,7 +1518,7 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSignMod("reviewer", "reviewer", func(st *Statement) {
 				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
-				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[0], " fail") + " we think flux differs"}
 				d, err := st.ComparisonDigest()
 				if err != nil {
 					t.Fatal(err)
@@ -1549,7 +1615,7 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSign("reviewer", "reviewer", func(st *Statement) {
 				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
-				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[0], " fail") + " we think flux differs"}
 				d, err := st.ComparisonDigest()
 				if err != nil {
 					t.Fatal(err)
@@ -1563,7 +1629,7 @@ func campaignVectors(t *testing.T, out string) []*vector {
 			g.sign("team-b")
 			g.forgeSign("reviewer", "reviewer", func(st *Statement) {
 				st.Compared[0] = strings.Replace(st.Compared[0], " pass", " fail", 1)
-				st.Verdict, st.Accepted = "fail", "we think flux differs"
+				st.Verdict, st.Accepted = "fail", []string{strings.TrimSuffix(st.Compared[0], " fail") + " we think flux differs"}
 			})
 		}},
 	}

@@ -11,6 +11,7 @@ import (
 	"tandem/blind"
 	"tandem/blind/internal/format"
 	"tandem/blind/keykind"
+	"tandem/compare/table"
 )
 
 // Report is the outcome of verify.
@@ -28,7 +29,7 @@ func (r *Report) OK() bool { return len(r.Problems) == 0 }
 // Only files an earlier step writes qualify: a file only a later step
 // writes (a statement, an unblinded table, key.revealed) present without
 // its entry is a problem.
-var leftoverRE = regexp.MustCompile(`^(sealed/[^/]+/[^/]+\.v[0-9]+-[0-9a-f]{12}\.age|blinded/[^/]+/[^/]+\.v[0-9]+-[0-9a-f]{12}(\.own)?\.csv|key\.age)$`)
+var leftoverRE = regexp.MustCompile(`^(sealed/[^/]+/[^/]+\.v[0-9]+-[0-9a-f]{12}\.age|blinded/[^/]+/[^/]+\.v[0-9]+-[0-9a-f]{12}(\.own)?\.csv|counts/[^/]+\.r[0-9]+-[0-9a-f]{12}\.txt|key\.age)$`)
 
 // laterRE matches the files only a later step writes: a statement, an
 // unblinded table, key.revealed.
@@ -210,8 +211,7 @@ func dedupe(in []Problem) []Problem {
 }
 
 // verifyUnblinded checks the chain end to end from the published key.
-func (c *Campaign) verifyUnblinded() []Problem {
-	var probs []Problem
+func (c *Campaign) verifyUnblinded() (probs []Problem) {
 	bad := func(kind ProblemKind, path, f string, a ...any) {
 		probs = append(probs, Problem{Kind: kind, Path: path, Message: fmt.Sprintf(f, a...)})
 	}
@@ -231,6 +231,12 @@ func (c *Campaign) verifyUnblinded() []Problem {
 		return probs
 	}
 	st := c.State()
+	truth := map[Slot]*table.Table{}
+	defer func() {
+		// the count tests logged at the opening, recomputed from the
+		// true tables that hold (SPEC.md, section 7.1)
+		probs = append(probs, c.recheckCounts(truth)...)
+	}()
 	for _, s := range c.Slots() {
 		os := st.Observables[s.Observable]
 		l := os.Latest[s.Team]
@@ -257,6 +263,7 @@ func (c *Campaign) verifyUnblinded() []Problem {
 			bad(ProblemCommitment, s.UnblindedPath(), "true table does not match its seal-time commitment")
 			continue
 		}
+		truth[s] = f.Table
 		for _, pub := range []*Published{os.Common[s.Team], os.Own[s.Team]} {
 			if pub == nil || pub.Version != l.Version {
 				continue

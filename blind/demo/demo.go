@@ -111,7 +111,7 @@ type Command struct {
 var parties = []struct{ name, role string }{{"heron", "team"}, {"otter", "team"}, {"ibis", "reviewer"}}
 
 // Reason the parties give for accepting the zenith disagreement.
-const acceptReason = "otter's zenith correction still uses the pre-upgrade tower survey; the tilt is understood and will be fixed in the next pass"
+const acceptReason = "zenith=otter's zenith correction still uses the pre-upgrade tower survey; the tilt is understood and will be fixed in the next pass"
 
 // Build is [Run] for callers that need only the error.
 func Build(dir string, opt Options) error {

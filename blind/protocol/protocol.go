@@ -622,6 +622,12 @@ func (o *Observable) validate(seen map[string]bool, alpha float64) error {
 			}
 			extra = append(extra, c.Default.Column)
 		}
+		if c.Counts && c.SumW2 != "" {
+			return colErr(o, c, "sumw2", "", 0, "%s: weighted counts (sumw2) are not compared in a campaign: the test of weighted histograms needs the true sums of weights; compare them as plain counts or in table mode after unblinding", where)
+		}
+		if c.Counts && (len(c.Errors) != 0 || c.Covariance) {
+			return colErr(o, c, "errors", "", 0, "%s: a counts column in a campaign names no error column: σ = √N, blinded to s·√N beside s·N + o, gives the map away (s = (σ′_A² − σ′_B²)/(v′_A − v′_B) in the common map); the exact tests need only the counts, and run on the true ones at the opening", where)
+		}
 		if c.Overlap.Enabled() {
 			return colErr(o, c, "overlap", "", 0, "%s: overlap is not available in a campaign: the per-bin event counts would publish the true counts; declare the correlation per source (a number or a per-bin column) instead", where)
 		}

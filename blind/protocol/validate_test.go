@@ -124,3 +124,32 @@ name = "rate"
 		t.Errorf("got %v, want campaign.toml:23:21", err)
 	}
 }
+
+// TestCountsColumnRules: a counts column in a campaign names no error
+// column (σ = √N would give the common map away) and no sumw2; one
+// without either is accepted.
+func TestCountsColumnRules(t *testing.T) {
+	counts := `[[observable]]
+name = "tail"
+
+  [[observable.column]]
+  name = "n"
+  counts = true
+  seed = 3
+  scale = [0.5, 2.0]
+  shift = [-1000.0, 1000.0]
+`
+	if _, err := Parse("campaign.toml", []byte(base(t, counts))); err != nil {
+		t.Fatalf("a counts column without errors is refused: %v", err)
+	}
+	for name, c := range map[string]struct{ edit, msg string }{
+		"errors": {"  errors = [\"stat\"]\n", "names no error column"},
+		"sumw2":  {"  sumw2 = \"w2\"\n", "weighted counts (sumw2) are not compared in a campaign"},
+	} {
+		obs := strings.Replace(counts, "  counts = true\n", "  counts = true\n"+c.edit, 1)
+		_, err := Parse("campaign.toml", []byte(base(t, obs)))
+		if err == nil || !strings.Contains(err.Error(), c.msg) || !strings.Contains(err.Error(), "campaign.toml:") {
+			t.Errorf("%s: %v, want %q with a position", name, err, c.msg)
+		}
+	}
+}

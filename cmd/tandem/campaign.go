@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"errors"
 	"flag"
 	"fmt"
@@ -15,6 +16,7 @@ import (
 	"golang.org/x/crypto/ssh/agent"
 
 	"tandem/blind/campaign"
+	"tandem/blind/keykind"
 	"tandem/blind/protocol"
 	"tandem/blind/safefile"
 	"tandem/compare/input"
@@ -321,7 +323,12 @@ func readSealInput(e *env, o *protocol.Observable, pos []string) (*table.Table, 
 			}
 		}
 	case len(pos) == 2:
-		t, err = input.Read(pos[1], opt)
+		t, err = input.ReadWaiting(pos[1], e.stdin, opt, e.waitNotice())
+		if t != nil {
+			for _, n := range t.Notes {
+				e.warnf("%s", n)
+			}
+		}
 	default:
 		if f, ok := e.stdin.(*os.File); ok {
 			if isTerminal(f) {
@@ -363,6 +370,20 @@ func readIdentity(e *env, path string) ([]age.Identity, []byte, error) {
 	return nil, nil, withHint(usageErr("no custodian identity: give --identity FILE, or set %s (the identity itself) or %s (its path)", identityEnv, identityFileEnv))
 }
 
+// readCustodianIdentity is readIdentity, then a check that the identity is
+// of the kind the campaign's custodian recipient opens (an SSH key given
+// for an age recipient, or a public key given as an identity, is named).
+func readCustodianIdentity(e *env, path, recipient string) ([]age.Identity, []byte, error) {
+	ids, raw, err := readIdentity(e, path)
+	if err != nil {
+		return nil, nil, err
+	}
+	if err := keykind.CheckIdentity(cmp.Or(path, os.Getenv(identityFileEnv), "$"+identityEnv), raw, recipient); err != nil {
+		return nil, nil, inputErr(err)
+	}
+	return ids, raw, nil
+}
+
 const blindHelp = `Usage:
     tandem blind DIR --identity FILE [--key FILE]
 
@@ -390,7 +411,7 @@ func custodianStep(e *env, name, help string, args []string) (*campaign.Campaign
 	if err != nil {
 		return nil, nil, nil, err
 	}
-	ids, raw, err := readIdentity(e, idFile)
+	ids, raw, err := readCustodianIdentity(e, idFile, c.Protocol.Custodian)
 	if err != nil {
 		return nil, nil, nil, err
 	}
@@ -522,6 +543,9 @@ func runAmend(e *env, args []string) error {
 // findSigner returns a signer for a key from a key file or from ssh-agent.
 func findSigner(keyFile string, want ssh.PublicKey) (ssh.Signer, error) {
 	if keyFile != "" {
+		if err := keykind.CheckSigningKeyFile(keyFile); err != nil {
+			return nil, inputErr(err)
+		}
 		s, err := campaign.ReadSigner(keyFile)
 		if err != nil {
 			return nil, inputErr(err)

@@ -55,7 +55,7 @@ func TestSignWithSSHAgent(t *testing.T) {
 		t.Fatalf("ssh-add: %v\n%s", err, out)
 	}
 	t.Setenv("SSH_AUTH_SOCK", sock)
-	code, _, stderr := runCLI(t, "sign", dir, "--as", "otter", "--yes", "--accept-disagreement", "tilt understood")
+	code, _, stderr := runCLI(t, "sign", dir, "--as", "otter", "--yes", "--accept-disagreement", "zenith=the tilt is understood")
 	if code != 0 {
 		t.Fatalf("sign with ssh-agent: exit %d: %s", code, stderr)
 	}

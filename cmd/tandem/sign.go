@@ -13,7 +13,7 @@ import (
 )
 
 const signHelp = `Usage:
-    tandem sign DIR --as PARTY [--key FILE] [--yes] [--accept-disagreement REASON]
+    tandem sign DIR --as PARTY [--key FILE] [--yes] [--accept-disagreement OBSERVABLE=REASON ...]
 
 Signs off the campaign as it stands. Prints what is signed, in words (each
 comparison with its verdict, χ²/ndf and p-value, and what is accepted) and
@@ -25,16 +25,22 @@ the SSH key in FILE, or with ssh-agent when --key is absent. The signature
 is an OpenSSH signature in namespace tandem-signoff:
     ssh-keygen -Y verify -n tandem-signoff -f allowed_signers -I PARTY \
         -s signoffs/PARTY.N.statement.sig < signoffs/PARTY.N.statement
+
+Each failing comparison needs its own --accept-disagreement (repeatable):
+OBSERVABLE=REASON, or OBSERVABLE/COLUMN=REASON when the observable has
+several columns. A reason says in at least three words what differs and
+why it is accepted; the statement binds each reason to its comparison.
 `
 
 func runSign(e *env, args []string) error {
 	fs := newFlags(e, "sign", signHelp)
-	var party, keyFile, reason string
+	var party, keyFile string
+	var reasons repeated
 	var yes bool
 	fs.StringVar(&party, "as", "", "sign as `PARTY` (required)")
 	fs.StringVar(&keyFile, "key", "", "SSH private key `FILE` (default: ssh-agent)")
 	boolVar(fs, &yes, []string{"yes", "y"}, false, "sign without asking for confirmation")
-	fs.StringVar(&reason, "accept-disagreement", "", "sign a failing comparison, giving the `REASON`")
+	fs.Var(&reasons, "accept-disagreement", "sign a failing comparison: `OBSERVABLE=REASON` or OBSERVABLE/COLUMN=REASON (repeatable, one per failing comparison)")
 	c, err := campaignArgs(fs, args, "sign")
 	if err != nil {
 		return err
@@ -50,7 +56,7 @@ func runSign(e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	st, cmp, err := c.Draft(party, reason)
+	st, cmp, err := c.Draft(party, reasons...)
 	if err != nil {
 		return campaignErr(err)
 	}
@@ -85,12 +91,22 @@ func describeSignoff(w io.Writer, party string, st *campaign.Statement, cmp *cam
 			fmtNum(e.Chi2), e.NDF, fmtNum(e.PValue))
 	}
 	fmt.Fprintf(w, "  verdict: %s\n", st.Verdict)
-	if st.Accepted != "" {
-		fmt.Fprintf(w, "  accepting the disagreement because: %s\n", st.Accepted)
+	for _, a := range st.Accepted {
+		f := strings.SplitN(a, " ", 5)
+		fmt.Fprintf(w, "  accepting the disagreement of %s/%s (%s vs %s) because: %s\n", f[0], f[1], f[2], f[3], f[4])
 	}
 	for _, r := range st.AcceptedRisks {
 		fmt.Fprintf(w, "  accepting the protocol's blinding risk for %s\n", r)
 	}
+}
+
+// repeated is a flag that may be given more than once.
+type repeated []string
+
+func (r *repeated) String() string { return strings.Join(*r, ", ") }
+func (r *repeated) Set(s string) error {
+	*r = append(*r, s)
+	return nil
 }
 
 func fmtNum(v float64) string {

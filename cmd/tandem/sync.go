@@ -224,7 +224,7 @@ func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Table, opt *events.Opt
 	if len(use) == 0 {
 		return nil
 	}
-	ids, _, err := readIdentity(e, sf.identity)
+	ids, _, err := readCustodianIdentity(e, sf.identity, c.Protocol.Custodian)
 	if err != nil {
 		return err
 	}

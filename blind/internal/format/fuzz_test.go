@@ -103,3 +103,20 @@ func FuzzEntryFile(f *testing.F) {
 		}
 	})
 }
+
+// FuzzCountsFile: the count-tests parser never panics, and an accepted
+// file re-encodes to the same bytes.
+func FuzzCountsFile(f *testing.F) {
+	for _, s := range seeds(f, "*.counts") {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, data []byte) {
+		cf, err := DecodeCountsFile("fuzz", data)
+		if err != nil {
+			return
+		}
+		if string(cf.Encode()) != string(data) {
+			t.Fatalf("accepted a count-tests file that does not round-trip")
+		}
+	})
+}

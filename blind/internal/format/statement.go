@@ -37,7 +37,7 @@ const SignoffNamespace = "tandem-signoff"
 //	compared: O COLUMN TEAM-A TEAM-B pass|fail   (one per comparison, in the comparison digest's order)
 //	comparison: HEX                        (the comparison digest of the lines above)
 //	verdict: pass|fail
-//	accepted-disagreement: TEXT            (only when the verdict is fail)
+//	accepted-disagreement: O COLUMN TEAM-A TEAM-B TEXT   (one per failing compared line, in their order)
 //	accepted-risk: O/COLUMN TEXT           (one per column whose protocol accepts an attack's risk)
 //
 // KEYFP is the SHA256 fingerprint of the key that signed the seal entry,
@@ -55,9 +55,20 @@ type Statement struct {
 	// comparison.
 	Compared            []string
 	Comparison, Verdict string
-	Accepted            string
-	AcceptedRisks       []string
+	// Accepted lists "OBSERVABLE COLUMN TEAM-A TEAM-B REASON", one per
+	// failing comparison, in the order of Compared.
+	Accepted      []string
+	AcceptedRisks []string
 }
+
+// AcceptedSeparator joins a statement's accepted-disagreement lines in the
+// sign entry's member accepted_disagreement (see [AcceptedMember]).
+const AcceptedSeparator = " ‖ "
+
+// AcceptedMember is the sign entry's accepted_disagreement member of a
+// statement: its accepted-disagreement values joined by
+// [AcceptedSeparator] ("" when there are none).
+func AcceptedMember(accepted []string) string { return strings.Join(accepted, AcceptedSeparator) }
 
 // Encode writes the statement in its canonical text form.
 func (st *Statement) Encode() []byte {
@@ -74,8 +85,8 @@ func (st *Statement) Encode() []byte {
 		fmt.Fprintf(&b, "compared: %s\n", s)
 	}
 	fmt.Fprintf(&b, "comparison: %s\nverdict: %s\n", st.Comparison, st.Verdict)
-	if st.Accepted != "" {
-		fmt.Fprintf(&b, "accepted-disagreement: %s\n", st.Accepted)
+	for _, a := range st.Accepted {
+		fmt.Fprintf(&b, "accepted-disagreement: %s\n", a)
 	}
 	for _, r := range st.AcceptedRisks {
 		fmt.Fprintf(&b, "accepted-risk: %s\n", r)
@@ -141,7 +152,7 @@ var statementLines = []statementLine{
 	{"protocol", true, false}, {"key-commitment", true, false}, {"ledger-head", true, false},
 	{"sealed", false, true}, {"blinded", false, true}, {"compared", true, true},
 	{"comparison", true, false}, {"verdict", true, false},
-	{"accepted-disagreement", false, false}, {"accepted-risk", false, true},
+	{"accepted-disagreement", false, true}, {"accepted-risk", false, true},
 }
 
 // ParseStatement parses a statement, checks every value against the
@@ -350,10 +361,21 @@ func (p *stmtParser) value(ln int, k, v string) error {
 		st.Verdict = v
 		return one(isWord("pass", "fail"))
 	case "accepted-disagreement":
-		st.Accepted = v
-		if err := checkText(v); err != nil {
-			return table.Errorf(p.name, ln, col+textOffset(err), "accepted-disagreement: %v", err)
+		f := strings.SplitN(v, " ", 5)
+		at := col
+		for k := 0; k < 4; k++ {
+			if k >= len(f) || !ValidName(f[k]) {
+				return table.Errorf(p.name, ln, at, "accepted-disagreement: OBSERVABLE COLUMN TEAM-A TEAM-B, then the reason")
+			}
+			at += len(f[k]) + 1
 		}
+		if len(f) < 5 {
+			return table.Errorf(p.name, ln, at, "accepted-disagreement: the reason is missing")
+		}
+		if err := checkText(f[4]); err != nil {
+			return table.Errorf(p.name, ln, at+textOffset(err), "accepted-disagreement: the reason: %v", err)
+		}
+		st.Accepted = append(st.Accepted, v)
 	case "accepted-risk":
 		slot, reason, _ := strings.Cut(v, " ")
 		if o, c, ok := strings.Cut(slot, "/"); !ok || !ValidName(o) || !ValidName(c) {
@@ -398,6 +420,7 @@ func (p *stmtParser) crossCheck() error {
 	}
 	seen := map[string]bool{}
 	fail := false
+	var failing []string
 	for i, l := range st.Compared {
 		f := strings.Split(l, " ")
 		id := strings.Join(f[:4], " ")
@@ -411,17 +434,13 @@ func (p *stmtParser) crossCheck() error {
 			}
 		}
 		fail = fail || f[4] == "fail"
+		if f[4] == "fail" {
+			failing = append(failing, id)
+		}
 	}
 	if want := map[bool]string{false: "pass", true: "fail"}[fail]; st.Verdict != want {
 		return table.Errorf(p.name, p.lineOf["verdict"], 10, "verdict %s, but %s", st.Verdict,
 			map[bool]string{false: "every compared line passes", true: "a compared line fails"}[fail])
-	}
-	if (st.Verdict == "fail") != (st.Accepted != "") {
-		ln := p.lineOf["verdict"]
-		if st.Accepted != "" {
-			ln = p.lineOf["accepted-disagreement"]
-		}
-		return table.Errorf(p.name, ln, 1, "an accepted-disagreement line goes with verdict fail, and only with it")
 	}
 	risks := map[string]bool{}
 	for i, r := range st.AcceptedRisks {
@@ -437,6 +456,20 @@ func (p *stmtParser) crossCheck() error {
 	}
 	if d != st.Comparison {
 		return table.Errorf(p.name, p.lineOf["comparison"], 13, "comparison %.12s… is not the digest of the lines above (%.12s…): the listed comparisons are not the ones the digest binds", st.Comparison, d)
+	}
+	for i, a := range st.Accepted {
+		f := strings.SplitN(a, " ", 5)
+		id := strings.Join(f[:4], " ")
+		if i >= len(failing) || failing[i] != id {
+			return table.Errorf(p.name, at("accepted-disagreement", i), 24, "accepted-disagreement: %s is not the next failing compared line (each failing comparison has one accepted-disagreement line, in the order of the compared lines)", id)
+		}
+	}
+	if len(st.Accepted) < len(failing) {
+		ln := p.lineOf["verdict"]
+		if len(st.Accepted) > 0 {
+			ln = at("accepted-disagreement", len(st.Accepted)-1)
+		}
+		return table.Errorf(p.name, ln, 1, "the failing comparison %s has no accepted-disagreement line", failing[len(st.Accepted)])
 	}
 	return nil
 }

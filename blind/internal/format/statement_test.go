@@ -22,7 +22,7 @@ func testStatement(t *testing.T) *Statement {
 		Sealed:   []string{"heron/rate v1 " + hexOf("s1") + " by heron " + fp, "otter/rate v2 " + hexOf("s2") + " by otter " + fp},
 		Blinded:  []string{"heron/rate " + hexOf("b1"), "otter/rate " + hexOf("b2")},
 		Compared: []string{"rate value heron otter pass", "rate width heron otter fail"},
-		Verdict:  "fail", Accepted: "understood", AcceptedRisks: []string{"rate/value public errors"}}
+		Verdict:  "fail", Accepted: []string{"rate width heron otter the width differs by the known resolution model"}, AcceptedRisks: []string{"rate/value public errors"}}
 	d, err := st.ComparisonDigest()
 	if err != nil {
 		t.Fatal(err)
@@ -46,7 +46,8 @@ func TestStatementValues(t *testing.T) {
 	// Line numbers of the good statement: 1 header, 2 campaign, 3 party,
 	// 4 role, 5 date, 6 protocol, 7 key-commitment, 8 ledger-head, 9-10
 	// sealed, 11-12 blinded, 13-14 compared, 15 comparison, 16 verdict,
-	// 17 accepted-disagreement, 18 accepted-risk.
+	// 17 accepted-disagreement (one per failing compared line), 18
+	// accepted-risk.
 	cases := []struct {
 		name, old, new, want string
 	}{
@@ -70,9 +71,13 @@ func TestStatementValues(t *testing.T) {
 		{"compared self", "rate width heron otter fail", "rate width otter otter fail", "s:14:"},
 		{"compared slot", "rate width heron otter fail", "rate width heron ibis fail", "s:14:11: compared: ibis/rate has no sealed and blinded line"},
 		{"compared twice", "rate width heron otter fail", "rate value heron otter fail", "s:14:11: compared: rate value heron otter is listed twice"},
-		{"verdict", "verdict: fail\naccepted-disagreement: understood\n", "verdict: pass\n", "s:16:10: verdict pass, but a compared line fails"},
-		{"reason", "accepted-disagreement: understood", "accepted-disagreement: under\u200fstood", "s:17:29: accepted-disagreement: the character U+200F"},
-		{"reason c1", "accepted-disagreement: understood", "accepted-disagreement: \u0085understood", "s:17:24: accepted-disagreement: the character U+0085"},
+		{"verdict", "verdict: fail\naccepted-disagreement: rate width heron otter the width differs by the known resolution model\n", "verdict: pass\n", "s:16:10: verdict pass, but a compared line fails"},
+		{"reason", "accepted-disagreement: rate width heron otter the", "accepted-disagreement: rate width heron otter th\u200fe", "s:17:49: accepted-disagreement: the reason: the character U+200F"},
+		{"reason c1", "accepted-disagreement: rate width heron otter the", "accepted-disagreement: rate width heron otter \u0085the", "s:17:47: accepted-disagreement: the reason: the character U+0085"},
+		{"reason missing", "accepted-disagreement: rate width heron otter the width differs by the known resolution model\n", "", "s:16:1: the failing comparison rate width heron otter has no accepted-disagreement line"},
+		{"reason of a passing comparison", "accepted-disagreement: rate width", "accepted-disagreement: rate value", "s:17:24: accepted-disagreement: rate value heron otter is not the next failing compared line"},
+		{"reason twice", "accepted-disagreement: rate width heron otter the width differs by the known resolution model\n", "accepted-disagreement: rate width heron otter the width differs by the known resolution model\naccepted-disagreement: rate width heron otter the width differs by the known resolution model\n", "s:18:24: accepted-disagreement: rate width heron otter is not the next failing"},
+		{"reason without comparison", "accepted-disagreement: rate width heron otter the width differs by the known resolution model", "accepted-disagreement: rate width heron", "s:17:"},
 		{"risk", "accepted-risk: rate/value", "accepted-risk: rate", "s:18:16: accepted-risk: \"rate\" is not OBSERVABLE/COLUMN"},
 		{"digest", "compared: rate value heron otter pass", "compared: rate value heron otter fail", "s:15:13: comparison"},
 		{"missing compared", "compared: rate value heron otter pass\ncompared: rate width heron otter fail\n", "", "s:13:1: expected a \"compared\" line before \"comparison\""},
