@@ -131,9 +131,9 @@ func runSync(e *env, args []string) error {
 	if err := checkOutputs(pos, outs); err != nil {
 		return err
 	}
-	var tabs [2]events.Table
+	var tabs [2]events.Source
 	for i, p := range pos {
-		t, err := events.Open(p, treeFuncs)
+		t, err := events.OpenSource(p, treeFuncs)
 		if err != nil {
 			return inputErr(err)
 		}
@@ -185,7 +185,7 @@ func runSync(e *env, args []string) error {
 // every blinded variable that sync compares or bins by. A blinded name
 // used as a key or a cut is refused: keys and cut decisions are shown as
 // they are.
-func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Table, opt *events.Options) error {
+func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Source, opt *events.Options) error {
 	if sf.campaign == "" {
 		if sf.identity != "" {
 			return usageErr("--identity goes with --campaign")

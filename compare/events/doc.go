@@ -6,7 +6,7 @@
 // each bin of a binned observable that both chains select, which sets the
 // correlation of their statistical errors.
 //
-// Tables are read as streams of [Batch]es through the [Table] interface
+// Tables are read as streams of [Batch]es through the [Source] interface
 // (CSV/TSV here, Parquet in events/parquet, ROOT trees through
 // [TreeFuncs]). When both tables are sorted by key, the two streams are
 // merged in one pass with memory independent of the event count. When they
