@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
 	"reflect"
 	"strings"
@@ -222,5 +223,33 @@ func TestBatchFlush(t *testing.T) {
 	b = &Batch{N: BatchRows - 1}
 	if err := b.added(func(*Batch) error { return stop }); err != stop {
 		t.Errorf("added did not return fn's error: %v", err)
+	}
+}
+
+// TestReadSummaryLevels: a summary file is input, so an α or a confidence
+// level outside (0, 1) is refused when it is read, before any test or
+// interval uses it (a level of 5 once reached the Clopper–Pearson interval).
+func TestReadSummaryLevels(t *testing.T) {
+	data, err := os.ReadFile("testdata/summary/ref.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	s, err := ReadSummary("ref.json", data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	alpha, cl := fmt.Sprintf(`"alpha": %v`, s.Alpha), fmt.Sprintf(`"cl": %v`, s.CL)
+	if !bytes.Contains(data, []byte(alpha)) || !bytes.Contains(data, []byte(cl)) {
+		t.Fatalf("ref.json does not hold %s and %s", alpha, cl)
+	}
+	for _, bad := range []string{`"alpha": 0`, `"alpha": 1`, `"alpha": -3`, `"cl": 0`, `"cl": 1`, `"cl": 5`} {
+		old := alpha
+		if strings.HasPrefix(bad, `"cl"`) {
+			old = cl
+		}
+		edited := bytes.Replace(data, []byte(old), []byte(bad), 1)
+		if _, err := ReadSummary("edited.json", edited); err == nil || !strings.Contains(err.Error(), "strictly between 0 and 1") {
+			t.Errorf("%s: %v", bad, err)
+		}
 	}
 }
