@@ -1,13 +1,12 @@
 package compare
 
 import (
-	"cmp"
-	"errors"
 	"fmt"
 	"math"
-	"slices"
 	"strconv"
 	"strings"
+
+	"tandem/compare/stats"
 )
 
 func (r *Result) warn(opt *Options, statistical bool) {
@@ -135,16 +134,11 @@ func (r *Result) settle() {
 // AdjustFamily decides the p-value criteria of every result together, so
 // that the probability that any of them fails when all comparisons agree is
 // at most alpha, whatever the dependence between them: Holm's step-down
-// method (S. Holm, "A simple sequentially rejective multiple test
-// procedure", Scand. J. Statist. 6 (1979) 65–70). With the m p-values
-// sorted, p_(1) <= … <= p_(m), the adjusted p-values are
-//
-//	p̃_(j) = max_{i<=j} min(1, (m - i + 1) p_(i))
-//
-// and a criterion passes when p̃ > alpha. A campaign passes all its
-// results (every observable, column and team pair) at once; table mode
-// passes the results of one command. Each result's Pass, Alpha and Family
-// are updated.
+// method, [stats.Holm], over the m p-value criteria of all the results. A
+// criterion passes when its adjusted p-value p̃ > alpha; an undefined
+// (NaN) p-value never passes. A campaign passes all its results (every
+// observable, column and team pair) at once; table mode passes the results
+// of one command. Each result's Pass, Alpha and Family are updated.
 func AdjustFamily(results []*Result, alpha float64) error {
 	type ref struct{ r, c int }
 	var refs []ref
@@ -158,21 +152,13 @@ func AdjustFamily(results []*Result, alpha float64) error {
 	if len(refs) > 0 && (math.IsNaN(alpha) || alpha <= 0 || alpha >= 1) {
 		return fmt.Errorf("alpha must be in (0, 1), got %v", alpha)
 	}
-	crit := func(x ref) *Criterion { return &results[x.r].Criteria[x.c] }
-	pv := func(x ref) float64 {
-		v := crit(x).Value
-		if math.IsNaN(v) {
-			return 0 // an undefined p-value never passes
-		}
-		return v
+	ps := make([]float64, len(refs))
+	for i, x := range refs {
+		ps[i] = results[x.r].Criteria[x.c].Value
 	}
-	slices.SortStableFunc(refs, func(x, y ref) int { return cmp.Compare(pv(x), pv(y)) })
-	m := len(refs)
-	run := 0.0
-	for j, x := range refs {
-		run = math.Max(run, math.Min(1, float64(m-j)*pv(x)))
-		c := crit(x)
-		adj := run
+	for i, adj := range stats.Holm(ps) {
+		x := refs[i]
+		c := &results[x.r].Criteria[x.c]
 		c.Adjusted = &adj
 		c.Limit = alpha
 		c.Pass = adj > alpha
@@ -181,6 +167,7 @@ func AdjustFamily(results []*Result, alpha float64) error {
 			c.Detail = c.why
 		}
 	}
+	m := len(refs)
 	for _, r := range results {
 		r.Alpha, r.Family = alpha, m
 		for i := range r.Criteria {
@@ -234,5 +221,3 @@ func binList(bins []int) string {
 	}
 	return b.String()
 }
-
-var _ = errors.New

@@ -101,6 +101,32 @@ func TestHolm(t *testing.T) {
 	}
 }
 
+// TestHolmNaN: an undefined p-value never passes, and AdjustFamily follows
+// the same rule as the cut-flow tests of compare/events because both call
+// stats.Holm: the NaN criterion fails with adjusted p 0, and still counts
+// in the family: m = 3, and the NaN sorts first, so 0.3 and 0.4 are
+// adjusted to 2·0.3 and max(0.4, 0.6).
+func TestHolmNaN(t *testing.T) {
+	r := &Result{Criteria: []Criterion{
+		{Name: "undefined", Kind: KindPValue, Value: math.NaN()}, {Name: "fine", Kind: KindPValue, Value: 0.3},
+		{Name: "also", Kind: KindPValue, Value: 0.4},
+	}}
+	if err := AdjustFamily([]*Result{r}, 0.01); err != nil {
+		t.Fatal(err)
+	}
+	if c := r.Criteria[0]; c.Pass || *c.Adjusted != 0 || c.Detail != c.why {
+		t.Errorf("NaN p-value: pass %v, adjusted %v, detail %q", c.Pass, *c.Adjusted, c.Detail)
+	}
+	for _, c := range r.Criteria[1:] {
+		if !c.Pass || math.Abs(*c.Adjusted-0.6) > 1e-15 {
+			t.Errorf("%s beside a NaN: pass %v, adjusted %v, want 0.6", c.Name, c.Pass, *c.Adjusted)
+		}
+	}
+	if r.Pass || r.Family != 3 {
+		t.Errorf("result passes (%v) or family %d != 3", r.Pass, r.Family)
+	}
+}
+
 // TestCovarianceFromCorrelation: with diagonal covariance matrices, a
 // declared ρ gives C = ρ L_a L_bᵀ = diag(ρ σ_a σ_b): χ² equals the per-bin
 // Σ p_i² with the same ρ. A blinding map (V_ij scaled by s_i s_j) leaves χ²

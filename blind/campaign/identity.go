@@ -14,8 +14,8 @@ import (
 	"filippo.io/age/agessh"
 	"golang.org/x/crypto/ssh"
 
-	"tandem/blind/safefile"
 	"tandem/compare/table"
+	"tandem/report/outfile"
 )
 
 // ParseIdentity reads a custodian identity: an age identity file (lines
@@ -76,7 +76,7 @@ func GenerateCustodian(path string, now time.Time) (string, error) {
 	}
 	rcpt := id.Recipient().String()
 	body := fmt.Sprintf("# tandem custodian identity, created %s\n# public key: %s\n%s\n", now.UTC().Format(time.RFC3339), rcpt, id.String())
-	if err := safefile.Create(path, []byte(body), 0o600); err != nil {
+	if err := outfile.Create(path, []byte(body), 0o600); err != nil {
 		return "", err
 	}
 	return rcpt, nil

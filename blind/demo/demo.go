@@ -26,8 +26,8 @@ import (
 	"golang.org/x/crypto/ssh"
 
 	"tandem/blind/campaign"
-	"tandem/blind/safefile"
 	"tandem/compare/table"
+	"tandem/report/outfile"
 )
 
 // Steps are the campaign steps the demo runs, in order.
@@ -171,7 +171,7 @@ func Run(dir string, opt Options) (*Result, error) {
 		return nil, err
 	}
 	logf("made SSH keys for heron, otter and ibis, the custodian's SSH signing key (%s) and its age identity (%s) in %s, outside the campaign folder", CustodianSigningKey, CustodianIdentity, keys)
-	if err := safefile.Create(filepath.Join(dir, campaign.ProtocolFile), []byte(protocolText(rcpt, pubs)), 0o644); err != nil {
+	if err := outfile.Create(filepath.Join(dir, campaign.ProtocolFile), []byte(protocolText(rcpt, pubs)), 0o644); err != nil {
 		return nil, err
 	}
 	logf("wrote the protocol %s: 3 observables, quorum heron + otter + ibis", filepath.Join(dir, campaign.ProtocolFile))
@@ -296,7 +296,7 @@ func writeTables(tables string) error {
 			if err := chainOutput(p.name, o).WriteCSV(&b); err != nil {
 				return err
 			}
-			if err := safefile.Create(filepath.Join(tables, p.name, o+".csv"), []byte(b.String()), 0o644); err != nil {
+			if err := outfile.Create(filepath.Join(tables, p.name, o+".csv"), []byte(b.String()), 0o644); err != nil {
 				return err
 			}
 		}
@@ -358,7 +358,7 @@ func makeSSHKey(path, comment string) (ssh.Signer, string, error) {
 	if err != nil {
 		return nil, "", err
 	}
-	if err := safefile.Create(path, pem.EncodeToMemory(block), 0o600); err != nil {
+	if err := outfile.Create(path, pem.EncodeToMemory(block), 0o600); err != nil {
 		return nil, "", err
 	}
 	sp, err := ssh.NewPublicKey(pub)
@@ -366,7 +366,7 @@ func makeSSHKey(path, comment string) (ssh.Signer, string, error) {
 		return nil, "", err
 	}
 	line := strings.TrimSpace(string(ssh.MarshalAuthorizedKey(sp))) + " " + comment
-	if err := safefile.Create(path+".pub", []byte(line+"\n"), 0o644); err != nil {
+	if err := outfile.Create(path+".pub", []byte(line+"\n"), 0o644); err != nil {
 		return nil, "", err
 	}
 	signer, err := ssh.NewSignerFromKey(priv)

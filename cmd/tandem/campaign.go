@@ -18,10 +18,10 @@ import (
 	"tandem/blind/campaign"
 	"tandem/blind/keykind"
 	"tandem/blind/protocol"
-	"tandem/blind/safefile"
 	"tandem/compare/input"
 	"tandem/compare/rootfile"
 	"tandem/compare/table"
+	"tandem/report/outfile"
 )
 
 // The custodian identity may come from the environment, for CI jobs:
@@ -169,7 +169,7 @@ func runInit(e *env, args []string) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return inputErr(err)
 	}
-	if err := safefile.Create(proto, []byte(protocol.Template(id, recipient, "")), 0o644); err != nil {
+	if err := outfile.Create(proto, []byte(protocol.Template(id, recipient, "")), 0o644); err != nil {
 		return inputErr(err)
 	}
 	e.infof("wrote a starting protocol to %s", proto)

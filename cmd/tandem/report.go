@@ -10,10 +10,10 @@ import (
 	"strings"
 	"sync"
 
-	"tandem/blind/safefile"
 	"tandem/compare"
 	"tandem/compare/table"
 	"tandem/report"
+	"tandem/report/outfile"
 )
 
 // notComplete is exit status 1 with the verdict in words when the
@@ -61,7 +61,7 @@ func emitStamped(e *env, s *compare.Summary, format, path string, stamp *report.
 		// streams to stdout.
 		return report.Render(e.stdout, format, s, st)
 	}
-	err := safefile.WriteFrom(path, 0o644, func(w io.Writer) error { return report.Render(w, format, s, st) })
+	err := outfile.WriteFrom(path, 0o644, func(w io.Writer) error { return report.Render(w, format, s, st) })
 	if err != nil {
 		return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", path, err)}
 	}

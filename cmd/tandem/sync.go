@@ -15,10 +15,10 @@ import (
 	"time"
 
 	"tandem/blind/protocol"
-	"tandem/blind/safefile"
 	"tandem/compare/events"
 	"tandem/compare/table"
 	"tandem/report"
+	"tandem/report/outfile"
 )
 
 const syncHelp = `Usage:
@@ -131,9 +131,9 @@ func runSync(e *env, args []string) error {
 	if err := checkOutputs(pos, outs); err != nil {
 		return err
 	}
-	var tabs [2]events.Table
+	var tabs [2]events.Source
 	for i, p := range pos {
-		t, err := events.Open(p, treeFuncs)
+		t, err := events.OpenSource(p, treeFuncs)
 		if err != nil {
 			return inputErr(err)
 		}
@@ -169,12 +169,12 @@ func runSync(e *env, args []string) error {
 	}
 	r := events.Evaluate(s)
 	if sf.summaryOut != "" {
-		if err := safefile.WriteFrom(sf.summaryOut, 0o644, func(w io.Writer) error { return events.WriteSummary(w, s) }); err != nil {
+		if err := outfile.WriteFrom(sf.summaryOut, 0o644, func(w io.Writer) error { return events.WriteSummary(w, s) }); err != nil {
 			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", sf.summaryOut, err)}
 		}
 	}
 	if sf.unmatchedOut != "" {
-		if err := safefile.Write(sf.unmatchedOut, unmatched.Bytes(), 0o644); err != nil {
+		if err := outfile.Write(sf.unmatchedOut, unmatched.Bytes(), 0o644); err != nil {
 			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", sf.unmatchedOut, err)}
 		}
 	}
@@ -185,7 +185,7 @@ func runSync(e *env, args []string) error {
 // every blinded variable that sync compares or bins by. A blinded name
 // used as a key or a cut is refused: keys and cut decisions are shown as
 // they are.
-func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Table, opt *events.Options) error {
+func (sf *syncFlags) campaignBlind(e *env, tabs [2]events.Source, opt *events.Options) error {
 	if sf.campaign == "" {
 		if sf.identity != "" {
 			return usageErr("--identity goes with --campaign")
@@ -326,7 +326,7 @@ func finishSync(e *env, r *events.Result, format, output, overlapOut string) err
 		if r.Binning == nil {
 			return usageErr("--overlap-out needs --bin-var and --bin-edges")
 		}
-		if err := safefile.WriteFrom(overlapOut, 0o644, r.WriteOverlap); err != nil {
+		if err := outfile.WriteFrom(overlapOut, 0o644, r.WriteOverlap); err != nil {
 			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", overlapOut, err)}
 		}
 	}
@@ -340,7 +340,7 @@ func finishSync(e *env, r *events.Result, format, output, overlapOut string) err
 			return err
 		}
 	} else {
-		if err := safefile.WriteFrom(output, 0o644, func(w io.Writer) error { return report.RenderSync(w, format, r, st) }); err != nil {
+		if err := outfile.WriteFrom(output, 0o644, func(w io.Writer) error { return report.RenderSync(w, format, r, st) }); err != nil {
 			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", output, err)}
 		}
 		e.infof("%s: wrote %s report (%s)", output, format, map[bool]string{true: "pass", false: "fail"}[r.Pass])
@@ -485,7 +485,7 @@ func runSyncMerge(e *env, args []string) error {
 		e.warnf("%s", w)
 	}
 	if summaryOut != "" {
-		if err := safefile.WriteFrom(summaryOut, 0o644, func(w io.Writer) error { return events.WriteSummary(w, s) }); err != nil {
+		if err := outfile.WriteFrom(summaryOut, 0o644, func(w io.Writer) error { return events.WriteSummary(w, s) }); err != nil {
 			return &exitError{code: 2, err: fmt.Errorf("writing %s: %v", summaryOut, err)}
 		}
 	}

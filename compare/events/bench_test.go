@@ -145,11 +145,11 @@ func benchSync(b *testing.B, ext string) {
 	dir := benchFiles(b, n)
 	b.ResetTimer()
 	for b.Loop() {
-		ta, err := Open(filepath.Join(dir, fmt.Sprintf("events_a_%d.%s", n, ext)), TreeFuncs{})
+		ta, err := OpenSource(filepath.Join(dir, fmt.Sprintf("events_a_%d.%s", n, ext)), TreeFuncs{})
 		if err != nil {
 			b.Fatal(err)
 		}
-		tb, err := Open(filepath.Join(dir, fmt.Sprintf("events_b_%d.%s", n, ext)), TreeFuncs{})
+		tb, err := OpenSource(filepath.Join(dir, fmt.Sprintf("events_b_%d.%s", n, ext)), TreeFuncs{})
 		if err != nil {
 			b.Fatal(err)
 		}

@@ -26,10 +26,10 @@ type csvTable struct {
 }
 
 // OpenCSV opens a CSV or TSV event table. It reads the header and the
-// first row (to tell the columns' kinds) and nothing more; [Table.Scan]
+// first row (to tell the columns' kinds) and nothing more; [Source.Scan]
 // reads the file again from the start. A ".tsv" suffix or a header with
 // tabs and no commas selects tab separation.
-func OpenCSV(path string) (Table, error) {
+func OpenCSV(path string) (Source, error) {
 	fi, err := os.Stat(path)
 	if err != nil {
 		return nil, table.Errorf(path, 0, 0, "%v", unwrapPath(err))
@@ -45,7 +45,7 @@ func OpenCSV(path string) (Table, error) {
 }
 
 // NewCSV reads an event table from memory; name is used in messages.
-func NewCSV(name string, data []byte) (Table, error) {
+func NewCSV(name string, data []byte) (Source, error) {
 	t := &csvTable{path: name, open: func() (io.ReadCloser, error) {
 		return io.NopCloser(bytes.NewReader(data)), nil
 	}}
@@ -256,22 +256,9 @@ func (t *csvTable) Scan(l Layout, fn func(*Batch) error) error {
 		b.Vals = append(b.Vals, vals...)
 		b.Cuts = append(b.Cuts, cuts)
 		b.Pos = append(b.Pos, no)
-		b.N++
-		if b.N == BatchRows {
-			if err := fn(b); err != nil {
-				return err
-			}
-			b.reset()
-		}
-		return nil
+		return b.added(fn)
 	})
-	if err != nil {
-		return err
-	}
-	if b.N > 0 {
-		return fn(b)
-	}
-	return nil
+	return b.last(err, fn)
 }
 
 // fieldErr reports a field that does not parse, after checking that the

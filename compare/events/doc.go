@@ -6,7 +6,7 @@
 // each bin of a binned observable that both chains select, which sets the
 // correlation of their statistical errors.
 //
-// Tables are read as streams of [Batch]es through the [Table] interface
+// Tables are read as streams of [Batch]es through the [Source] interface
 // (CSV/TSV here, Parquet in events/parquet, ROOT trees through
 // [TreeFuncs]). When both tables are sorted by key, the two streams are
 // merged in one pass with memory independent of the event count. When they
@@ -38,7 +38,8 @@
 // only in A and n_B¬A only in B. Under the hypothesis that the chains keep
 // events alike, each discordant event is equally likely to be either kind
 // (McNemar 1947), so the exact two-sided p-value is that of the binomial
-// test of n_A¬B successes in n_A¬B + n_B¬A trials with p = 1/2. Per-chain
+// test of n_A¬B successes in n_A¬B + n_B¬A trials with p = 1/2
+// ([stats.McNemar]), Holm-adjusted over the steps ([stats.Holm]). Per-chain
 // step efficiencies have Clopper–Pearson intervals (Clopper and Pearson
-// 1934) from beta quantiles.
+// 1934; [stats.ClopperPearson]).
 package events

@@ -77,6 +77,9 @@ func ReadSummary(name string, data []byte) (*Summary, error) {
 	if err := sameShape(&s, &s); err != nil {
 		return nil, table.Errorf(name, 0, 0, "%v", err)
 	}
+	if !(s.Alpha > 0 && s.Alpha < 1) || !(s.CL > 0 && s.CL < 1) {
+		return nil, table.Errorf(name, 0, 0, "malformed summary: alpha %v and confidence level %v must both lie strictly between 0 and 1", s.Alpha, s.CL)
+	}
 	if err := s.checkCounts(); err != nil {
 		return nil, table.Errorf(name, 0, 0, "malformed summary: %v", err)
 	}

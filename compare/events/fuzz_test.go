@@ -18,7 +18,7 @@ func seeds(f *testing.F, glob string) {
 
 // syncSelf runs a table against itself: a valid table must agree with
 // itself on every variable and cut.
-func syncSelf(t *testing.T, tb Table) {
+func syncSelf(t *testing.T, tb Source) {
 	cols, err := tb.Columns()
 	if err != nil {
 		return

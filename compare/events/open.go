@@ -2,10 +2,10 @@ package events
 
 import "strings"
 
-// Open opens an event table by its name: a ROOT tree (file.root:tree,
+// OpenSource opens an event table by its name: a ROOT tree (file.root:tree,
 // through trees, or RootTrees when trees is zero), a Parquet file
 // (.parquet, .pq) or else CSV/TSV.
-func Open(name string, trees TreeFuncs) (Table, error) {
+func OpenSource(name string, trees TreeFuncs) (Source, error) {
 	lower := strings.ToLower(name)
 	switch {
 	case IsTreeSpec(name):

@@ -23,7 +23,7 @@ type parquetTable struct {
 }
 
 // OpenParquet opens a Parquet event table and reads its schema.
-func OpenParquet(path string) (Table, error) {
+func OpenParquet(path string) (Source, error) {
 	if fi, err := os.Stat(path); err != nil {
 		return nil, table.Errorf(path, 0, 0, "%v", unwrapPath(err))
 	} else if fi.IsDir() {
@@ -34,11 +34,11 @@ func OpenParquet(path string) (Table, error) {
 
 // NewParquet reads a Parquet event table from memory; name is used in
 // messages.
-func NewParquet(name string, data []byte) (Table, error) {
+func NewParquet(name string, data []byte) (Source, error) {
 	return newParquet(name, func() (*file.Reader, error) { return file.NewParquetReader(bytes.NewReader(data)) })
 }
 
-func newParquet(name string, open func() (*file.Reader, error)) (t Table, err error) {
+func newParquet(name string, open func() (*file.Reader, error)) (t Source, err error) {
 	defer recoverInto(name, &err)
 	pt := &parquetTable{name: name, open: open, leaf: map[string]int{}}
 	r, err := open()

@@ -25,7 +25,7 @@ func needTool(t *testing.T, msg string) {
 }
 
 // collect reads every row of a table into one batch.
-func collect(t *testing.T, tb Table, l Layout) *Batch {
+func collect(t *testing.T, tb Source, l Layout) *Batch {
 	t.Helper()
 	all := &Batch{}
 	err := tb.Scan(l, func(b *Batch) error {

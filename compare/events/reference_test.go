@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"tandem/compare/stats"
 )
 
 // The reference values come from testdata/reference/events_make_reference.py
@@ -157,7 +159,7 @@ func TestAgainstPandasAndScipy(t *testing.T) {
 func TestMcNemarAgainstScipy(t *testing.T) {
 	ref := loadReference(t)
 	for _, c := range ref.McNemar {
-		if got := McNemar(c.N1, c.N2); !near(got, c.PValue, 1e-10) {
+		if got := stats.McNemar(c.N1, c.N2); !near(got, c.PValue, 1e-10) {
 			t.Errorf("McNemar(%d, %d) = %v, scipy binomtest %v", c.N1, c.N2, got, c.PValue)
 		}
 	}

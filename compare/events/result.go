@@ -8,11 +8,9 @@ import (
 	"io"
 	"math"
 	"slices"
-	"sort"
 	"strconv"
 
-	"gonum.org/v1/gonum/mathext"
-	"gonum.org/v1/gonum/stat/distuv"
+	"tandem/compare/stats"
 )
 
 // Step is the comparison at one cut-flow step. A and B count the events of
@@ -75,68 +73,12 @@ type Result struct {
 	Failures []string
 }
 
-// McNemar returns the exact two-sided p-value of McNemar's test for n1 and
-// n2 discordant events: the binomial test of n1 in n1+n2 trials with p = ½,
-//
-//	p = min(1, 2·P(X <= min(n1, n2))),  X ~ Binomial(n1+n2, ½)
-//
-// and 1 when there is no discordant event. P(X <= k) is the regularised
-// incomplete beta function I_½(n−k, k+1).
-func McNemar(n1, n2 int64) float64 {
-	n := n1 + n2
-	if n == 0 || n1 == n2 {
-		return 1
-	}
-	k := min(n1, n2)
-	p := 2 * mathext.RegIncBeta(float64(n-k), float64(k+1), 0.5)
-	return math.Min(1, p)
-}
-
-// ClopperPearson returns the central interval of confidence level cl for a
-// binomial proportion with k successes in n trials:
-//
-//	lo = B⁻¹(α/2; k, n−k+1),  hi = B⁻¹(1−α/2; k+1, n−k),  α = 1 − cl
-//
-// with lo = 0 when k = 0 and hi = 1 when k = n.
-func ClopperPearson(k, n int64, cl float64) (lo, hi float64) {
-	if n <= 0 {
-		return 0, 1
-	}
-	a := 1 - cl
-	lo, hi = 0, 1
-	if k > 0 {
-		lo = distuv.Beta{Alpha: float64(k), Beta: float64(n - k + 1)}.Quantile(a / 2)
-	}
-	if k < n {
-		hi = distuv.Beta{Alpha: float64(k + 1), Beta: float64(n - k)}.Quantile(1 - a/2)
-	}
-	return lo, hi
-}
-
-// Holm returns Holm's step-down adjusted p-values (Holm 1979):
-// for p sorted ascending, p̃_(i) = max_{j<=i} min(1, (m−j+1)·p_(j)).
-func Holm(p []float64) []float64 {
-	m := len(p)
-	idx := make([]int, m)
-	for i := range idx {
-		idx[i] = i
-	}
-	sort.SliceStable(idx, func(x, y int) bool { return p[idx[x]] < p[idx[y]] })
-	out := make([]float64, m)
-	run := 0.0
-	for j, i := range idx {
-		run = math.Max(run, math.Min(1, float64(m-j)*p[i]))
-		out[i] = run
-	}
-	return out
-}
-
 func eff(k, n int64, cl float64) Efficiency {
 	e := Efficiency{K: k, N: n, Value: math.NaN()}
 	if n > 0 {
 		e.Value = float64(k) / float64(n)
 	}
-	e.Lo, e.Hi = ClopperPearson(k, n, cl)
+	e.Lo, e.Hi = stats.ClopperPearson(k, n, cl)
 	return e
 }
 
@@ -225,7 +167,7 @@ func Evaluate(s *Summary) *Result {
 		}
 		st.ANotInB = st.A - st.Both - st.OnlyA
 		st.BNotInA = st.B - st.Both - st.OnlyB
-		st.PValue = McNemar(st.OnlyA, st.OnlyB)
+		st.PValue = stats.McNemar(st.OnlyA, st.OnlyB)
 		st.EffA, st.EffB = eff(st.A, prevA, s.CL), eff(st.B, prevB, s.CL)
 		prevA, prevB = st.A, st.B
 		if r.FirstDiscordant < 0 && st.OnlyA+st.OnlyB > 0 {
@@ -234,7 +176,7 @@ func Evaluate(s *Summary) *Result {
 		ps = append(ps, st.PValue)
 		r.Steps = append(r.Steps, st)
 	}
-	for k, p := range Holm(ps) {
+	for k, p := range stats.Holm(ps) {
 		st := &r.Steps[k]
 		st.Adjusted = p
 		if p < s.Alpha {
@@ -247,7 +189,7 @@ func Evaluate(s *Summary) *Result {
 				st.Cut, st.PValue, p, s.Alpha))
 		}
 	}
-	r.PValue = McNemar(s.OnlyA, s.OnlyB)
+	r.PValue = stats.McNemar(s.OnlyA, s.OnlyB)
 	for _, b := range s.Bins {
 		rho := 0.0
 		if b.NA > 0 && b.NB > 0 {

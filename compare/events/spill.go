@@ -328,7 +328,7 @@ func (ld *loader) sortKeys(keys []int64, nk, n int) []uint32 {
 // partitioned is the path for tables not sorted by key: both are read
 // into hash partitions at once, then each partition is sorted and merged.
 // It returns the bytes spilled to the temporary folder.
-func partitioned(a, b Table, acc *acc, dir string) (int64, error) {
+func partitioned(a, b Source, acc *acc, dir string) (int64, error) {
 	l := acc.o.Layout
 	// Each table's rows get 7/16 of the budget: an eighth is left for the
 	// sort buffers, the batches and the readers.
@@ -340,7 +340,7 @@ func partitioned(a, b Table, acc *acc, dir string) (int64, error) {
 	defer spills[0].close()
 	defer spills[1].close()
 	errs := make(chan error, 2)
-	for i, t := range []Table{a, b} {
+	for i, t := range []Source{a, b} {
 		go func() {
 			errs <- t.Scan(l, func(bt *Batch) error {
 				if err := spills[i].add(bt); err != nil {

@@ -152,7 +152,7 @@ func (o *Options) prepare(ca, cb []ColumnInfo, nameA, nameB string) error {
 // rows are hash-partitioned (spilled to a temporary folder beyond
 // MemBudget) and each partition is sorted and merged. Duplicate keys in a
 // table are an error naming both positions.
-func Sync(a, b Table, o Options) (*Summary, error) {
+func Sync(a, b Source, o Options) (*Summary, error) {
 	ca, err := a.Columns()
 	if err != nil {
 		return nil, err
@@ -504,7 +504,7 @@ func (a *acc) finishList(f *os.File) error {
 
 // cursor walks the rows of one table in key order, checking the order.
 type cursor struct {
-	t      Table
+	t      Source
 	names  []string
 	side   int
 	nk, nv int
@@ -625,7 +625,7 @@ type feed struct {
 	last *Batch
 }
 
-func startFeed(t Table, l Layout, progress func(n int)) *feed {
+func startFeed(t Source, l Layout, progress func(n int)) *feed {
 	f := &feed{ch: make(chan *Batch, 4), free: make(chan *Batch, 8), done: make(chan struct{})}
 	go func() {
 		defer close(f.ch)
@@ -680,7 +680,7 @@ func (f *feed) stop() {
 	}
 }
 
-func sortedMerge(a, b Table, acc *acc) error {
+func sortedMerge(a, b Source, acc *acc) error {
 	l := acc.o.Layout
 	fa := startFeed(a, l, func(n int) { acc.progress(0, n) })
 	fb := startFeed(b, l, func(n int) { acc.progress(1, n) })

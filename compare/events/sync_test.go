@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
 	"reflect"
 	"strings"
@@ -13,7 +14,7 @@ import (
 	"tandem/compare/table"
 )
 
-func mustCSV(t *testing.T, name, s string) Table {
+func mustCSV(t *testing.T, name, s string) Source {
 	t.Helper()
 	tb, err := NewCSV(name, []byte(s))
 	if err != nil {
@@ -22,7 +23,7 @@ func mustCSV(t *testing.T, name, s string) Table {
 	return tb
 }
 
-func refTables(t *testing.T) (Table, Table) {
+func refTables(t *testing.T) (Source, Source) {
 	a, err := OpenCSV(filepath.Join(refDir, "events_a.csv"))
 	if err != nil {
 		t.Fatal(err)
@@ -91,7 +92,7 @@ func TestMergeEqualsWhole(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	split := func(tb Table, low bool) Table {
+	split := func(tb Source, low bool) Source {
 		var sb strings.Builder
 		all := collect(t, tb, Layout{Keys: []string{"run", "event"}, Vars: []string{"energy", "angle", "hits"}, Cuts: refLayout.Cuts})
 		sb.WriteString("run,event,energy,angle,hits,trigger,quality,fiducial\n")
@@ -185,6 +186,70 @@ func TestHistogramBins(t *testing.T) {
 		}
 		if c.want >= 2 && !(HistEdge(c.want) <= c.r*(1+1e-12) && c.r < HistEdge(c.want+1)) {
 			t.Errorf("%v not in [%v, %v)", c.r, HistEdge(c.want), HistEdge(c.want+1))
+		}
+	}
+}
+
+// TestBatchFlush: rows added one by one reach fn in full batches of
+// BatchRows, then one partial batch; an error from the scan or from fn
+// stops the flushing.
+func TestBatchFlush(t *testing.T) {
+	var sizes []int
+	var pos []int64
+	fn := func(b *Batch) error {
+		sizes = append(sizes, b.N)
+		pos = append(pos, b.Pos...)
+		return nil
+	}
+	b := &Batch{}
+	const rows = 2*BatchRows + 3
+	for i := range int64(rows) {
+		b.Pos = append(b.Pos, i)
+		if err := b.added(fn); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := b.last(nil, fn); err != nil {
+		t.Fatal(err)
+	}
+	if len(sizes) != 3 || sizes[0] != BatchRows || sizes[1] != BatchRows || sizes[2] != 3 || len(pos) != rows || pos[rows-1] != rows-1 {
+		t.Errorf("batches %v, %d positions", sizes, len(pos))
+	}
+	stop := errors.New("stop")
+	b = &Batch{N: 1}
+	if err := b.last(stop, fn); err != stop || len(sizes) != 3 {
+		t.Errorf("last after a failed scan: %v, %d batches", err, len(sizes))
+	}
+	b = &Batch{N: BatchRows - 1}
+	if err := b.added(func(*Batch) error { return stop }); err != stop {
+		t.Errorf("added did not return fn's error: %v", err)
+	}
+}
+
+// TestReadSummaryLevels: a summary file is input, so an α or a confidence
+// level outside (0, 1) is refused when it is read, before any test or
+// interval uses it (a level of 5 once reached the Clopper–Pearson interval).
+func TestReadSummaryLevels(t *testing.T) {
+	data, err := os.ReadFile("testdata/summary/ref.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	s, err := ReadSummary("ref.json", data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	alpha, cl := fmt.Sprintf(`"alpha": %v`, s.Alpha), fmt.Sprintf(`"cl": %v`, s.CL)
+	if !bytes.Contains(data, []byte(alpha)) || !bytes.Contains(data, []byte(cl)) {
+		t.Fatalf("ref.json does not hold %s and %s", alpha, cl)
+	}
+	for _, bad := range []string{`"alpha": 0`, `"alpha": 1`, `"alpha": -3`, `"cl": 0`, `"cl": 1`, `"cl": 5`} {
+		old := alpha
+		if strings.HasPrefix(bad, `"cl"`) {
+			old = cl
+		}
+		edited := bytes.Replace(data, []byte(old), []byte(bad), 1)
+		if _, err := ReadSummary("edited.json", edited); err == nil || !strings.Contains(err.Error(), "strictly between 0 and 1") {
+			t.Errorf("%s: %v", bad, err)
 		}
 	}
 }

@@ -70,11 +70,34 @@ func (b *Batch) reset() {
 // BatchRows is the number of rows readers put in one batch.
 const BatchRows = 4096
 
-// Table is one chain's event table. Scan may be called more than once
+// added counts a row just appended to b; when b holds BatchRows rows it
+// passes b to fn and empties it.
+func (b *Batch) added(fn func(*Batch) error) error {
+	b.N++
+	if b.N < BatchRows {
+		return nil
+	}
+	if err := fn(b); err != nil {
+		return err
+	}
+	b.reset()
+	return nil
+}
+
+// last ends a row-by-row scan that returned err: on success the rows left
+// in b, if any, go to fn.
+func (b *Batch) last(err error, fn func(*Batch) error) error {
+	if err != nil || b.N == 0 {
+		return err
+	}
+	return fn(b)
+}
+
+// Source is one chain's event table. Scan may be called more than once
 // (the unsorted path reads each table twice at most); each call streams
 // every row once, in file order, to fn, which must not keep the batch.
 // A Scan ends early, returning fn's error, when fn returns one.
-type Table interface {
+type Source interface {
 	// Name names the table in messages (a file name).
 	Name() string
 	// Unit names a position: "line", "row" or "entry".
@@ -87,7 +110,7 @@ type Table interface {
 
 // errAt locates an error at a position of t: a line of a text file goes in
 // the Line field, any other position in the message.
-func errAt(t Table, pos int64, format string, args ...any) *table.Error {
+func errAt(t Source, pos int64, format string, args ...any) *table.Error {
 	msg := fmt.Sprintf(format, args...)
 	if t.Unit() == "line" {
 		return table.Errorf(t.Name(), int(pos), 0, "%s", msg)

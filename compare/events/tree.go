@@ -29,7 +29,7 @@ type treeTable struct {
 }
 
 // OpenTree opens a TTree through f.
-func OpenTree(spec string, f TreeFuncs) (Table, error) {
+func OpenTree(spec string, f TreeFuncs) (Source, error) {
 	cols, err := f.Columns(spec)
 	if err != nil {
 		return nil, err
@@ -83,23 +83,10 @@ func (t *treeTable) Scan(l Layout, fn func(*Batch) error) error {
 		}
 		b.Cuts = append(b.Cuts, c)
 		b.Pos = append(b.Pos, entry)
-		b.N++
 		entry++
-		if b.N == BatchRows {
-			if err := fn(b); err != nil {
-				return err
-			}
-			b.reset()
-		}
-		return nil
+		return b.added(fn)
 	})
-	if err != nil {
-		return err
-	}
-	if b.N > 0 {
-		return fn(b)
-	}
-	return nil
+	return b.last(err, fn)
 }
 
 // IsTreeSpec reports whether a name points into a ROOT file

@@ -67,7 +67,7 @@ func TestTreeWrittenByGoHEP(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "a.root")
 	writeRefTree(t, path)
 	spec := path + ":dir/events"
-	tr, err := Open(spec, TreeFuncs{})
+	tr, err := OpenSource(spec, TreeFuncs{})
 	if err != nil {
 		t.Fatal(err)
 	}

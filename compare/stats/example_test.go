@@ -27,3 +27,24 @@ func ExampleRunsPValue() {
 	// Output:
 	// 5 positive, 5 negative, 2 runs, p = 0.00794 (2/252 = 0.00794)
 }
+
+// Four p-values adjusted by Holm's method (Holm 1979): sorted 0.005, 0.01,
+// 0.03, 0.04 are multiplied by 4, 3, 2, 1 and made non-decreasing, so at
+// α = 0.05 the first two are rejected and the last two are not (worked by
+// hand). A NaN would count as 0: an undefined p-value never passes.
+func ExampleHolm() {
+	adj := stats.Holm([]float64{0.01, 0.04, 0.03, 0.005})
+	fmt.Printf("%.3g\n", adj)
+	// Output:
+	// [0.03 0.06 0.06 0.02]
+}
+
+// A step that kept 45 of 50 events: the 68.27 % Clopper–Pearson interval
+// (Clopper and Pearson 1934) around 0.9; scipy 1.10.1 gives the same
+// four digits with binomtest(45, 50).proportion_ci(0.6827, method='exact').
+func ExampleClopperPearson() {
+	lo, hi := stats.ClopperPearson(45, 50, 0.6827)
+	fmt.Printf("0.9 in [%.4f, %.4f]\n", lo, hi)
+	// Output:
+	// 0.9 in [0.8380, 0.9425]
+}

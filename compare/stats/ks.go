@@ -3,9 +3,11 @@
 // distribution and the exact Wald–Wolfowitz runs distribution, and the
 // exact tests of count data: the two-sided binomial test ([BinomTest]),
 // McNemar's exact test ([McNemar]) and the randomized probability integral
-// transform with its uniformity test ([RandomizedPIT], [KSUniform]). The
-// χ², normal and binomial distributions come from gonum (stat/distuv,
-// mathext).
+// transform with its uniformity test ([RandomizedPIT], [KSUniform]); the
+// Clopper–Pearson interval of a proportion ([ClopperPearson]); and Holm's
+// adjustment of a family of p-values ([Holm]), the one every family in
+// tandem uses. The χ², normal, beta and binomial distributions come from
+// gonum (stat/distuv, mathext).
 package stats
 
 import (

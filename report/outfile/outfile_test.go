@@ -1,4 +1,4 @@
-package safefile
+package outfile
 
 import (
 	"errors"

@@ -1,9 +1,12 @@
-// Package safefile writes files so that a crash or an error leaves either
-// the old content or the new, never a torn or partial file: data goes to a
-// temporary file in the same directory, is synced, and is renamed (or, for
-// files that must not be overwritten, hard-linked) into place, and the
-// directory is synced after.
-package safefile
+// Package outfile writes the files tandem produces outside a campaign
+// folder (the -o reports of table mode and sync, summaries, unmatched-event
+// lists, and new files such as a protocol template or a key) so that a crash
+// or an error leaves either the old content or the new, never a torn or
+// partial file: data goes to a temporary file in the same directory, is
+// synced, and is renamed (or, for files that must not be overwritten,
+// hard-linked) into place, and the directory is synced after. Campaign files
+// go through blind/internal/safefs instead.
+package outfile
 
 import (
 	"errors"
