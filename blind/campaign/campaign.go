@@ -296,8 +296,6 @@ func (c *Campaign) protocolDigest() string {
 	return d
 }
 
-func isNotExist(err error) bool { return errors.Is(err, os.ErrNotExist) }
-
 func unwrapPath(err error) error {
 	var pe *os.PathError
 	if errors.As(err, &pe) {

@@ -282,12 +282,3 @@ func concurrentAmends(t *testing.T, keep int) {
 		t.Fatalf("verify after the agreeing amend: %s", reportText(r))
 	}
 }
-
-func mustDraft(t *testing.T, c *campaign.Campaign, party string) *campaign.Statement {
-	t.Helper()
-	st, _, err := c.Draft(party, "zenith=the tilt is understood")
-	if err != nil {
-		t.Fatal(err)
-	}
-	return st
-}

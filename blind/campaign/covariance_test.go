@@ -60,8 +60,7 @@ edges = ["lo", "hi"]
   accept_risk = "six bins: the self-audit refuses about one random key in twenty; this test checks the covariance scaling only"
 `
 	os.WriteFile(p, append(proto, []byte(extra)...), 0o644)
-	c, err := campaign.Init(dir, signer(t, dir, "custodian"))
-	if err != nil {
+	if _, err := campaign.Init(dir, signer(t, dir, "custodian")); err != nil {
 		t.Fatal(err)
 	}
 	ta, tb := covTable(0), covTable(15)
@@ -74,7 +73,7 @@ edges = ["lo", "hi"]
 	if fmt.Sprint(res.Opened) != "[cov_spectrum]" {
 		t.Fatalf("opened %v", res.Opened)
 	}
-	c = open(t, dir)
+	c := open(t, dir)
 	cmp, err := c.Compare()
 	if err != nil {
 		t.Fatal(err)

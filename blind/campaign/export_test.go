@@ -46,7 +46,7 @@ func RewriteLogs(dir string, entries []format.Entry, sign func(i int, e *format.
 		}
 		for log, x := range heads {
 			if log != e.Actor {
-				data[afterPrefix+log] = ref{x.seq, x.hash}.String()
+				data[afterPrefix+log] = ref(x).String()
 			}
 		}
 		e.Data = data

@@ -1654,14 +1654,6 @@ func campaignVectors(t *testing.T, out string) []*vector {
 	return vs
 }
 
-func mustRead(t *testing.T, p string) []byte {
-	b, err := os.ReadFile(p)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return b
-}
-
 // copyCampaign copies a campaign without its dot-files and reports/.
 func copyCampaign(src, dst string) error {
 	return filepath.WalkDir(src, func(p string, d os.DirEntry, err error) error {

@@ -113,7 +113,10 @@ func writeBenchParquet(b *testing.B, path string, cols [7][]float64) {
 	const group = 1 << 20
 	for lo := 0; lo < len(cols[0]); lo += group {
 		hi := min(lo+group, len(cols[0]))
-		rg := w.AppendRowGroup()
+		rg, err := w.AppendRowGroupChecked()
+		if err != nil {
+			b.Fatal(err)
+		}
 		for i := range names {
 			cw, err := rg.NextColumn()
 			if err != nil {

@@ -30,7 +30,7 @@ func TestAppendCSVMatchesTableWriter(t *testing.T) {
 	if got := AppendCSV(nil, tb); !bytes.Equal(got, want.Bytes()) {
 		t.Fatalf("AppendCSV differs from table.WriteCSV")
 	}
-	back, err := decodeCSV("x", string(want.Bytes()), 1, "lo", "hi")
+	back, err := decodeCSV("x", want.String(), 1, "lo", "hi")
 	if err != nil {
 		t.Fatal(err)
 	}
