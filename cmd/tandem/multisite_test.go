@@ -235,10 +235,11 @@ func siteEnv(home string) []string {
 		"GIT_AUTHOR_DATE=2026-01-15T12:00:00Z", "GIT_COMMITTER_DATE=2026-01-15T12:00:00Z",
 		"GIT_TERMINAL_PROMPT=0", "GIT_EDITOR=true", "GIT_MERGE_AUTOEDIT=no",
 		"GIT_ALLOW_PROTOCOL=file",
-		"GIT_CONFIG_COUNT=3",
+		"GIT_CONFIG_COUNT=4",
 		"GIT_CONFIG_KEY_0=init.defaultBranch", "GIT_CONFIG_VALUE_0=main",
 		"GIT_CONFIG_KEY_1=commit.gpgSign", "GIT_CONFIG_VALUE_1=false",
-		"GIT_CONFIG_KEY_2=advice.detachedHead", "GIT_CONFIG_VALUE_2=false",
+		"GIT_CONFIG_KEY_2=gc.auto", "GIT_CONFIG_VALUE_2=0",
+		"GIT_CONFIG_KEY_3=maintenance.auto", "GIT_CONFIG_VALUE_3=false",
 	)
 }
 
@@ -249,7 +250,8 @@ func (s *schedule) logf(format string, a ...any) {
 // fail ends the schedule, naming its seed and printing its step log.
 func (s *schedule) fail(format string, a ...any) {
 	s.t.Helper()
-	s.t.Fatalf("schedule seed %d: %s\nstep log:\n  %s", s.seed, fmt.Sprintf(format, a...), strings.Join(s.log, "\n  "))
+	s.t.Fatalf("schedule seed %d: %s\nstep log (rerun: go test ./cmd/tandem -run 'TestManySites/schedules/seed=%d$'):\n  %s",
+		s.seed, fmt.Sprintf(format, a...), s.seed, strings.Join(s.log, "\n  "))
 }
 
 // exec runs a command in dir and returns its exit status and output.
@@ -325,7 +327,8 @@ func firstLine(stderr string, code int) string {
 func (s *schedule) run() {
 	s.setUp()
 	for tick := 0; tick < randomTicks; tick++ {
-		st := s.sites[s.rng.IntN(len(s.sites))]
+		// the custodian, often a job run on every push, acts twice as often
+		st := s.sites[min(s.rng.IntN(len(s.sites)+1), len(s.sites)-1)]
 		switch r := s.rng.Float64(); {
 		case r < 0.25:
 			s.pull(st)
@@ -476,8 +479,14 @@ func (s *schedule) step(st *site) {
 			s.seal(st, unsealed, "")
 		case len(unsealed) > 0:
 			s.seal(st, unsealed[:1], "")
-		case s.reseals < 2 && !s.unblinded && s.rng.IntN(6) == 0:
-			s.seal(st, []int{s.rng.IntN(len(siteObservables))}, "a corrected efficiency")
+		case s.reseals < 2 && !s.unblinded && s.rng.IntN(3) == 0:
+			// a team that finds a mistake after the comparison opened
+			// (as its clone shows) seals a corrected table, a new round
+			if open := s.openIn(st); len(open) > 0 {
+				s.seal(st, open[s.rng.IntN(len(open)):][:1], "a corrected efficiency")
+			} else {
+				s.sign(st)
+			}
 		default:
 			s.sign(st)
 		}
@@ -490,6 +499,44 @@ func (s *schedule) step(st *site) {
 			s.unblind(st)
 		}
 	}
+}
+
+// siteStatus is the part of tandem status --format json the test reads.
+type siteStatus struct {
+	State       string `json:"state"`
+	Observables []struct {
+		Name  string `json:"name"`
+		State string `json:"state"`
+		Teams []struct {
+			Team    string `json:"team"`
+			Version int    `json:"version"`
+		} `json:"teams"`
+	} `json:"observables"`
+}
+
+func (s *schedule) status(st *site) *siteStatus {
+	code, stdout, stderr := s.tandem(st, "status", campaignDir, "--format", "json")
+	if code != 0 {
+		s.fail("%s: tandem status: exit %d\n%s", st.name, code, stderr)
+	}
+	var status siteStatus
+	if err := json.Unmarshal([]byte(stdout), &status); err != nil {
+		s.fail("%s: tandem status --format json: %v\n%s", st.name, err, stdout)
+	}
+	return &status
+}
+
+// openIn lists the observables open for comparison in a clone.
+func (s *schedule) openIn(st *site) []int {
+	var open []int
+	for _, o := range s.status(st).Observables {
+		for i, so := range siteObservables {
+			if o.Name == so.name && o.State == "open" {
+				open = append(open, i)
+			}
+		}
+	}
+	return open
 }
 
 // seal seals the given observables: one with --observable, several with
@@ -546,9 +593,11 @@ func (s *schedule) sign(st *site) {
 	}
 	s.signs++
 	// "signed off as P: PATH": the statement must reach every clone as written.
-	if m := regexp.MustCompile(`signed off as \S+: (\S+)`).FindStringSubmatch(stderr); m != nil {
-		s.record(st, m[1])
+	m := regexp.MustCompile(`signed off as \S+: (\S+)`).FindStringSubmatch(stderr)
+	if m == nil {
+		s.fail("%s: sign exited 0 without the line \"signed off as %s: STATEMENT\":\n%s", st.name, st.name, stderr)
 	}
+	s.record(st, m[1])
 	s.commit(st, st.name+": sign")
 }
 
@@ -767,23 +816,7 @@ func (s *schedule) checkFresh(name string, crlf bool) {
 	if crlf {
 		return
 	}
-	code, stdout, stderr := s.tandem(fresh, "status", campaignDir, "--format", "json")
-	if code != 0 {
-		s.fail("tandem status on a fresh clone: exit %d\n%s", code, stderr)
-	}
-	var status struct {
-		State       string `json:"state"`
-		Observables []struct {
-			Name  string `json:"name"`
-			Teams []struct {
-				Team    string `json:"team"`
-				Version int    `json:"version"`
-			} `json:"teams"`
-		} `json:"observables"`
-	}
-	if err := json.Unmarshal([]byte(stdout), &status); err != nil {
-		s.fail("tandem status --format json: %v\n%s", err, stdout)
-	}
+	status := s.status(fresh)
 	if status.State != "unblinded" {
 		s.fail("a fresh clone's status is %q, not unblinded", status.State)
 	}
