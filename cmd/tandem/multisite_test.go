@@ -195,9 +195,9 @@ type schedule struct {
 	sites    []*site
 	log      []string
 
-	seals       map[string]int // "team/observable" -> seals that exited 0
-	commitments []string       // every commitment a seal printed
-	written     map[string]string
+	seals       map[string]int    // "team/observable" -> seals that exited 0
+	commitments []string          // every commitment a seal printed
+	written     map[string]string // files steps said they wrote (path in a clone) -> SHA-256
 	signs       int
 	reseals     int
 	unblinded   bool
@@ -213,6 +213,9 @@ func newSchedule(t *testing.T, seed uint64, gitBin, bin string, keys *siteKeys, 
 		t.Fatal(err)
 	}
 	s.env = siteEnv(filepath.Join(root, "home"))
+	if err := os.MkdirAll(filepath.Join(root, "home"), 0o755); err != nil {
+		t.Fatal(err)
+	}
 	return s
 }
 
@@ -288,12 +291,23 @@ func (s *schedule) gitOK(dir string, args ...string) string {
 }
 
 // tandem runs a tandem step in a clone. Exit 0 is success and exit 1 a
-// refusal; anything else (bad input, a crash) fails the schedule.
+// refusal, which must leave the clone as it was; anything else (bad input,
+// a crash) fails the schedule.
 func (s *schedule) tandem(st *site, args ...string) (code int, stdout, stderr string) {
 	s.t.Helper()
+	return s.tandemIn(st, nil, args...)
+}
+
+// tandemIn is tandem with stdin as the standard input.
+func (s *schedule) tandemIn(st *site, stdin []byte, args ...string) (code int, stdout, stderr string) {
+	s.t.Helper()
 	before := snapshot(st.dir)
-	code, stdout, stderr = s.exec(st.dir, nil, s.bin, args...)
-	s.logf("%s: tandem %s -> exit %d%s", st.name, s.short(args), code, firstLine(stderr, code))
+	code, stdout, stderr = s.exec(st.dir, stdin, s.bin, args...)
+	pipe := ""
+	if stdin != nil {
+		pipe = " < table"
+	}
+	s.logf("%s: tandem %s%s -> exit %d%s", st.name, s.short(args), pipe, code, firstLine(stderr, code))
 	if code > 1 || code < 0 || strings.Contains(stderr, "panic:") || strings.Contains(stderr, "goroutine ") {
 		s.fail("%s: tandem %s exited %d (only 0 or 1 may happen here)\nstdout:\n%s\nstderr:\n%s", st.name, strings.Join(args, " "), code, stdout, stderr)
 	}
@@ -542,29 +556,38 @@ func (s *schedule) openIn(st *site) []int {
 	return open
 }
 
-// seal seals the given observables: one with --observable, several with
-// --table. A reason marks a replacement.
+// seal seals the given observables: one with --observable, its table
+// from a file or piped in as a chain would, several with --table. A reason
+// marks a replacement.
 func (s *schedule) seal(st *site, obs []int, reason string) {
 	args := []string{"seal", campaignDir, "--team", st.name, "--key", s.keys.key(st.name)}
 	if reason != "" {
 		args = append(args, "--reason", reason)
 	}
 	var files []string
+	var tables [][]byte
 	for _, i := range obs {
 		o := siteObservables[i]
 		f := filepath.Join(st.scratch, fmt.Sprintf("%s.v%d.csv", o.name, s.seals[st.name+"/"+o.name]+1))
-		if err := os.WriteFile(f, s.table(st.name, i, s.seals[st.name+"/"+o.name]+1), 0o644); err != nil {
+		tb := s.table(st.name, i, s.seals[st.name+"/"+o.name]+1)
+		if err := os.WriteFile(f, tb, 0o644); err != nil {
 			s.t.Fatal(err)
 		}
-		files = append(files, f)
+		files, tables = append(files, f), append(tables, tb)
 		if len(obs) > 1 {
 			args = append(args, "--table", o.name+"="+f)
 		}
 	}
+	var stdin []byte
 	if len(obs) == 1 {
-		args = append(args, "--observable", siteObservables[obs[0]].name, files[0])
+		args = append(args, "--observable", siteObservables[obs[0]].name)
+		if s.rng.IntN(2) == 0 {
+			stdin = tables[0]
+		} else {
+			args = append(args, files[0])
+		}
 	}
-	code, stdout, _ := s.tandem(st, args...)
+	code, stdout, _ := s.tandemIn(st, stdin, args...)
 	if code != 0 {
 		return
 	}
