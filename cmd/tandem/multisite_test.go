@@ -28,6 +28,7 @@ import (
 	"strings"
 	"sync/atomic"
 	"testing"
+	"time"
 
 	"filippo.io/age"
 	"golang.org/x/crypto/ssh"
@@ -69,32 +70,7 @@ const (
 // The test builds the tandem command once; TANDEM_BIN names another
 // binary to test instead.
 func TestManySites(t *testing.T) {
-	gitBin, err := exec.LookPath("git")
-	if err != nil {
-		if os.Getenv("TANDEM_REQUIRE_TOOLS") != "" {
-			t.Fatal("git is required in CI but not installed")
-		}
-		t.Skip("skipping: git is not installed (apt-get install git)")
-	}
-	root := t.TempDir()
-	bin := os.Getenv("TANDEM_BIN")
-	if bin != "" {
-		if bin, err = filepath.Abs(bin); err != nil {
-			t.Fatal(err)
-		}
-	} else {
-		// Built once, without the test's flags: a binary built with -race
-		// (as CI runs the tests) took 1.1 s to start a command on the shared
-		// 2-core machine this was written on, against 0.01 s without.
-		bin = filepath.Join(root, "bin", "tandem")
-		if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
-			t.Fatalf("go build -o %s .: %v\n%s", bin, err, out)
-		}
-	}
-	keys, err := makeSiteKeys(filepath.Join(root, "keys"))
-	if err != nil {
-		t.Fatal(err)
-	}
+	gitBin, bin, keys, root := siteSetup(t)
 	n := schedulesFull
 	if testing.Short() {
 		n = schedulesShort
@@ -123,6 +99,91 @@ func TestManySites(t *testing.T) {
 			})
 		}
 	})
+}
+
+// TestManySitesTwoWriters: one party acting in two clones at once (the
+// custodian's job run on two runners from the same push), or two parties
+// amending the protocol in their own clones, must not end in a git
+// conflict either. After the pull, the tool either accepts the merged
+// campaign (then it is driven to unblinded and checked like a schedule)
+// or explains it with a hint that names the command that resolves it.
+func TestManySitesTwoWriters(t *testing.T) {
+	gitBin, bin, keys, root := siteSetup(t)
+	for i, mode := range []string{"--no-rebase", "--rebase"} {
+		t.Run("custodian-twice/pull"+mode, func(t *testing.T) {
+			s := newSchedule(t, uint64(29000+i), gitBin, bin, keys, filepath.Join(root, "twice"+mode))
+			s.pullMode = mode
+			s.setUp()
+			ci := s.addClone("ci", "custodian")
+			for _, st := range s.sites {
+				if st.role == "team" {
+					s.pull(st)
+					s.seal(st, []int{0, 1}, "")
+					s.push(st)
+				}
+			}
+			cust := s.site("custodian")
+			s.pull(cust)
+			s.pull(ci)
+			s.blind(cust)
+			// The second runner starts in a later second, so its entries
+			// differ from the first's (in the same second both runs could
+			// write the same bytes, which git merges trivially).
+			for now := time.Now().Unix(); time.Now().Unix() == now; {
+				time.Sleep(20 * time.Millisecond)
+			}
+			s.blind(ci)
+			s.push(cust)
+			s.push(ci) // refused, then pulled: the two runs meet here
+			s.settle(ci)
+		})
+		t.Run("two-amends/pull"+mode, func(t *testing.T) {
+			s := newSchedule(t, uint64(29100+i), gitBin, bin, keys, filepath.Join(root, "amends"+mode))
+			s.pullMode = mode
+			s.setUp()
+			// heron changes the description (the top of the protocol),
+			// otter an observable's title (the bottom): git merges both.
+			heron, otter := s.site("heron"), s.site("otter")
+			s.amend(heron, `description = "many-site git test`, `description = "many-site git test, amended by heron`)
+			s.amend(otter, `title = "invented angle"`, `title = "invented angle, amended by otter"`)
+			s.push(heron)
+			s.push(otter)
+			s.settle(otter)
+		})
+	}
+}
+
+// siteSetup finds git (skipping without it), builds tandem once and
+// makes the keys.
+func siteSetup(t *testing.T) (gitBin, bin string, keys *siteKeys, root string) {
+	t.Helper()
+	gitBin, err := exec.LookPath("git")
+	if err != nil {
+		if os.Getenv("TANDEM_REQUIRE_TOOLS") != "" {
+			t.Fatal("git is required in CI but not installed")
+		}
+		t.Skip("skipping: git is not installed (apt-get install git)")
+	}
+	root = t.TempDir()
+	bin = os.Getenv("TANDEM_BIN")
+	if bin != "" {
+		if bin, err = filepath.Abs(bin); err != nil {
+			t.Fatal(err)
+		}
+	} else {
+		// Built once, without the test's flags: a binary built with -race
+		// (as CI runs the tests) took 1.1 s to start a command on the shared
+		// 2-core machine this was written on, against 0.01 s without.
+		bin = filepath.Join(root, "bin", "tandem")
+		if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+			t.Fatalf("go build -o %s .: %v\n%s", bin, err, out)
+		}
+	}
+	keys, err = makeSiteKeys(filepath.Join(root, "keys"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return gitBin, bin, keys, root
 }
 
 // siteKeys are the test's keys, kept outside every clone: an SSH ed25519
@@ -178,6 +239,7 @@ type site struct {
 	dir        string // the clone
 	scratch    string // the party's own files, outside the clone (tables)
 	synced     string // the shared main this clone last pulled or pushed
+	spare      bool   // a party's second clone, whose steps may be superseded
 }
 
 func (st *site) camp() string { return filepath.Join(st.dir, campaignDir) }
@@ -201,6 +263,7 @@ type schedule struct {
 	signs       int
 	reseals     int
 	unblinded   bool
+	pullMode    string // --rebase or --no-rebase; random when empty
 }
 
 func newSchedule(t *testing.T, seed uint64, gitBin, bin string, keys *siteKeys, root string) *schedule {
@@ -256,8 +319,8 @@ func (s *schedule) logf(format string, a ...any) {
 // fail ends the schedule, naming its seed and printing its step log.
 func (s *schedule) fail(format string, a ...any) {
 	s.t.Helper()
-	s.t.Fatalf("schedule seed %d: %s\nstep log (rerun: go test ./cmd/tandem -run 'TestManySites/schedules/seed=%d$'):\n  %s",
-		s.seed, fmt.Sprintf(format, a...), s.seed, strings.Join(s.log, "\n  "))
+	s.t.Fatalf("schedule seed %d: %s\nstep log (rerun: go test ./cmd/tandem -run '%s$'):\n  %s",
+		s.seed, fmt.Sprintf(format, a...), s.t.Name(), strings.Join(s.log, "\n  "))
 }
 
 // exec runs a command in dir and returns its exit status and output.
@@ -419,6 +482,69 @@ func (s *schedule) setUp() {
 			st.synced = cust.synced
 		}
 	}
+}
+
+// addClone makes a further clone for a party, in step with the shared
+// repository.
+func (s *schedule) addClone(name, role string) *site {
+	st := &site{name: name, role: role, dir: filepath.Join(s.root, "clone-"+name), scratch: filepath.Join(s.root, "scratch-"+name), spare: true}
+	if err := os.MkdirAll(st.scratch, 0o755); err != nil {
+		s.t.Fatal(err)
+	}
+	s.gitOK(s.root, "clone", "-q", s.bare, st.dir)
+	st.synced = s.sharedHead()
+	s.sites = append(s.sites, st)
+	return st
+}
+
+// amend replaces old with new in the party's campaign.toml, as a new
+// protocol file outside the clone, and amends the campaign with it.
+func (s *schedule) amend(st *site, old, new string) {
+	text, err := os.ReadFile(filepath.Join(st.camp(), "campaign.toml"))
+	if err != nil {
+		s.fail("%s: %v", st.name, err)
+	}
+	if !bytes.Contains(text, []byte(old)) {
+		s.fail("%s: campaign.toml has no %q", st.name, old)
+	}
+	f := filepath.Join(st.scratch, "amended.toml")
+	if err := os.WriteFile(f, bytes.Replace(text, []byte(old), []byte(new), 1), 0o644); err != nil {
+		s.t.Fatal(err)
+	}
+	code, _, stderr := s.tandem(st, "amend", campaignDir, "--as", st.name, "--reason", "a clearer protocol", "--key", s.keys.key(st.name), f)
+	if code != 0 {
+		s.fail("%s: amend refused: %s", st.name, stderr)
+	}
+	s.commit(st, st.name+": amend")
+}
+
+// settle judges a clone that has just merged two writers' steps: tandem
+// status and verify must run (exit 0 or 1). If verify accepts the
+// campaign, it is driven to unblinded and checked on fresh clones;
+// otherwise verify must explain with a hint naming the resolving command.
+func (s *schedule) settle(st *site) {
+	s.t.Helper()
+	s.tandem(st, "status", campaignDir)
+	code, stdout, stderr := s.tandem(st, "verify", campaignDir)
+	if code != 0 {
+		if !regexp.MustCompile(`tandem: hint: .*tandem [a-z]+`).MatchString(stderr) {
+			s.fail("%s: after the merge verify refuses the campaign without a hint naming the command that resolves it:\n%s%s", st.name, stdout, stderr)
+		}
+		s.t.Logf("after the merge, verify explains:\n%s%s", stdout, stderr)
+		return
+	}
+	for round := 0; round < finishRounds && !s.unblinded; round++ {
+		s.finishRound(round)
+	}
+	for _, other := range s.sites {
+		s.pull(other)
+		s.push(other)
+	}
+	if !s.unblinded {
+		s.fail("the campaign was not unblinded after %d rounds", finishRounds)
+	}
+	s.checkFresh("fresh", false)
+	s.checkFresh("fresh-crlf", true)
 }
 
 func (s *schedule) site(name string) *site {
@@ -640,7 +766,7 @@ func (s *schedule) blind(st *site) {
 			s.record(st, filepath.Join(campaignDir, f[1]))
 		}
 	}
-	s.commit(st, "custodian: blind")
+	s.commit(st, st.name+": blind")
 }
 
 func (s *schedule) unblind(st *site) {
@@ -649,12 +775,15 @@ func (s *schedule) unblind(st *site) {
 		return
 	}
 	s.unblinded = true
-	s.commit(st, "custodian: unblind")
+	s.commit(st, st.name+": unblind")
 }
 
 // record notes the digest of a file a step said it wrote (a path relative
 // to the clone).
 func (s *schedule) record(st *site, rel string) {
+	if st.spare {
+		return
+	}
 	data, err := os.ReadFile(filepath.Join(st.dir, rel))
 	if err != nil {
 		s.fail("%s: a step reported writing %s, which is not there: %v", st.name, rel, err)
@@ -711,9 +840,12 @@ func (s *schedule) commit(st *site, msg string) {
 // pull merges or rebases onto the shared repository; a conflict of any
 // kind fails the schedule.
 func (s *schedule) pull(st *site) {
-	mode := "--no-rebase"
-	if s.rng.IntN(2) == 0 {
-		mode = "--rebase"
+	mode := s.pullMode
+	if mode == "" {
+		mode = "--no-rebase"
+		if s.rng.IntN(2) == 0 {
+			mode = "--rebase"
+		}
 	}
 	head := s.sharedHead()
 	if head != "" && head == st.synced {
