@@ -55,7 +55,7 @@ const (
 	campaignDir    = "campaign" // the campaign folder inside each clone
 	schedulesFull  = 50
 	schedulesShort = 5
-	randomTicks    = 24 // random actions before the schedule is driven to the end
+	randomTicks    = 40 // random actions at most before the schedule is driven to the end
 	finishRounds   = 4  // rounds allowed to drive it to unblinded
 	maxFailed      = 3  // schedules that may fail before the test stops
 )
@@ -239,6 +239,7 @@ type site struct {
 	dir        string // the clone
 	scratch    string // the party's own files, outside the clone (tables)
 	synced     string // the shared main this clone last pulled or pushed
+	pending    bool   // commits not yet pushed
 	spare      bool   // a party's second clone, whose steps may be superseded
 }
 
@@ -406,16 +407,24 @@ func firstLine(stderr string, code int) string {
 // the campaign to unblinded, then the checks on fresh clones.
 func (s *schedule) run() {
 	s.setUp()
-	for tick := 0; tick < randomTicks; tick++ {
+	// Random actions: a party with commits not yet pushed pushes them or
+	// takes another step; otherwise it pulls (or not, working on what it
+	// has) and takes a step. Parties' sessions overlap, so steps taken
+	// between two syncs of one clone meet other clones' steps at the pull.
+	for tick := 0; tick < randomTicks && !s.unblinded; tick++ {
 		// the custodian, often a job run on every push, acts twice as often
 		st := s.sites[min(s.rng.IntN(len(s.sites)+1), len(s.sites)-1)]
-		switch r := s.rng.Float64(); {
-		case r < 0.25:
+		r := s.rng.Float64()
+		switch {
+		case st.pending && r < 0.6:
+			s.push(st)
+		case st.pending:
+			s.step(st)
+		case r < 0.7:
 			s.pull(st)
-		case r < 0.8:
 			s.step(st)
 		default:
-			s.push(st)
+			s.step(st)
 		}
 	}
 	for round := 0; round < finishRounds && !s.unblinded; round++ {
@@ -835,6 +844,7 @@ func (s *schedule) commit(st *site, msg string) {
 	if code != 0 && !strings.Contains(out+errs, "nothing to commit") {
 		s.fail("%s: git commit: exit %d\n%s%s", st.name, code, out, errs)
 	}
+	st.pending = st.pending || code == 0
 }
 
 // pull merges or rebases onto the shared repository; a conflict of any
@@ -897,7 +907,7 @@ func (s *schedule) push(st *site) {
 		code, out, errs := s.exec(st.dir, nil, s.git, "push", "-q", "origin", "HEAD:main")
 		s.logf("%s: git push -> exit %d", st.name, code)
 		if code == 0 {
-			st.synced = s.sharedHead()
+			st.synced, st.pending = s.sharedHead(), false
 			return
 		}
 		if !strings.Contains(out+errs, "rejected") {
