@@ -59,7 +59,11 @@ func (r *Result) judge(e Options, statistical bool) {
 			cs = append(cs, Criterion{Name: name, Kind: KindPValue, Value: v, Limit: e.Alpha, Op: ">", Pass: true, why: why})
 		}
 		p(CritChi2, r.PValue, fmt.Sprintf("χ² = %s for %d degrees of freedom", fmtG(r.Chi2), r.NDF))
-		p(CritKS, r.KSP, fmt.Sprintf("pulls are not distributed as N(0,1): D = %s", fmtG(r.KSStat)))
+		ksWhy := fmt.Sprintf("pulls are not distributed as N(0,1): D = %s", fmtG(r.KSStat))
+		if r.identical() {
+			ksWhy = "the tables are identical bin for bin (every pull is 0), which two independent chains do not produce; if they must agree to rounding, judge with --abs-tol/--rel-tol and --alpha 0"
+		}
+		p(CritKS, r.KSP, ksWhy)
 		p(CritRuns, r.RunsP, fmt.Sprintf("%d runs in %d positive and %d negative differences: a coherent trend", r.Runs, r.RunsPos, r.RunsNeg))
 		p(CritMaxPullP, r.MaxPullP, fmt.Sprintf("|pull| %s is unlikely among %d bins", fmtG(r.MaxAbsPull), r.NDF))
 	}
@@ -220,4 +224,17 @@ func binList(bins []int) string {
 		b.WriteString(strconv.Itoa(v))
 	}
 	return b.String()
+}
+
+// identical reports whether both sides hold the same value in every bin.
+func (r *Result) identical() bool {
+	if len(r.A) == 0 || len(r.A) != len(r.B) {
+		return false
+	}
+	for i := range r.A {
+		if r.A[i] != r.B[i] {
+			return false
+		}
+	}
+	return true
 }

@@ -96,6 +96,7 @@ type compareFlags struct {
 	overlapCount, overlapCommon         string
 	overlapSource                       string
 	labelA, labelB, labels              string
+	title, xLabel, yLabel               string
 	counts                              bool
 	sumw2                               string
 	exposureRatio                       float64
@@ -106,7 +107,7 @@ type compareFlags struct {
 }
 
 // tableOnly are the flags that campaign mode refuses (the protocol sets them).
-var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "labels", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
+var tableOnly = []string{"counts", "sumw2", "exposure-ratio", "mc-samples", "seed", "alpha", "error-correlation", "overlap-count", "overlap-common", "overlap-source", "label-a", "label-b", "labels", "title", "x-label", "y-label", "edge-tol", "delimiter", "max-line-bytes", "max-columns", "max-input-bytes"}
 
 func (cf *compareFlags) register(fs *flag.FlagSet) {
 	d := compare.Defaults()
@@ -138,6 +139,9 @@ func (cf *compareFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&cf.name, "name", "", "observable `NAME` in the report (default: the first file's name)")
 	fs.StringVar(&cf.labelA, "label-a", "", "`LABEL` of the first table in the report (default: its file name)")
 	fs.StringVar(&cf.labelB, "label-b", "", "`LABEL` of the second table in the report (default: its file name)")
+	fs.StringVar(&cf.title, "title", "", "`TITLE` of the report and its page (default: \"A vs B\")")
+	fs.StringVar(&cf.xLabel, "x-label", "", "`TEXT` under the x axis of the plots, e.g. \"energy [GeV]\"")
+	fs.StringVar(&cf.yLabel, "y-label", "", "`TEXT` beside the y axis of the values plot, e.g. \"rate [Hz]\"")
 	fs.StringVar(&cf.labels, "labels", "", "`LABELS` of the tables in the report, comma-separated, one per table (default: the file names; with three or more tables their stems)")
 	fs.StringVar(&cf.tables, "tables", "blinded", "campaign mode: compare the `blinded` or the `unblinded` tables")
 	registerLimits(fs, &cf.limits, &cf.delimiter)
@@ -190,7 +194,7 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if !slices.Contains(report.Formats, cf.format) {
 		return usageErr("--format %q is not one of %s", cf.format, strings.Join(report.Formats, ", "))
 	}
-	for _, f := range []struct{ name, v string }{{"label-a", cf.labelA}, {"label-b", cf.labelB}, {"labels", cf.labels}, {"name", cf.name}} {
+	for _, f := range []struct{ name, v string }{{"label-a", cf.labelA}, {"label-b", cf.labelB}, {"labels", cf.labels}, {"name", cf.name}, {"title", cf.title}, {"x-label", cf.xLabel}, {"y-label", cf.yLabel}} {
 		if err := protocol.CleanText(f.v); err != nil {
 			return withHint(usageErr("--%s: %v", f.name, err), "labels and names are shown in reports: use printable text")
 		}
@@ -389,10 +393,13 @@ func runCompare(e *env, args []string) error {
 		if labels[1] != "" {
 			r.LabelB = labels[1]
 		}
-		s.Entries = append(s.Entries, compare.Entry{Observable: name, Files: [2]string{a.Source, b.Source}, Result: r})
+		s.Entries = append(s.Entries, compare.Entry{Observable: name, Files: [2]string{a.Source, b.Source}, Result: r, XLabel: cf.xLabel, YLabel: cf.yLabel})
 	}
 	if labels[0] != "" || labels[1] != "" {
 		s.Title = fmt.Sprintf("%s vs %s", results[0].LabelA, results[0].LabelB)
+	}
+	if cf.title != "" {
+		s.Title = cf.title
 	}
 	if err := emit(e, s, cf.format, cf.output); err != nil {
 		return err
@@ -618,7 +625,10 @@ func compareTeams(e *env, cf *compareFlags, ts []*table.Table, labels []string) 
 	}
 	s := &compare.Summary{Title: strings.Join(labels, " vs "), Teams: tc.Results}
 	for _, p := range tc.Pairs {
-		s.Entries = append(s.Entries, compare.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]}, Files: [2]string{ts[p.I].Source, ts[p.J].Source}, Result: p.Result})
+		s.Entries = append(s.Entries, compare.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]}, Files: [2]string{ts[p.I].Source, ts[p.J].Source}, Result: p.Result, XLabel: cf.xLabel, YLabel: cf.yLabel})
+	}
+	if cf.title != "" {
+		s.Title = cf.title
 	}
 	if err := emit(e, s, cf.format, cf.output); err != nil {
 		return err
