@@ -209,6 +209,7 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 		p.s(`<p class="note warn">`).et(wn, false).s("</p>\n")
 	}
 	binTableHTML(p, e)
+	countsHTML(p, e)
 }
 
 // binTableHTML writes the per-bin values in a collapsed <details> block.

@@ -95,6 +95,7 @@ func Markdown(w io.Writer, s *compare.Summary, st Style) error {
 			binRow(ew, e, i, " ", " |")
 			ew.s("\n")
 		}
+		countsMarkdown(ew, e)
 		ew.maybeFlush()
 	}
 	if l := stampLines(st.Stamp); len(l) > 0 {

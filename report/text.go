@@ -135,6 +135,7 @@ func Text(w io.Writer, s *compare.Summary, st Style) error {
 			bins = append(bins, c)
 		}
 		alignTable(ew, "  ", bins, true)
+		countsText(ew, e)
 		ew.maybeFlush()
 	}
 	if l := stampLines(st.Stamp); len(l) > 0 {
