@@ -180,6 +180,19 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	if cf.output == "-" {
 		cf.output = "" // -o - is the standard output
 	}
+	for _, f := range []struct {
+		name, why string
+		list  []string
+	}{
+		{"value", "a column is compared once; a second comparison would count twice in the α family", cf.values},
+		{"error", "an uncertainty source counts once in σ_d", cf.errs},
+	} {
+		for i, v := range f.list {
+			if slices.Contains(f.list[:i], v) {
+				return withHint(usageErr("--%s %s given twice", f.name, v), f.why)
+			}
+		}
+	}
 	if err := checkOutput(cf.output); err != nil {
 		return err
 	}
