@@ -103,6 +103,8 @@ func runStatus(e *env, args []string) error {
 			switch {
 			case t.Version == 0:
 				teams = append(teams, t.Team+" missing")
+			case o.State == campaign.StateUnblinded:
+				teams = append(teams, fmt.Sprintf("%s v%d (unblinded)", t.Team, t.Version))
 			default:
 				teams = append(teams, fmt.Sprintf("%s v%d (%s)", t.Team, t.Version, publishedWord(t.Published)))
 			}
@@ -113,12 +115,20 @@ func runStatus(e *env, args []string) error {
 		}
 		fmt.Fprintf(w, "  %-24s %-28s %s\n", o.Name, state, strings.Join(teams, ", "))
 	}
+	comparable := false
+	for _, o := range s.Observables {
+		comparable = comparable || o.State == campaign.StateOpen || o.State == campaign.StateUnblinded
+	}
 	for _, so := range s.Signoffs {
 		switch {
+		case !so.Present && !comparable:
+			fmt.Fprintf(w, "  sign-off %-15s not due yet (no comparison is open)\n", so.Party)
 		case !so.Present:
 			fmt.Fprintf(w, "  sign-off %-15s missing\n", so.Party)
+		case so.Valid && so.Statement.Verdict == string(campaign.Fail):
+			fmt.Fprintf(w, "  sign-off %-15s valid, accepting a failing comparison\n", so.Party)
 		case so.Valid:
-			fmt.Fprintf(w, "  sign-off %-15s valid (%s)\n", so.Party, so.Statement.Verdict)
+			fmt.Fprintf(w, "  sign-off %-15s valid\n", so.Party)
 		case so.Stale:
 			fmt.Fprintf(w, "  sign-off %-15s stale\n", so.Party)
 		default:
@@ -130,7 +140,11 @@ func runStatus(e *env, args []string) error {
 			fmt.Fprintf(w, "  log %-20s no entry yet\n", l.Party)
 			continue
 		}
-		fmt.Fprintf(w, "  log %-20s %d entries, last: %s at %s\n", l.Party, l.Entries, l.Last, l.Time)
+		n := fmt.Sprintf("%d entries", l.Entries)
+		if l.Entries == 1 {
+			n = "1 entry"
+		}
+		fmt.Fprintf(w, "  log %-20s %s, last: %s at %s\n", l.Party, n, l.Last, l.Time)
 	}
 	for _, n := range s.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
