@@ -57,16 +57,8 @@ func Columns(a, b *table.Table, sels []Selection, opt Options) ([]*Result, error
 		markCells(r, a)
 		out = append(out, r)
 	}
-	var unknown []string
-	for k := range e.Correlations {
-		if !matched[k] {
-			unknown = append(unknown, k)
-		}
-	}
-	if len(unknown) > 0 {
-		slices.Sort(unknown)
-		return nil, fmt.Errorf("correlation declared for %s, which is no error source of the compared columns (sources: %s)",
-			quoteList(unknown), quoteList(sourceNames(sels)))
+	if err := unusedCorrelations(e, matched, sels); err != nil {
+		return nil, err
 	}
 	if err := AdjustFamily(out, e.Alpha); err != nil {
 		return nil, err
@@ -267,4 +259,21 @@ func overlapRho(a, b *table.Table, o Overlap) ([]float64, error) {
 		}
 	}
 	return out, nil
+}
+
+// unusedCorrelations refuses a correlation declared for a source that no
+// compared column has (a misspelt name would otherwise be ignored).
+func unusedCorrelations(e Options, matched map[string]bool, sels []Selection) error {
+	var unknown []string
+	for k := range e.Correlations {
+		if !matched[k] {
+			unknown = append(unknown, k)
+		}
+	}
+	if len(unknown) == 0 {
+		return nil
+	}
+	slices.Sort(unknown)
+	return fmt.Errorf("correlation declared for %s, which is no error source of the compared columns (sources: %s)",
+		quoteList(unknown), quoteList(sourceNames(sels)))
 }

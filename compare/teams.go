@@ -175,16 +175,8 @@ func Teams(tables []*table.Table, labels []string, name string, sels []Selection
 			out.Results = append(out.Results, tr)
 		}
 	}
-	var unknown []string
-	for k := range e.Correlations {
-		if !matched[k] {
-			unknown = append(unknown, k)
-		}
-	}
-	if len(unknown) > 0 {
-		slices.Sort(unknown)
-		return nil, fmt.Errorf("correlation declared for %s, which is no error source of the compared columns (sources: %s)",
-			quoteList(unknown), quoteList(sourceNames(sels)))
+	if err := unusedCorrelations(e, matched, sels); err != nil {
+		return nil, err
 	}
 	// One Holm family: the N-team criteria of every column. The pairs hold
 	// no p-value criterion, so adjusting them too changes nothing in the

@@ -411,16 +411,7 @@ func runCompare(e *env, args []string) error {
 	if labels[0] != "" || labels[1] != "" {
 		s.Title = fmt.Sprintf("%s vs %s", results[0].LabelA, results[0].LabelB)
 	}
-	if cf.title != "" {
-		s.Title = cf.title
-	}
-	if err := emit(e, s, cf.format, cf.output); err != nil {
-		return err
-	}
-	if !s.Pass() {
-		return silentFail
-	}
-	return nil
+	return cf.emitSummary(e, s)
 }
 
 // selections are the compared columns: --value (or every column that is
@@ -640,6 +631,12 @@ func compareTeams(e *env, cf *compareFlags, ts []*table.Table, labels []string) 
 	for _, p := range tc.Pairs {
 		s.Entries = append(s.Entries, compare.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]}, Files: [2]string{ts[p.I].Source, ts[p.J].Source}, Result: p.Result, XLabel: cf.xLabel, YLabel: cf.yLabel})
 	}
+	return cf.emitSummary(e, s)
+}
+
+// emitSummary writes the report of a table-mode comparison, under the
+// --title if one was given, and fails when the comparison does.
+func (cf *compareFlags) emitSummary(e *env, s *compare.Summary) error {
 	if cf.title != "" {
 		s.Title = cf.title
 	}
