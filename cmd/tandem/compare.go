@@ -182,7 +182,7 @@ func (cf *compareFlags) check(fs *flag.FlagSet) error {
 	}
 	for _, f := range []struct {
 		name, why string
-		list  []string
+		list      []string
 	}{
 		{"value", "a column is compared once; a second comparison would count twice in the α family", cf.values},
 		{"error", "an uncertainty source counts once in σ_d", cf.errs},
