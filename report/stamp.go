@@ -41,41 +41,60 @@ func NewStamp(inputs ...Input) *Stamp {
 	return &Stamp{Tool: Tool(), Time: time.Now().UTC().Truncate(time.Second), Inputs: inputs}
 }
 
+// Build is what the binary records of itself: the version (the link-time
+// [Version], else the module version, else "(devel)"), the VCS revision
+// (12 digits) and time, whether the tree was modified, and the Go
+// version. Revision and time are empty when the build recorded none or a
+// pseudo-version already names them.
+type Build struct {
+	Version, Revision, Time, Go string
+	Modified                    bool
+}
+
+// ReadBuild reads the build information of the running binary.
+func ReadBuild() Build {
+	b := Build{Version: Version}
+	bi, ok := debug.ReadBuildInfo()
+	if b.Version == "" && ok {
+		b.Version = bi.Main.Version
+	}
+	if b.Version == "" {
+		b.Version = "(devel)"
+	}
+	if !ok {
+		return b
+	}
+	b.Go = bi.GoVersion
+	for _, s := range bi.Settings {
+		switch s.Key {
+		case "vcs.revision":
+			b.Revision = s.Value
+		case "vcs.time":
+			b.Time = s.Value
+		case "vcs.modified":
+			b.Modified = s.Value == "true"
+		}
+	}
+	if len(b.Revision) > 12 {
+		b.Revision = b.Revision[:12]
+	}
+	if b.Revision != "" && strings.Contains(b.Version, b.Revision) {
+		b.Revision, b.Time = "", "" // a pseudo-version already names them
+	}
+	return b
+}
+
 // Tool is "tandem VERSION", followed by the VCS revision (12 digits) and
 // "modified" when the build recorded them, e.g. "tandem (devel)
 // 7c97d86e2b1f modified".
 func Tool() string {
-	v := Version
-	bi, ok := debug.ReadBuildInfo()
-	if v == "" && ok {
-		v = bi.Main.Version
+	b := ReadBuild()
+	out := "tandem " + b.Version
+	if b.Revision != "" {
+		out += " " + b.Revision
 	}
-	if v == "" {
-		v = "(devel)"
-	}
-	out := "tandem " + v
-	if !ok {
-		return out
-	}
-	var rev, dirty string
-	for _, s := range bi.Settings {
-		switch s.Key {
-		case "vcs.revision":
-			rev = s.Value
-		case "vcs.modified":
-			if s.Value == "true" {
-				dirty = "modified"
-			}
-		}
-	}
-	if len(rev) > 12 {
-		rev = rev[:12]
-	}
-	if rev != "" && !strings.Contains(v, rev) {
-		out += " " + rev
-	}
-	if dirty != "" {
-		out += " " + dirty
+	if b.Modified {
+		out += " modified"
 	}
 	return out
 }

@@ -22,7 +22,6 @@ import (
 	"path/filepath"
 	"reflect"
 	"regexp"
-	"runtime/debug"
 	"slices"
 	"strings"
 
@@ -267,43 +266,24 @@ func escapeLines(s string) string {
 
 // version is the link-time Version, else the module version and the VCS
 // revision the binary was built from (go build in a git checkout records
-// it), e.g. "tandem (devel) 7c97d86e2b1f 2026-12-01T18:55:02Z modified".
+// it), e.g. "tandem (devel) 7c97d86e2b1f 2026-12-01T18:55:02Z modified
+// (go1.26.8)".
 func version() string {
-	v := Version
-	bi, ok := debug.ReadBuildInfo()
-	if v == "" && ok {
-		v = bi.Main.Version
+	if Version != "" {
+		report.Version = Version
 	}
-	if v == "" {
-		v = "(devel)"
+	b := report.ReadBuild()
+	out := "tandem " + b.Version
+	for _, x := range []string{b.Revision, b.Time} {
+		if x != "" {
+			out += " " + x
+		}
 	}
-	out := "tandem " + v
-	if ok {
-		var rev, at, dirty string
-		for _, s := range bi.Settings {
-			switch s.Key {
-			case "vcs.revision":
-				rev = s.Value
-			case "vcs.time":
-				at = s.Value
-			case "vcs.modified":
-				if s.Value == "true" {
-					dirty = "modified"
-				}
-			}
-		}
-		if len(rev) > 12 {
-			rev = rev[:12]
-		}
-		if rev != "" && strings.Contains(v, rev) {
-			rev, at = "", "" // a pseudo-version already names them
-		}
-		for _, x := range []string{rev, at, dirty} {
-			if x != "" {
-				out += " " + x
-			}
-		}
-		out += " (" + bi.GoVersion + ")"
+	if b.Modified {
+		out += " modified"
+	}
+	if b.Go != "" {
+		out += " (" + b.Go + ")"
 	}
 	return out
 }
