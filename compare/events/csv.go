@@ -8,7 +8,6 @@ import (
 	"os"
 	"strconv"
 	"strings"
-	"unicode/utf8"
 	"unsafe"
 
 	"tandem/compare/table"
@@ -289,21 +288,11 @@ func raggedErr(name string, no int64, line []byte, fields [][]byte, starts []int
 	return table.Errorf(name, int(no), col, "row has %d fields, header has %d", len(fields), want)
 }
 
-// checkText refuses a line with a NUL byte or invalid UTF-8.
+// checkText refuses a line with a NUL byte or invalid UTF-8, as the
+// table reader does.
 func checkText(name string, no int64, line []byte) error {
-	if i := bytes.IndexByte(line, 0); i >= 0 {
-		return table.Errorf(name, int(no), i+1, "binary data (NUL byte); expected a CSV or TSV table")
-	}
-	if !utf8.Valid(line) {
-		col := 1
-		for col <= len(line) {
-			r, size := utf8.DecodeRune(line[col-1:])
-			if r == utf8.RuneError && size <= 1 {
-				break
-			}
-			col += size
-		}
-		return table.Errorf(name, int(no), col, "invalid UTF-8; expected a text table")
+	if err := table.CheckText(name, int(no), line); err != nil {
+		return err
 	}
 	return nil
 }

@@ -178,7 +178,7 @@ func (t *Table) header(name string, s *splitter, opt CSVOptions) (*rowParser, *b
 			if len(line) > s.lim.MaxLineBytes {
 				return nil, nil, lineTooLong(name, lineNo, line, s.lim)
 			}
-			if err := checkText(name, lineNo, line); err != nil {
+			if err := CheckText(name, lineNo, line); err != nil {
 				return nil, nil, err
 			}
 			lead := 0
@@ -474,7 +474,7 @@ func (p *rowParser) rows(b *block) {
 		// for binary data and UTF-8 before it is used (or skipped).
 		plain := lead == 0 && len(line) > 0
 		if !plain {
-			if err := checkText(p.name, rel, line); err != nil {
+			if err := CheckText(p.name, rel, line); err != nil {
 				b.err = err
 				return
 			}
@@ -561,7 +561,7 @@ func (p *rowParser) row(b *block, rel int, line []byte, plain bool, prev *edgeMe
 // text first when it is still taken for plain ASCII.
 func (p *rowParser) slowField(line []byte, rel, pos, k int, plain bool) (float64, int, *Error) {
 	if plain {
-		if err := checkText(p.name, rel, line); err != nil {
+		if err := CheckText(p.name, rel, line); err != nil {
 			return 0, 0, err
 		}
 	}
@@ -642,9 +642,9 @@ func badName(h string) string {
 	return ""
 }
 
-// checkText refuses a line with a NUL byte or invalid UTF-8, pointing at
-// the first bad byte.
-func checkText(name string, lineNo int, line []byte) *Error {
+// CheckText refuses a line with a NUL byte or invalid UTF-8, pointing at
+// the first bad byte. The event tables of compare/events use it too.
+func CheckText(name string, lineNo int, line []byte) *Error {
 	if i := bytes.IndexByte(line, 0); i >= 0 {
 		return Errorf(name, lineNo, i+1, "binary data (NUL byte); expected a CSV or TSV table")
 	}
