@@ -212,6 +212,14 @@ func (m *merger) add(name string, b *block) *Error {
 		if e.Line > 0 {
 			e.Line += m.lineOff
 		}
+		// The rows before the error are checked as a whole block's would
+		// be, so the first problem in the file is the one reported,
+		// however the input was cut into blocks.
+		if m.index >= 0 && b.nrows > 0 && m.index < len(b.cols) {
+			if ie := m.checkIndex(name, b); ie != nil && (e.Line <= 0 || ie.Line < e.Line) {
+				return ie
+			}
+		}
 		return e
 	}
 	m.bytes += int64(len(b.data))
@@ -298,7 +306,9 @@ func (m *merger) add(name string, b *block) *Error {
 // checkIndex checks that the row-index column of b numbers the rows on
 // from the rows merged so far: 0, 1, 2, … or 1, 2, 3, ….
 func (m *merger) checkIndex(name string, b *block) *Error {
-	for j, v := range b.cols[m.index] {
+	vals := b.cols[m.index]
+	vals = vals[:min(len(vals), b.nrows)] // a row cut short by an error is not a row
+	for j, v := range vals {
 		row := m.rows + j
 		if row == 0 && (v == 0 || v == 1) {
 			m.indexBase = v
