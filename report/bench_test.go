@@ -33,10 +33,10 @@ func benchSeries(rng *rand.Rand, n int) (*table.Series, *table.Series) {
 // benchCampaignSummary is a blinded campaign of n observables × 2 teams ×
 // 20 bins, as blind/campaign's BenchmarkCampaign builds it, with blinded
 // values.
-func benchCampaignSummary(b *testing.B, n int) *compare.Summary {
+func benchCampaignSummary(b *testing.B, n int) *Summary {
 	b.Helper()
 	rng := rand.New(rand.NewPCG(11, 500))
-	s := &compare.Summary{Title: "campaign bench (blinded)", Campaign: "bench",
+	s := &Summary{Title: "campaign bench (blinded)", Campaign: "bench",
 		Notes: []string{"campaign bench is blinded; 1503 ledger entries", "no valid sign-offs yet"}}
 	for i := range n {
 		a, bb := benchSeries(rng, 20)
@@ -53,7 +53,7 @@ func benchCampaignSummary(b *testing.B, n int) *compare.Summary {
 		if err != nil {
 			b.Fatal(err)
 		}
-		s.Entries = append(s.Entries, compare.Entry{Observable: fmt.Sprintf("obs%03d", i), Teams: [2]string{"heron", "otter"}, Blinded: true, Result: r})
+		s.Entries = append(s.Entries, Entry{Observable: fmt.Sprintf("obs%03d", i), Teams: [2]string{"heron", "otter"}, Blinded: true, Result: r})
 	}
 	return s
 }
@@ -69,7 +69,7 @@ func reportCPU(b *testing.B, start int64, ok bool) {
 
 // renderAll renders s in every format, each into a new buffer as
 // `report` and the campaign write them, and returns the total size.
-func renderAll(b *testing.B, s *compare.Summary) int {
+func renderAll(b *testing.B, s *Summary) int {
 	size := 0
 	for _, f := range Formats {
 		var buf bytes.Buffer
@@ -104,13 +104,13 @@ func BenchmarkRenderTable1e5(b *testing.B) {
 		b.Fatal(err)
 	}
 	r.LabelA, r.LabelB = "heron/spectrum.csv", "otter/spectrum.csv"
-	s := &compare.Summary{Entries: []compare.Entry{{Observable: "spectrum", Files: [2]string{"heron/spectrum.csv", "otter/spectrum.csv"}, XLabel: "energy [GeV]", Result: r}}}
+	s := &Summary{Entries: []Entry{{Observable: "spectrum", Files: [2]string{"heron/spectrum.csv", "otter/spectrum.csv"}, XLabel: "energy [GeV]", Result: r}}}
 	benchFormats(b, s)
 }
 
 // benchFormats times every format of s together ("all", into new buffers
 // as the campaign writes them) and each on its own.
-func benchFormats(b *testing.B, s *compare.Summary) {
+func benchFormats(b *testing.B, s *Summary) {
 	b.Run("all", func(b *testing.B) {
 		size := 0
 		start, ok := cpuTime()
@@ -155,7 +155,7 @@ func BenchmarkJSONMillion(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	s := &compare.Summary{Entries: []compare.Entry{{Observable: "spectrum", Result: r}}}
+	s := &Summary{Entries: []Entry{{Observable: "spectrum", Result: r}}}
 	for _, f := range []string{"text", "json"} {
 		b.Run(f, func(b *testing.B) {
 			w := &countingWriter{w: io.Discard}

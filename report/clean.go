@@ -79,18 +79,18 @@ func needsCleaning(xs ...string) bool {
 // labels, files, columns, reasons, warnings and details) safe to show:
 // s itself when nothing needs cleaning, else a copy that shares the
 // numbers with s.
-func cleanSummary(s *compare.Summary) *compare.Summary {
+func cleanSummary(s *Summary) *Summary {
 	if !summaryNeedsCleaning(s) && !teamsNeedCleaning(s.Teams) {
 		return s
 	}
 	c := *s
 	c.Teams = cleanTeams(s.Teams)
 	c.Title, c.Campaign, c.Notes = cleanText(s.Title), cleanText(s.Campaign), cleanList(s.Notes)
-	c.Accepted = make([]compare.Acceptance, len(s.Accepted))
+	c.Accepted = make([]Acceptance, len(s.Accepted))
 	for i, a := range s.Accepted {
-		c.Accepted[i] = compare.Acceptance{By: cleanList(a.By), Reason: cleanText(a.Reason)}
+		c.Accepted[i] = Acceptance{By: cleanList(a.By), Reason: cleanText(a.Reason)}
 	}
-	c.Entries = make([]compare.Entry, len(s.Entries))
+	c.Entries = make([]Entry, len(s.Entries))
 	for i, e := range s.Entries {
 		e.Observable, e.Title, e.XLabel, e.YLabel = cleanText(e.Observable), cleanText(e.Title), cleanText(e.XLabel), cleanText(e.YLabel)
 		e.Teams = [2]string{cleanText(e.Teams[0]), cleanText(e.Teams[1])}
@@ -115,7 +115,7 @@ func cleanSummary(s *compare.Summary) *compare.Summary {
 	return &c
 }
 
-func summaryNeedsCleaning(s *compare.Summary) bool {
+func summaryNeedsCleaning(s *Summary) bool {
 	if needsCleaning(s.Title, s.Campaign) || needsCleaning(s.Notes...) {
 		return true
 	}

@@ -2,8 +2,6 @@ package report
 
 import (
 	"strconv"
-
-	"tandem/compare"
 )
 
 // countRows is the table of a counts comparison's exact tests, one row per
@@ -11,7 +9,7 @@ import (
 // McNemar's on the discordant events), its exact two-sided p-value and,
 // when common events were given, the discordant counts. nil when the
 // comparison was not judged as counts.
-func countRows(e compare.Entry) [][]string {
+func countRows(e Entry) [][]string {
 	if e.Result == nil || e.Counts == nil {
 		return nil
 	}
@@ -46,7 +44,7 @@ func countRows(e compare.Entry) [][]string {
 
 // countsCaption says where the exact tests' Monte Carlo came from, so the
 // run can be repeated.
-func countsCaption(e compare.Entry) string {
+func countsCaption(e Entry) string {
 	c := e.Counts
 	s := "exact tests per bin (" + strconv.Itoa(c.Informative) + " informative"
 	if c.Samples > 0 {
@@ -56,7 +54,7 @@ func countsCaption(e compare.Entry) string {
 }
 
 // countsText writes the exact-test table of a counts comparison.
-func countsText(p *page, e compare.Entry) {
+func countsText(p *page, e Entry) {
 	rows := countRows(e)
 	if rows == nil {
 		return
@@ -66,7 +64,7 @@ func countsText(p *page, e compare.Entry) {
 }
 
 // countsMarkdown writes the exact-test table as a Markdown table.
-func countsMarkdown(p *page, e compare.Entry) {
+func countsMarkdown(p *page, e Entry) {
 	rows := countRows(e)
 	if rows == nil {
 		return
@@ -90,7 +88,7 @@ func countsMarkdown(p *page, e compare.Entry) {
 }
 
 // countsHTML writes the exact-test table in a closed details element.
-func countsHTML(p *page, e compare.Entry) {
+func countsHTML(p *page, e Entry) {
 	rows := countRows(e)
 	if rows == nil {
 		return

@@ -6,8 +6,6 @@ import (
 	"slices"
 	"strings"
 	"unicode/utf8"
-
-	"tandem/compare"
 )
 
 // The figures are SVG drawn in a 1000-unit-wide coordinate system that the
@@ -219,7 +217,7 @@ func groups(n int) (gs []group, k int) {
 	return gs, k
 }
 
-func xFrame(e compare.Entry) (x0, x1 float64, logX bool) {
+func xFrame(e Entry) (x0, x1 float64, logX bool) {
 	x0, x1 = e.Lo[0], e.Hi[e.Bins-1]
 	if x1 <= x0 {
 		x1 = x0 + 1
@@ -230,7 +228,7 @@ func xFrame(e compare.Entry) (x0, x1 float64, logX bool) {
 // figure draws the three panels of one comparison that share the x axis:
 // the two chains' values, their ratio with the combined uncertainty band,
 // and the pulls.
-func figure(w *page, id string, e compare.Entry, limit float64) {
+func figure(w *page, id string, e Entry, limit float64) {
 	a, b := e.Sides()
 	gs, k := groups(e.Bins)
 	overlaySVG(w, e, a, b, gs, k)
@@ -243,7 +241,7 @@ func figure(w *page, id string, e compare.Entry, limit float64) {
 	pullsSVG(w, e, limit, gs, k)
 }
 
-func overlaySVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
+func overlaySVG(w *page, e Entry, a, b string, gs []group, k int) {
 	f := &frame{w: figW, h: 360, left: figLeft, right: figRight, top: 44, bottom: 44}
 	f.x0, f.x1, f.logX = xFrame(e)
 	lo, hi := math.Inf(1), math.Inf(-1)
@@ -308,7 +306,7 @@ func overlaySVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
 // overlayBins draws B as a step with its ±σ band and A as open diamonds
 // with error bars and caps drawn on top, so a bar shorter than the marker
 // still shows through it.
-func overlayBins(w *page, f *frame, e compare.Entry) {
+func overlayBins(w *page, f *frame, e Entry) {
 	ok := func(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) && (!f.logY || v > 0) }
 	step := w.scratch[:0]
 	pen := false
@@ -365,7 +363,7 @@ func overlayBins(w *page, f *frame, e compare.Entry) {
 
 // overlayDecimated draws, per group of bins, the range from the lowest to
 // the highest value of each side: A as a filled band, B as two step lines.
-func overlayDecimated(w *page, f *frame, e compare.Entry, gs []group) {
+func overlayDecimated(w *page, f *frame, e Entry, gs []group) {
 	var lines [2][]byte
 	for _, g := range gs {
 		x0, x1 := f.px(e.Lo[g.first]), f.px(e.Hi[g.last])
@@ -414,7 +412,7 @@ func extent(xs []float64) (lo, hi float64) {
 // a pull beyond ±1, on the same side as the pull (a − b)/σ_d of the panel
 // below. Bins with b = 0 have no ratio and are left out. Points
 // beyond the axis range are drawn as triangles on its edge.
-func ratioSVG(w *page, e compare.Entry, a, b string, gs []group, k int) {
+func ratioSVG(w *page, e Entry, a, b string, gs []group, k int) {
 	f := &frame{w: figW, h: 200, left: figLeft, right: figRight, top: 30, bottom: 40}
 	f.x0, f.x1, f.logX = xFrame(e)
 	ratio := make([]float64, e.Bins)
@@ -571,7 +569,7 @@ func pullRange(pulls []float64, limit float64) float64 {
 // pullsSVG draws the pull of each bin as a bar from zero, with the limit as
 // dashed lines. In a decimated figure each group shows its largest |pull|,
 // so no outlier disappears. Bars beyond the axis end in a triangle.
-func pullsSVG(w *page, e compare.Entry, limit float64, gs []group, k int) {
+func pullsSVG(w *page, e Entry, limit float64, gs []group, k int) {
 	m := pullRange(e.Pulls, limit)
 	f := &frame{w: figW, h: 230, left: figLeft, right: figRight, top: 30, bottom: 62, y0: -m, y1: m}
 	f.x0, f.x1, f.logX = xFrame(e)
@@ -641,7 +639,7 @@ func cmpFloat(x, y float64) int {
 // normal. Pulls beyond ±R are counted in hatched overflow bars outside the
 // axis. With logY the counts are on a log axis. used are the pulls of
 // the bins with a combined uncertainty ([pullsUsed]).
-func histSVG(w *page, id string, e compare.Entry, used []float64, logY bool) {
+func histSVG(w *page, id string, e Entry, used []float64, logY bool) {
 	R := 5.0
 	for _, p := range used {
 		if a := math.Abs(p); a > R && !math.IsInf(a, 0) {
@@ -760,7 +758,7 @@ func (w *page) normalCurve(f *frame, R float64) *curve {
 
 // pullsUsed returns the pulls of the bins that carry one (none without
 // uncertainties, when every pull is NaN).
-func pullsUsed(e compare.Entry) []float64 {
+func pullsUsed(e Entry) []float64 {
 	if e.NDF == 0 {
 		return nil
 	}

@@ -5,8 +5,6 @@ import (
 	"io"
 	"strconv"
 	"strings"
-
-	"tandem/compare"
 )
 
 // maxTableRows is the most per-bin rows the HTML table shows; beyond it the
@@ -63,7 +61,7 @@ details{margin:.6em 0}summary{cursor:pointer;font-weight:600}
 // linear or log count axis, the criteria in a fixed order and a collapsible
 // per-bin table. Above 2000 bins the per-bin panels are decimated and the
 // page says how.
-func HTML(w io.Writer, s *compare.Summary, st Style) error {
+func HTML(w io.Writer, s *Summary, st Style) error {
 	size := 8192
 	for _, e := range s.Entries {
 		// a little more than the figures and the table of one comparison
@@ -124,7 +122,7 @@ func HTML(w io.Writer, s *compare.Summary, st Style) error {
 // keyNumbersHTML is the table of every comparison's key numbers, failing
 // first, on the first screen of the page: verdict, χ²/ndf, p-value and the
 // largest |pull|, each linked to its section.
-func keyNumbersHTML(p *page, s *compare.Summary) {
+func keyNumbersHTML(p *page, s *Summary) {
 	if len(s.Entries) == 0 {
 		return
 	}
@@ -145,11 +143,11 @@ func verdictSpan(pass bool) string {
 	return `<span class="fail">fail</span>`
 }
 
-func acceptedHTML(p *page, a compare.Acceptance) {
+func acceptedHTML(p *page, a Acceptance) {
 	p.s(`<p class="banner accepted"><b>Disagreement accepted</b> by `).e(joinList(a.By)).s(": ").e(a.Reason).s("</p>\n")
 }
 
-func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptance) {
+func entryHTML(p *page, id string, e Entry, accepted []Acceptance) {
 	p.s(`<h2 id="`).s(id).s(`">`).e(entryTitle(e)).s(": ").s(verdictSpan(e.Pass)).s("</h2>\n")
 	if e.Title != "" {
 		p.s(`<p class="subtitle">`).e(e.Title).s("</p>\n")
@@ -213,7 +211,7 @@ func entryHTML(p *page, id string, e compare.Entry, accepted []compare.Acceptanc
 }
 
 // binTableHTML writes the per-bin values in a collapsed <details> block.
-func binTableHTML(p *page, e compare.Entry) {
+func binTableHTML(p *page, e Entry) {
 	if e.Cells() {
 		cellTableHTML(p, e) // 2-D (map.go)
 		return

@@ -18,9 +18,9 @@ type jsonSummary struct {
 	Notes    []string `json:"notes,omitempty"`
 	// Accepted lists the disagreements the signing parties accepted,
 	// always present (empty when there is none).
-	Accepted    []compare.Acceptance `json:"accepted_disagreements"`
-	Teams       []jsonTeams          `json:"teams,omitempty"`
-	Observables []jsonEntry          `json:"observables"`
+	Accepted    []Acceptance `json:"accepted_disagreements"`
+	Teams       []jsonTeams  `json:"teams,omitempty"`
+	Observables []jsonEntry  `json:"observables"`
 	// Missing lists the comparisons a campaign cannot make yet; present
 	// only when there is one (the verdict is then incomplete or pending).
 	Missing []jsonMissing `json:"missing,omitempty"`
@@ -31,7 +31,7 @@ type jsonSummary struct {
 	Stamp *jsonStamp `json:"stamp,omitempty"`
 }
 
-// jsonMissing is a [compare.Missing].
+// jsonMissing is a [Missing].
 type jsonMissing struct {
 	Name    string `json:"name"`
 	Verdict string `json:"verdict"`
@@ -143,9 +143,9 @@ type jsonEntry struct {
 
 // JSONValue builds the JSON document of s as a value, for callers that
 // embed or hash it.
-func JSONValue(s *compare.Summary, st Style) any { return jsonValue(s, st.Stamp) }
+func JSONValue(s *Summary, st Style) any { return jsonValue(s, st.Stamp) }
 
-func jsonValue(s *compare.Summary, stamp *Stamp) jsonSummary {
+func jsonValue(s *Summary, stamp *Stamp) jsonSummary {
 	out := jsonSummary{Verdict: s.Verdict(), Title: s.Title, Campaign: s.Campaign, Notes: s.Notes,
 		Accepted: s.Accepted, Observables: []jsonEntry{}, Stale: s.Stale}
 	for _, m := range s.Missing {
@@ -158,7 +158,7 @@ func jsonValue(s *compare.Summary, stamp *Stamp) jsonSummary {
 		}
 	}
 	if out.Accepted == nil {
-		out.Accepted = []compare.Acceptance{}
+		out.Accepted = []Acceptance{}
 	}
 	out.Teams = jsonTeamsValue(s) // the N-team tests (three or more teams), before the pairs
 	for _, e := range s.Entries {
@@ -324,7 +324,7 @@ func appendShortDecimal(b []byte, v float64) ([]byte, bool) {
 }
 
 // JSON writes s as one indented JSON object followed by a newline.
-func JSON(w io.Writer, s *compare.Summary, st Style) error {
+func JSON(w io.Writer, s *Summary, st Style) error {
 	size := 4096
 	for _, e := range s.Entries {
 		if e.Result != nil {

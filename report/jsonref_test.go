@@ -44,7 +44,7 @@ func (j jsonEscaper) Write(p []byte) (int, error) {
 
 // jsonEncoded writes s through encoding/json, as [JSON] did before it
 // wrote the document by hand; the tests hold JSON to it.
-func jsonEncoded(w io.Writer, s *compare.Summary, st Style) error {
+func jsonEncoded(w io.Writer, s *Summary, st Style) error {
 	enc := json.NewEncoder(jsonEscaper{w})
 	enc.SetIndent("", "  ")
 	return enc.Encode(JSONValue(s, st))
@@ -61,8 +61,8 @@ func testStamp() *Stamp {
 // the fixtures, the figures' hard cases, infinite and undefined numbers,
 // zero-σ and incomparable bins, nil and empty lists, and free text with
 // every kind of character encoding/json and jsonEscaper treat specially.
-func jsonSummaries(t testing.TB) map[string]*compare.Summary {
-	out := map[string]*compare.Summary{"fixture": fixture(t), "figures": figureFixture(t), "empty": {}}
+func jsonSummaries(t testing.TB) map[string]*Summary {
+	out := map[string]*Summary{"fixture": fixture(t), "figures": figureFixture(t), "empty": {}}
 	mk := func(v, e []float64) *table.Series {
 		s := &table.Series{Column: "y", V: v, Down: e, Up: e}
 		for i := range v {
@@ -70,7 +70,7 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		}
 		return s
 	}
-	odd := &compare.Summary{Title: "odd", Accepted: []compare.Acceptance{{Reason: "nil by"}}}
+	odd := &Summary{Title: "odd", Accepted: []Acceptance{{Reason: "nil by"}}}
 	for i, c := range [][4][]float64{
 		{{1e300, 1, 1, 2}, {1e-10, 1, 0, 0}, {-1e300, 1.5, 2, 2}, {1e-10, 1, 0, 0}}, // ±Inf and NaN pulls
 		{{5, 6}, {0.5, 0.5}, {5, 6}, {0.5, 0.5}},                                    // ndf 0 with ρ = 1
@@ -81,12 +81,12 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 		if err != nil {
 			t.Fatal(err)
 		}
-		odd.Entries = append(odd.Entries, compare.Entry{Observable: fmt.Sprint("odd", i), Result: r})
+		odd.Entries = append(odd.Entries, Entry{Observable: fmt.Sprint("odd", i), Result: r})
 	}
 	out["odd"] = odd
 	state := fixture(t)
-	state.Missing = []compare.Missing{{Observable: "zenith", Verdict: compare.VerdictIncomplete, Reason: "not sealed yet by otter <&>"},
-		{Observable: "azi\u2028muth", Verdict: compare.VerdictPending, Reason: "re-sealed ]]> by heron"}}
+	state.Missing = []Missing{{Observable: "zenith", Verdict: VerdictIncomplete, Reason: "not sealed yet by otter <&>"},
+		{Observable: "azi\u2028muth", Verdict: VerdictPending, Reason: "re-sealed ]]> by heron"}}
 	state.Stale = []string{"heron: stale after a seal of zenith", "\xff: x"}
 	out["state"] = state
 	// large: longer than a page flush, with lists long enough to be
@@ -108,11 +108,11 @@ func jsonSummaries(t testing.TB) map[string]*compare.Summary {
 	if err != nil {
 		t.Fatal(err)
 	}
-	out["large"] = &compare.Summary{Entries: []compare.Entry{{Observable: "large", Result: large}}}
+	out["large"] = &Summary{Entries: []Entry{{Observable: "large", Result: large}}}
 	text := fixture(t)
 	text.Title = "ti\x1b[2Jtle <b>&amp;</b> \"q\" \\ \b\f\n\r\t\x00\x7f"
 	text.Notes = []string{"no\u202ete", "\u2028\u2029", "bad \xff\xfe utf8 \xe2\x80", "\u0085 \u061c \u200e\u200f \u2066\u2069 é 漢 😀"}
-	text.Accepted = []compare.Acceptance{{By: []string{"he\u0085ron", "x"}, Reason: "re\u2066ason\x07"}}
+	text.Accepted = []Acceptance{{By: []string{"he\u0085ron", "x"}, Reason: "re\u2066ason\x07"}}
 	text.Entries[1].Files = [2]string{"a\u202e.csv", ""}
 	r := *text.Entries[1].Result
 	r.Column, r.LabelA, r.Warnings = "co\x1blumn", "x\u200fy", []string{"w<1>"}
@@ -188,10 +188,10 @@ func FuzzJSONWriter(f *testing.F) {
 			a.Down[i], b.Down[i] = math.Abs(vals[rng.IntN(len(vals))]), math.Abs(vals[rng.IntN(len(vals))])
 		}
 		b.Lo, b.Hi, a.Up, b.Up = a.Lo, a.Hi, a.Down, b.Down
-		s := &compare.Summary{Title: title, Notes: []string{reason}, Accepted: []compare.Acceptance{{By: []string{title}, Reason: reason}}}
+		s := &Summary{Title: title, Notes: []string{reason}, Accepted: []Acceptance{{By: []string{title}, Reason: reason}}}
 		if r, err := compare.Series(a, b, compare.Options{Limits: compare.DefaultLimits}); err == nil {
 			r.LabelA = title
-			s.Entries = []compare.Entry{{Observable: title, Title: reason, Result: r}}
+			s.Entries = []Entry{{Observable: title, Title: reason, Result: r}}
 		}
 		var got, want bytes.Buffer
 		if err := JSON(&countingWriter{w: &got}, s, Style{Stamp: &Stamp{Tool: title, Inputs: []Input{{Name: reason, SHA256: title}}}}); err != nil {

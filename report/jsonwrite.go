@@ -4,8 +4,6 @@ import (
 	"runtime"
 	"strconv"
 	"unicode/utf8"
-
-	"tandem/compare"
 )
 
 // jsonWriter writes the document of [JSONValue] by hand, byte for byte as
@@ -290,8 +288,8 @@ func (j *jsonWriter) summary(s jsonSummary) {
 	j.close('}')
 }
 
-func (j *jsonWriter) acceptances(as []compare.Acceptance) {
-	list(j, as, func(a *compare.Acceptance) {
+func (j *jsonWriter) acceptances(as []Acceptance) {
+	list(j, as, func(a *Acceptance) {
 		j.open('{')
 		j.key("by")
 		j.strs(a.By)

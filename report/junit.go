@@ -58,7 +58,7 @@ type junitText struct {
 }
 
 // junitValue is the JUnit document of s.
-func junitValue(s *compare.Summary, stamp *Stamp) junitSuites {
+func junitValue(s *Summary, stamp *Stamp) junitSuites {
 	name := s.Title
 	if s.Campaign != "" {
 		name = "campaign " + s.Campaign
@@ -133,8 +133,8 @@ func junitValue(s *compare.Summary, stamp *Stamp) junitSuites {
 		}
 		for _, x := range s.Stale {
 			party, _, _ := strings.Cut(x, ":")
-			suite.Cases = append(suite.Cases, junitCase{Name: "sign-off of " + party + " (" + compare.VerdictStale + ")", Classname: "tandem.signoff",
-				Failure: &junitFailure{Message: "stale sign-off: " + x, Type: compare.VerdictStale, Text: "stale sign-off: " + x}})
+			suite.Cases = append(suite.Cases, junitCase{Name: "sign-off of " + party + " (" + VerdictStale + ")", Classname: "tandem.signoff",
+				Failure: &junitFailure{Message: "stale sign-off: " + x, Type: VerdictStale, Text: "stale sign-off: " + x}})
 		}
 		suite.Tests, suite.Failures = len(suite.Cases), len(suite.Cases)
 		out.Tests += suite.Tests
@@ -150,7 +150,7 @@ func junitValue(s *compare.Summary, stamp *Stamp) junitSuites {
 // mode the pair alone), with one test case per observable and column, named
 // "observable / column" (and its title when declared); a failing case
 // carries its failed criteria, and an accepted disagreement says so.
-func JUnit(w io.Writer, s *compare.Summary, st Style) error {
+func JUnit(w io.Writer, s *Summary, st Style) error {
 	out := junitValue(s, st.Stamp)
 	p := newPage(w, 1024+512*len(s.Entries))
 	p.s(xml.Header)

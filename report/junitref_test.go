@@ -5,13 +5,11 @@ import (
 	"encoding/xml"
 	"io"
 	"testing"
-
-	"tandem/compare"
 )
 
 // junitEncoded writes s through encoding/xml, as [JUnit] did before it
 // wrote the document by hand; the tests hold JUnit to it.
-func junitEncoded(w io.Writer, s *compare.Summary, st Style) error {
+func junitEncoded(w io.Writer, s *Summary, st Style) error {
 	if _, err := io.WriteString(w, xml.Header); err != nil {
 		return err
 	}
@@ -24,7 +22,7 @@ func junitEncoded(w io.Writer, s *compare.Summary, st Style) error {
 	return err
 }
 
-func checkJUnit(t *testing.T, name string, s *compare.Summary) {
+func checkJUnit(t *testing.T, name string, s *Summary) {
 	t.Helper()
 	for _, st := range []Style{{}, {Stamp: testStamp()}} {
 		var got, want bytes.Buffer
@@ -50,7 +48,7 @@ func TestJUnitWriterMatchesEncoding(t *testing.T) {
 	}
 	s := fixture(t)
 	s.Campaign = "a\"b'c&d<e>f\tg\nh\ri\x00j\x1bk\ufffd\xffl\U0001F600m\uffff"
-	s.Accepted = []compare.Acceptance{{By: []string{"x]]>y"}, Reason: "end ]]> and ]]]]> twice ]]>"}}
+	s.Accepted = []Acceptance{{By: []string{"x]]>y"}, Reason: "end ]]> and ]]]]> twice ]]>"}}
 	r := *s.Entries[1].Result
 	r.Column = "c]]>d & <e>"
 	s.Entries[1].Result = &r
@@ -66,7 +64,7 @@ func FuzzJUnitWriter(f *testing.F) {
 		s := fixture(t)
 		s.Campaign, s.Title = campaign, observable
 		s.Entries[0].Observable, s.Entries[1].Title = observable, reason
-		s.Accepted = []compare.Acceptance{{By: []string{campaign, reason}, Reason: reason}}
+		s.Accepted = []Acceptance{{By: []string{campaign, reason}, Reason: reason}}
 		checkJUnit(t, "fuzz", s)
 	})
 }

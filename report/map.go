@@ -69,7 +69,7 @@ func (j *jsonWriter) cells(cs []jsonCell) {
 }
 
 // binHeads are the heads of the place columns of a per-bin table.
-func binHeads(e compare.Entry) []string {
+func binHeads(e Entry) []string {
 	if e.Cells() {
 		return []string{"cell", "xlo", "xhi", "ylo", "yhi"}
 	}
@@ -77,7 +77,7 @@ func binHeads(e compare.Entry) []string {
 }
 
 // appendYEdges appends the y edges of cell i of a 2-D comparison.
-func appendYEdges(dst []string, e compare.Entry, i int) []string {
+func appendYEdges(dst []string, e Entry, i int) []string {
 	if !e.Cells() {
 		return dst
 	}
@@ -85,7 +85,7 @@ func appendYEdges(dst []string, e compare.Entry, i int) []string {
 }
 
 // yEdgesRow writes the y edges of cell i, each between pre and post.
-func yEdgesRow(p *page, e compare.Entry, i int, pre, post string) {
+func yEdgesRow(p *page, e Entry, i int, pre, post string) {
 	if !e.Cells() {
 		return
 	}
@@ -128,7 +128,7 @@ func mapRange(pulls []float64) float64 {
 }
 
 // cellFigures draws the pull map and the slices of a 2-D comparison.
-func cellFigures(w *page, id string, e compare.Entry, limit float64) {
+func cellFigures(w *page, id string, e Entry, limit float64) {
 	pullMapSVG(w, e, limit)
 	slicesSVG(w, e)
 }
@@ -136,7 +136,7 @@ func cellFigures(w *page, id string, e compare.Entry, limit float64) {
 // pullMapSVG draws each cell as a rectangle filled by its pull, with the
 // colour scale labelled on the right; cells beyond the pull limit are
 // outlined, and each cell's <title> gives its edges and pull.
-func pullMapSVG(w *page, e compare.Entry, limit float64) {
+func pullMapSVG(w *page, e Entry, limit float64) {
 	f := &frame{w: figW, h: 520, left: figLeft, right: 150, top: 44, bottom: 50}
 	f.x0, f.x1 = slices.Min(e.Lo), slices.Max(e.Hi)
 	f.y0, f.y1 = slices.Min(e.YLo), slices.Max(e.YHi)
@@ -183,7 +183,7 @@ func pullMapSVG(w *page, e compare.Entry, limit float64) {
 // band is a run of cells of equal y range.
 type band struct{ first, last int }
 
-func bands(e compare.Entry) []band {
+func bands(e Entry) []band {
 	var out []band
 	for i := 0; i < e.Bins; i++ {
 		if i > 0 && e.YLo[i] == e.YLo[i-1] && e.YHi[i] == e.YHi[i-1] {
@@ -198,7 +198,7 @@ func bands(e compare.Entry) []band {
 // slicesSVG draws the two sides' values in each y band as the 1-D
 // overlay does, at most maxSliceDraw bands: beyond, the bands holding the
 // largest |pull|, in y order, with a note.
-func slicesSVG(w *page, e compare.Entry) {
+func slicesSVG(w *page, e Entry) {
 	bs := bands(e)
 	shown := bs
 	if len(bs) > maxSliceDraw {
@@ -241,7 +241,7 @@ func slicesSVG(w *page, e compare.Entry) {
 
 // cellTableHTML is binTableHTML for the cells of a 2-D comparison: both
 // coordinates of each cell.
-func cellTableHTML(p *page, e compare.Entry) {
+func cellTableHTML(p *page, e Entry) {
 	idx, cut := rows(e.Result, Style{MaxRows: maxTableRows})
 	a, b := e.Sides()
 	p.s("<details><summary>Per-cell values: ")

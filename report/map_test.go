@@ -14,7 +14,7 @@ import (
 
 // cellsSummary compares two 2-D tables of 3 × 2 cells whose second y band
 // has its own x bins; cell 5 departs by 5σ.
-func cellsSummary(t testing.TB) *compare.Summary {
+func cellsSummary(t testing.TB) *Summary {
 	t.Helper()
 	opt := table.CSVOptions{Lo: "xlo", Hi: "xhi", YLo: "ylo", YHi: "yhi"}
 	a, err := table.ParseCSV("a.csv", []byte("xlo,xhi,ylo,yhi,v,v_err\n0,1,0,1,10,1\n1,2,0,1,11,1\n2,4,0,1,12,1\n0,2,1,3,13,1\n2,3,1,3,30,1\n3,4,1,3,15,1\n"), opt)
@@ -31,7 +31,7 @@ func cellsSummary(t testing.TB) *compare.Summary {
 	if err != nil {
 		t.Fatal(err)
 	}
-	return &compare.Summary{Title: "a vs b", Entries: []compare.Entry{{Observable: "map", Files: [2]string{"a.csv", "b.csv"}, Result: rs[0]}}}
+	return &Summary{Title: "a vs b", Entries: []Entry{{Observable: "map", Files: [2]string{"a.csv", "b.csv"}, Result: rs[0]}}}
 }
 
 func TestCellsReports(t *testing.T) {
@@ -117,7 +117,7 @@ func nanValue() float64 { var z float64; return z / z }
 // encoding/json reference) with the zero Style when it takes one: its
 // parameters differ between lines of development, and this test serves
 // both.
-func jsonReference(w io.Writer, s *compare.Summary) error {
+func jsonReference(w io.Writer, s *Summary) error {
 	f := reflect.ValueOf(jsonEncoded)
 	args := []reflect.Value{reflect.ValueOf(w), reflect.ValueOf(s)}
 	for i := len(args); i < f.Type().NumIn(); i++ {

@@ -10,7 +10,7 @@ import (
 
 // Markdown writes the verdict, a criteria table and a per-bin table for
 // each comparison, ready to paste into a meeting page or a merge request.
-func Markdown(w io.Writer, s *compare.Summary, st Style) error {
+func Markdown(w io.Writer, s *Summary, st Style) error {
 	ew := newPage(w, mdSize(s, st))
 	title := s.Title
 	if title == "" {
@@ -130,7 +130,7 @@ var mdReplacer = strings.NewReplacer("|", "\\|", "<", "&lt;", ">", "&gt;", "*", 
 func mdEscape(s string) string { return mdReplacer.Replace(s) }
 
 // mdSize is about the size of the text or Markdown report of s.
-func mdSize(s *compare.Summary, st Style) int {
+func mdSize(s *Summary, st Style) int {
 	limit := st.MaxRows
 	if limit <= 0 {
 		limit = 200

@@ -49,7 +49,7 @@ type Style struct {
 // Render writes s in the named format. Free text (names, labels, files,
 // reasons) is shown with its control characters and bidirectional
 // overrides escaped (\x1b, \u202e), in every format.
-func Render(w io.Writer, format string, s *compare.Summary, st Style) error {
+func Render(w io.Writer, format string, s *Summary, st Style) error {
 	if format != "json" {
 		s = cleanSummary(s)
 		st.Stamp = cleanStamp(st.Stamp)
@@ -191,7 +191,7 @@ func critCells(c compare.Criterion) (name, value, adjusted, limit string) {
 
 // sourcesLine lists the error sources with their correlation and share of
 // σ_d², e.g. "stat ρ = 0.6 (71 % of σ_d²), syst ρ = 1 (0 %)".
-func sourcesLine(e compare.Entry) string {
+func sourcesLine(e Entry) string {
 	var parts []string
 	for _, s := range e.Sources {
 		rho := num(s.Rho)
@@ -214,7 +214,7 @@ func sourcesLine(e compare.Entry) string {
 }
 
 // pullLimit is the largest allowed |pull| of e, 0 when there is none.
-func pullLimit(e compare.Entry) float64 {
+func pullLimit(e Entry) float64 {
 	for _, c := range e.Criteria {
 		if c.Name == compare.CritMaxPull {
 			return c.Limit
@@ -225,7 +225,7 @@ func pullLimit(e compare.Entry) float64 {
 
 // shapeLine describes the pull distribution in one sentence, with n/a for
 // what is undefined (a width needs two pulls).
-func shapeLine(e compare.Entry) string {
+func shapeLine(e Entry) string {
 	if identical(e) {
 		return "pulls: all 0, the tables are identical bin for bin (two independent chains do not give this); χ²/ndf = " + chi2NDF(e)
 	}
@@ -252,7 +252,7 @@ func shapeLine(e compare.Entry) string {
 }
 
 // identical reports whether both sides hold the same value in every bin.
-func identical(e compare.Entry) bool {
+func identical(e Entry) bool {
 	if e.Result == nil || e.NDF == 0 || len(e.A) != len(e.B) {
 		return false
 	}
@@ -266,7 +266,7 @@ func identical(e compare.Entry) bool {
 
 // chi2NDF writes χ²/ndf as "12.3/10", or "n/a (ndf 0)" when no bin
 // carries a pull.
-func chi2NDF(e compare.Entry) string {
+func chi2NDF(e Entry) string {
 	if e.NDF == 0 || math.IsNaN(e.Chi2) {
 		return "n/a (ndf " + strconv.Itoa(e.NDF) + ")"
 	}
@@ -275,7 +275,7 @@ func chi2NDF(e compare.Entry) string {
 
 // filesShown says whether a report names the input files beside the
 // sides' names: when they are known and differ from the names.
-func filesShown(e compare.Entry) bool {
+func filesShown(e Entry) bool {
 	a, b := e.Sides()
 	return (e.Files[0] != "" || e.Files[1] != "") && (a != e.Files[0] || b != e.Files[1])
 }
@@ -284,7 +284,7 @@ func filesShown(e compare.Entry) bool {
 // side's value and uncertainty, the difference, its uncertainty and the
 // pull, appended to dst. Each value is rounded where its uncertainty has
 // its second significant digit.
-func binCells(dst []string, e compare.Entry, i int) []string {
+func binCells(dst []string, e Entry, i int) []string {
 	va, ea := withError(e.A[i], e.ErrA[i])
 	vb, eb := withError(e.B[i], e.ErrB[i])
 	d, sd := withError(e.Diff[i], e.SigmaDiff[i])
@@ -296,7 +296,7 @@ func binCells(dst []string, e compare.Entry, i int) []string {
 // binRow appends the cells of [binCells] for bin i, each between pre and
 // post, without making strings of them. The cells are numbers (or n/a),
 // which need no escaping in HTML or Markdown.
-func binRow(p *page, e compare.Entry, i int, pre, post string) {
+func binRow(p *page, e Entry, i int, pre, post string) {
 	p.s(pre).d(i + 1).s(post).s(pre)
 	p.b = noNegZero(appendG6(p.b, e.Lo[i]), len(p.b))
 	p.s(post).s(pre)
@@ -401,7 +401,7 @@ func decade(x float64) int {
 	return int(math.Floor(math.Log10(x)))
 }
 
-func entryTitle(e compare.Entry) string {
+func entryTitle(e Entry) string {
 	t := e.Observable
 	if e.Column != "" && e.Column != e.Observable {
 		t += " / " + e.Column
@@ -423,7 +423,7 @@ func count(n int, one, many string) string {
 
 // headline is the overall verdict of s (one of compare.Verdict*) and a
 // sentence of what it rests on, the same in every format.
-func headline(s *compare.Summary) (verdict, why string) {
+func headline(s *Summary) (verdict, why string) {
 	verdict = s.Verdict()
 	n, k := comparisons(s), s.Failures()
 	made := func() string {
@@ -447,13 +447,13 @@ func headline(s *compare.Summary) (verdict, why string) {
 		if n == 1 {
 			why = "the 1 comparison fails"
 		}
-	case compare.VerdictIncomplete, compare.VerdictPending:
+	case VerdictIncomplete, VerdictPending:
 		var names []string
 		for _, m := range s.Missing {
 			names = append(names, m.Observable)
 		}
 		why = "comparisons of " + count(len(names), "observable", "observables") + " missing: " + strings.Join(names, ", ") + "; " + made()
-	case compare.VerdictStale:
+	case VerdictStale:
 		why = made() + ", but " + count(len(s.Stale), "sign-off is", "sign-offs are") + " stale"
 	}
 	return verdict, why
@@ -461,16 +461,16 @@ func headline(s *compare.Summary) (verdict, why string) {
 
 // Headline is the overall verdict of s and a sentence of what it rests
 // on, as the reports write them.
-func Headline(s *compare.Summary) (verdict, why string) { return headline(cleanSummary(s)) }
+func Headline(s *Summary) (verdict, why string) { return headline(cleanSummary(s)) }
 
 // missingLine is a missing comparison in words.
-func missingLine(m compare.Missing) string {
+func missingLine(m Missing) string {
 	return m.Observable + ": " + m.Verdict + ", " + m.Reason
 }
 
 // warnings lists every warning of every comparison, each after the
 // comparison's title, for the top of a report.
-func warnings(s *compare.Summary) []string {
+func warnings(s *Summary) []string {
 	var out []string
 	for _, e := range s.Entries {
 		if e.Result == nil {
@@ -488,7 +488,7 @@ func warnings(s *compare.Summary) []string {
 
 // Warnings lists every warning of s, each after its comparison's title,
 // as the reports show them on top; cmd/tandem prints them on stderr.
-func Warnings(s *compare.Summary) []string { return warnings(cleanSummary(s)) }
+func Warnings(s *Summary) []string { return warnings(cleanSummary(s)) }
 
 // verdictOf is compare.VerdictPass or compare.VerdictFail.
 func verdictOf(pass bool) string {

@@ -28,7 +28,7 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata/go
 
 // fixture builds a small deterministic summary: one agreeing and one
 // disagreeing comparison of hand-written tables.
-func fixture(t testing.TB) *compare.Summary {
+func fixture(t testing.TB) *Summary {
 	t.Helper()
 	mk := func(vals ...float64) *table.Series {
 		n := len(vals)
@@ -48,12 +48,12 @@ func fixture(t testing.TB) *compare.Summary {
 	if err != nil {
 		t.Fatal(err)
 	}
-	return &compare.Summary{
+	return &Summary{
 		Title:    "golden campaign",
 		Campaign: "golden",
 		Notes:    []string{"campaign golden is blinded"},
-		Accepted: []compare.Acceptance{{By: []string{"heron", "otter"}, Reason: "the tilt comes from a known alignment shift"}},
-		Entries: []compare.Entry{
+		Accepted: []Acceptance{{By: []string{"heron", "otter"}, Reason: "the tilt comes from a known alignment shift"}},
+		Entries: []Entry{
 			{Observable: "spectrum", Title: "Energy spectrum of through-going muons", Teams: [2]string{"heron", "otter"}, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Blinded: true, Result: good},
 			{Observable: "tilt", Teams: [2]string{"heron", "otter"}, XLabel: "cos θ", Result: bad},
 		},
@@ -72,7 +72,7 @@ func TestGolden(t *testing.T) {
 		Inputs: []Input{{Name: "tables/heron/spectrum.csv", SHA256: strings.Repeat("ab", 32)}, {Name: "tables/otter/spectrum.csv", SHA256: strings.Repeat("cd", 32)}}}}
 	incomplete := incompleteFixture(t)
 	for _, c := range []struct {
-		s                    *compare.Summary
+		s                    *Summary
 		format, file, reason string
 	}{
 		{full, "markdown", "summary.md", "paste-ready Markdown for meeting pages"},
@@ -106,12 +106,12 @@ func TestGolden(t *testing.T) {
 // incompleteFixture is the fixture of a campaign that is not complete:
 // zenith is not sealed by otter, azimuth waits for the blind step after a
 // re-seal, and heron's sign-off is stale.
-func incompleteFixture(t testing.TB) *compare.Summary {
+func incompleteFixture(t testing.TB) *Summary {
 	s := fixture(t)
 	s.Accepted = nil
-	s.Missing = []compare.Missing{
-		{Observable: "zenith", Verdict: compare.VerdictIncomplete, Reason: "not sealed yet by otter"},
-		{Observable: "azimuth", Verdict: compare.VerdictPending, Reason: "sealed by every team; the custodian has not opened it yet (tandem blind)"},
+	s.Missing = []Missing{
+		{Observable: "zenith", Verdict: VerdictIncomplete, Reason: "not sealed yet by otter"},
+		{Observable: "azimuth", Verdict: VerdictPending, Reason: "sealed by every team; the custodian has not opened it yet (tandem blind)"},
 	}
 	s.Stale = []string{"heron: stale after a seal of azimuth"}
 	return s
@@ -249,7 +249,7 @@ func TestHTMLEscapesAndNoTrueValuesWhenBlinded(t *testing.T) {
 }
 
 // blindedEntries counts the comparisons of blinded values.
-func blindedEntries(s *compare.Summary) int {
+func blindedEntries(s *Summary) int {
 	n := 0
 	for _, e := range s.Entries {
 		if e.Blinded {
@@ -394,7 +394,7 @@ const measureScript = `<script>
 // figureFixture holds the hard cases for the figures: a small agreeing
 // comparison, one with pulls far beyond any axis, a 5000-bin comparison
 // and a spectrum over five decades on log axes (invented numbers, seeded).
-func figureFixture(t testing.TB) *compare.Summary {
+func figureFixture(t testing.TB) *Summary {
 	t.Helper()
 	s := fixture(t)
 	rng := rand.New(rand.NewPCG(1, 1))
@@ -419,7 +419,7 @@ func figureFixture(t testing.TB) *compare.Summary {
 		if err != nil {
 			t.Fatal(err)
 		}
-		s.Entries = append(s.Entries, compare.Entry{Observable: name, Teams: [2]string{"heron", "otter"}, XLabel: "x", YLabel: "counts", Result: r})
+		s.Entries = append(s.Entries, Entry{Observable: name, Teams: [2]string{"heron", "otter"}, XLabel: "x", YLabel: "counts", Result: r})
 	}
 	a, b := series(24, func(i int) float64 { return float64(i) }, func(float64) float64 { return 400 }, func(i int) float64 {
 		switch i {
@@ -537,7 +537,7 @@ func section(page, name string) string {
 // reports the page size.
 func BenchmarkHTML500(b *testing.B) {
 	one := fixture(b)
-	s := &compare.Summary{Title: "large campaign"}
+	s := &Summary{Title: "large campaign"}
 	for i := 0; i < 500; i++ {
 		e := one.Entries[i%2]
 		e.Observable = fmt.Sprintf("obs%03d", i)
@@ -572,7 +572,7 @@ func TestJSONHonestInfinities(t *testing.T) {
 		t.Fatal(err)
 	}
 	var buf bytes.Buffer
-	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "o", Result: r}}}, Style{}); err != nil {
+	if err := JSON(&buf, &Summary{Entries: []Entry{{Observable: "o", Result: r}}}, Style{}); err != nil {
 		t.Fatalf("JSON with an infinite pull: %v", err)
 	}
 	out := buf.String()
@@ -634,7 +634,7 @@ func TestUndefinedSaysNA(t *testing.T) {
 	if zero.Pass || zero.NDF != 0 {
 		t.Fatalf("ndf-0 comparison: pass %v, ndf %d", zero.Pass, zero.NDF)
 	}
-	s := &compare.Summary{Entries: []compare.Entry{{Observable: "zero", Result: zero}}}
+	s := &Summary{Entries: []Entry{{Observable: "zero", Result: zero}}}
 	for _, f := range []string{"text", "markdown", "html"} {
 		var buf bytes.Buffer
 		if err := Render(&buf, f, s, Style{}); err != nil {
@@ -653,7 +653,7 @@ func TestUndefinedSaysNA(t *testing.T) {
 		}
 	}
 	var buf bytes.Buffer
-	if err := JSON(&buf, &compare.Summary{Entries: []compare.Entry{{Observable: "zero", Result: zero}, {Observable: "one", Result: one}}}, Style{}); err != nil {
+	if err := JSON(&buf, &Summary{Entries: []Entry{{Observable: "zero", Result: zero}, {Observable: "one", Result: one}}}, Style{}); err != nil {
 		t.Fatal(err)
 	}
 	var doc struct {
@@ -725,7 +725,7 @@ func TestOneBinSaysNA(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	s := &compare.Summary{Entries: []compare.Entry{{Observable: "one", Result: r}}}
+	s := &Summary{Entries: []Entry{{Observable: "one", Result: r}}}
 	for _, f := range []string{"text", "markdown", "html"} {
 		var buf bytes.Buffer
 		if err := Render(&buf, f, s, Style{}); err != nil {
@@ -880,7 +880,7 @@ func TestRenderOddInputs(t *testing.T) {
 		if err != nil {
 			t.Fatalf("%s: %v", c.name, err)
 		}
-		s := &compare.Summary{Entries: []compare.Entry{{Observable: c.name, Result: r}}}
+		s := &Summary{Entries: []Entry{{Observable: c.name, Result: r}}}
 		for _, f := range Formats {
 			var buf bytes.Buffer
 			if err := Render(&buf, f, s, Style{Color: true}); err != nil {
@@ -916,7 +916,7 @@ func BenchmarkJSON1e6(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	s := &compare.Summary{Entries: []compare.Entry{{Observable: "big", Result: r}}}
+	s := &Summary{Entries: []Entry{{Observable: "big", Result: r}}}
 	var size int
 	for b.Loop() {
 		var buf bytes.Buffer
@@ -937,7 +937,7 @@ func TestFreeTextEscaped(t *testing.T) {
 	s := fixture(t)
 	s.Title = "ti\x1b[2Jtle"
 	s.Notes = []string{"no\u202ete"}
-	s.Accepted = []compare.Acceptance{{By: []string{"he\u0085ron"}, Reason: "re\u2066ason\x07"}}
+	s.Accepted = []Acceptance{{By: []string{"he\u0085ron"}, Reason: "re\u2066ason\x07"}}
 	s.Entries[1].Files = [2]string{"a\u202e.csv", "b.csv"}
 	r := *s.Entries[1].Result
 	r.Column, r.LabelA = "co\x1blumn", "x\u200fy"

@@ -53,10 +53,10 @@ func TestFirstScreenInChromium(t *testing.T) {
 	}
 	long := [2]string{"/data/analysis/heron/reprocessing-2026-11/muon-rate/final/spectrum_heron_v3.csv", "/data/analysis/otter/reprocessing-2026-11/muon-rate/final/spectrum_otter_v3.csv"}
 	r.LabelA, r.LabelB = long[0], long[1]
-	tableMode := &compare.Summary{Title: long[0] + " vs " + long[1], Entries: []compare.Entry{{Observable: "spectrum", Files: long, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Result: r}}}
+	tableMode := &Summary{Title: long[0] + " vs " + long[1], Entries: []Entry{{Observable: "spectrum", Files: long, XLabel: "energy [GeV]", YLabel: "rate [Hz]", Result: r}}}
 	for _, c := range []struct {
 		name   string
-		s      *compare.Summary
+		s      *Summary
 		ratios int
 	}{
 		{"campaign", campaign, len(campaign.Entries) - blindedEntries(campaign)},

@@ -20,7 +20,7 @@ const teamsIntro = "the N-team test judges; the pairwise comparisons are diagnos
 // comparisons counts what the verdict judges: the N-team tests and the
 // pairwise comparisons (whose tolerances and comparable-bins checks
 // count).
-func comparisons(s *compare.Summary) int { return len(s.Entries) + len(s.Teams) }
+func comparisons(s *Summary) int { return len(s.Entries) + len(s.Teams) }
 
 // teamsTitle names one N-team test, e.g. "rate / flux (3 teams)".
 func teamsTitle(t *compare.TeamsResult) string {
@@ -83,7 +83,7 @@ func looRows(t *compare.TeamsResult) [][]string {
 }
 
 // teamsText writes the N-team section of the text report.
-func teamsText(ew *page, s *compare.Summary, st Style) {
+func teamsText(ew *page, s *Summary, st Style) {
 	if len(s.Teams) == 0 {
 		return
 	}
@@ -137,7 +137,7 @@ func teamsText(ew *page, s *compare.Summary, st Style) {
 }
 
 // teamsMarkdown writes the N-team section of the Markdown report.
-func teamsMarkdown(ew *page, s *compare.Summary) {
+func teamsMarkdown(ew *page, s *Summary) {
 	if len(s.Teams) == 0 {
 		return
 	}
@@ -235,7 +235,7 @@ type jsonTeamBins struct {
 
 // jsonTeamsValue builds the "teams" list; nil when there is no N-team
 // test (the key is then left out).
-func jsonTeamsValue(s *compare.Summary) []jsonTeams {
+func jsonTeamsValue(s *Summary) []jsonTeams {
 	var out []jsonTeams
 	for _, t := range s.Teams {
 		jt := jsonTeams{Name: t.Observable, Column: t.Column, Teams: t.Teams, Files: t.Files, Bins: len(t.Lo),
@@ -372,7 +372,7 @@ func (j *jsonWriter) teams(ts []jsonTeams) {
 }
 
 // junitTeams adds one suite holding a test case per N-team test.
-func junitTeams(out *junitSuites, s *compare.Summary) {
+func junitTeams(out *junitSuites, s *Summary) {
 	if len(s.Teams) == 0 {
 		return
 	}

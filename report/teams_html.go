@@ -19,7 +19,7 @@ const teamShapes = 4
 // column its verdict, the departing team, one overlay of every team's
 // values with their combination, every team's leave-one-out pulls, the
 // criteria and the leave-one-out table.
-func teamsHTML(p *page, s *compare.Summary) {
+func teamsHTML(p *page, s *Summary) {
 	if len(s.Teams) == 0 {
 		return
 	}

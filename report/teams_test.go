@@ -20,7 +20,7 @@ import (
 // teamsFixture is a summary of three teams where team "kite" sits 1.5σ
 // above the others in every bin, with one label that needs escaping
 // when asked.
-func teamsFixture(t testing.TB, odd string) *compare.Summary {
+func teamsFixture(t testing.TB, odd string) *Summary {
 	t.Helper()
 	labels := []string{"heron", "otter", "kite"}
 	if odd != "" {
@@ -52,9 +52,9 @@ func teamsFixture(t testing.TB, odd string) *compare.Summary {
 	if err != nil {
 		t.Fatal(err)
 	}
-	s := &compare.Summary{Title: strings.Join(labels, " vs "), Teams: tc.Results}
+	s := &Summary{Title: strings.Join(labels, " vs "), Teams: tc.Results}
 	for _, p := range tc.Pairs {
-		s.Entries = append(s.Entries, compare.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]},
+		s.Entries = append(s.Entries, Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]},
 			Files: [2]string{tabs[p.I].Source, tabs[p.J].Source}, Result: p.Result})
 	}
 	return s
@@ -63,7 +63,7 @@ func teamsFixture(t testing.TB, odd string) *compare.Summary {
 // teamsEncoded is the "teams" member of the JSON document as
 // encoding/json writes it (indented as in the document, behind a
 // [jsonEscaper]).
-func teamsEncoded(t testing.TB, s *compare.Summary) string {
+func teamsEncoded(t testing.TB, s *Summary) string {
 	t.Helper()
 	b, err := json.MarshalIndent(jsonTeamsValue(s), "  ", "  ")
 	if err != nil {

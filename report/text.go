@@ -55,7 +55,7 @@ func textVerdict(st Style, v string, big bool) string {
 // disagreement, the warnings, one line per comparison, then for each
 // comparison its criteria (in a fixed order), warnings and a per-bin
 // table, and the stamp last.
-func Text(w io.Writer, s *compare.Summary, st Style) error {
+func Text(w io.Writer, s *Summary, st Style) error {
 	ew := newPage(w, mdSize(s, st))
 	v, why := headline(s)
 	ew.s("verdict: ").s(textVerdict(st, v, true)).s(" (").s(why).s(")\n")
@@ -208,7 +208,7 @@ func visibleWidth(s string) int {
 	return n
 }
 
-func passPull(e compare.Entry, i int) bool {
+func passPull(e Entry, i int) bool {
 	for _, c := range e.Criteria {
 		if c.Name == compare.CritMaxPull {
 			return math.Abs(e.Pulls[i]) <= c.Limit
@@ -218,8 +218,8 @@ func passPull(e compare.Entry, i int) bool {
 }
 
 // ordered returns the entries with failing ones first, otherwise in order.
-func ordered(s *compare.Summary) []compare.Entry {
-	out := make([]compare.Entry, 0, len(s.Entries))
+func ordered(s *Summary) []Entry {
+	out := make([]Entry, 0, len(s.Entries))
 	for _, e := range s.Entries {
 		if !e.Pass {
 			out = append(out, e)

@@ -14,6 +14,7 @@ import (
 	"tandem/blind/protocol"
 	"tandem/compare"
 	"tandem/compare/table"
+	"tandem/report"
 )
 
 // Pending is an observable without every team's comparable table.
@@ -25,7 +26,7 @@ type Pending struct {
 // Comparison is the campaign's comparison on its blinded (common-map)
 // tables, computed once per command.
 type Comparison struct {
-	Summary *compare.Summary
+	Summary *report.Summary
 	// Incomplete lists the observables that cannot be compared yet.
 	Incomplete []Pending
 	// Tables maps each compared slot to the blinded table compared.
@@ -44,7 +45,7 @@ func (c *Campaign) Compare() (*Comparison, error) {
 	}
 	st := c.State()
 	teams := c.Protocol.Teams()
-	cmp := &Comparison{Summary: &compare.Summary{Title: "campaign " + c.Protocol.Campaign, Campaign: c.Protocol.Campaign}, Tables: map[Slot]*Published{}}
+	cmp := &Comparison{Summary: &report.Summary{Title: "campaign " + c.Protocol.Campaign, Campaign: c.Protocol.Campaign}, Tables: map[Slot]*Published{}}
 	for oi := range c.Protocol.Observables {
 		o := &c.Protocol.Observables[oi]
 		os := st.Observables[o.Name]
@@ -99,7 +100,7 @@ func (c *Campaign) pendingReason(os *ObservableState) string {
 // tables a counts column shows the pulls of the blinded tables and is
 // judged by the count tests logged at the opening (logged, keyed by
 // column, team A, team B); true tables are compared as counts directly.
-func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tables map[string]*table.Table, blinded bool, logged map[[3]string]*format.CountsBlock, alpha float64) error {
+func addEntries(s *report.Summary, o *protocol.Observable, teams []string, tables map[string]*table.Table, blinded bool, logged map[[3]string]*format.CountsBlock, alpha float64) error {
 	for i := 0; i < len(teams); i++ {
 		for j := i + 1; j < len(teams); j++ {
 			a, b := tables[teams[i]], tables[teams[j]]
@@ -131,7 +132,7 @@ func addEntries(s *compare.Summary, o *protocol.Observable, teams []string, tabl
 					rs[0].Warnings = []string{"counts: the exact tests ran on the true counts when the comparison opened (the custodian logged them); the p-values are rounded up to 1, 2 or 5 × 10^k; no pulls are shown before unblinding, since a counts column publishes no uncertainty"}
 					rs[0].JudgeCounts(countsStats(lb), col.CompareOptions(alpha))
 				}
-				s.Entries = append(s.Entries, compare.Entry{
+				s.Entries = append(s.Entries, report.Entry{
 					Observable: o.Name, Title: o.Title, Teams: [2]string{teams[i], teams[j]},
 					XLabel: o.XLabel, YLabel: o.YLabel, Blinded: blinded, Result: rs[0],
 				})
@@ -206,11 +207,11 @@ func ComparisonDigest(protocolDigest string, cmp *Comparison) string {
 }
 
 // CompareUnblinded compares the true tables written by unblind.
-func (c *Campaign) CompareUnblinded() (*compare.Summary, error) {
+func (c *Campaign) CompareUnblinded() (*report.Summary, error) {
 	if !c.Unblinded() {
 		return nil, refuse("compare", ProblemState, "the campaign is not unblinded yet; only blinded tables can be compared")
 	}
-	s := &compare.Summary{Title: "campaign " + c.Protocol.Campaign + ": final (true values)", Campaign: c.Protocol.Campaign}
+	s := &report.Summary{Title: "campaign " + c.Protocol.Campaign + ": final (true values)", Campaign: c.Protocol.Campaign}
 	teams := c.Protocol.Teams()
 	for oi := range c.Protocol.Observables {
 		o := &c.Protocol.Observables[oi]
@@ -244,7 +245,7 @@ func (c *Campaign) CompareUnblinded() (*compare.Summary, error) {
 // adjustFamily holds the family-wise alpha across every observable,
 // column and team pair of the campaign (Holm's method, see
 // [compare.AdjustFamily]).
-func adjustFamily(s *compare.Summary, alpha float64) error {
+func adjustFamily(s *report.Summary, alpha float64) error {
 	rs := make([]*compare.Result, len(s.Entries))
 	for i := range s.Entries {
 		rs[i] = s.Entries[i].Result

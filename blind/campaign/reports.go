@@ -8,7 +8,6 @@ import (
 	"sync"
 
 	"tandem/blind/internal/format"
-	"tandem/compare"
 	"tandem/report"
 )
 
@@ -74,9 +73,9 @@ func (c *Campaign) Notes(cmp *Comparison) []string {
 }
 
 // Accepted lists the disagreements the valid sign-offs accept, for
-// [compare.Summary.Accepted].
-func (c *Campaign) Accepted() []compare.Acceptance {
-	var out []compare.Acceptance
+// [report.Summary.Accepted].
+func (c *Campaign) Accepted() []report.Acceptance {
+	var out []report.Acceptance
 	idx := map[string]int{}
 	for _, s := range c.Signoffs() {
 		if !s.Valid {
@@ -88,7 +87,7 @@ func (c *Campaign) Accepted() []compare.Acceptance {
 				continue
 			}
 			idx[r] = len(out)
-			out = append(out, compare.Acceptance{By: []string{s.Party}, Reason: r})
+			out = append(out, report.Acceptance{By: []string{s.Party}, Reason: r})
 		}
 	}
 	return out
@@ -112,7 +111,7 @@ func acceptedTexts(lines []string) []string {
 // top, for reports. An observable that cannot be compared yet is missing
 // from it, as incomplete (a team has not sealed it) or pending (sealed,
 // waiting for the blind step); a present sign-off that is stale is listed.
-func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
+func (c *Campaign) BlindedSummary() (*report.Summary, *Comparison, error) {
 	cmp, err := c.Compare()
 	if err != nil {
 		return nil, nil, err
@@ -123,11 +122,11 @@ func (c *Campaign) BlindedSummary() (*compare.Summary, *Comparison, error) {
 	st := c.State()
 	teams := c.Protocol.Teams()
 	for _, p := range cmp.Incomplete {
-		v := compare.VerdictIncomplete
+		v := report.VerdictIncomplete
 		if os := st.Observables[p.Observable]; os != nil && os.Sealed(teams) {
-			v = compare.VerdictPending
+			v = report.VerdictPending
 		}
-		s.Missing = append(s.Missing, compare.Missing{Observable: p.Observable, Verdict: v, Reason: p.Reason})
+		s.Missing = append(s.Missing, report.Missing{Observable: p.Observable, Verdict: v, Reason: p.Reason})
 	}
 	for _, so := range c.Signoffs() {
 		if so.Present && so.Stale {
@@ -166,7 +165,7 @@ func (c *Campaign) ReportInputs(final bool) []report.Input {
 }
 
 // FinalSummary is the comparison of the true tables, with the notes.
-func (c *Campaign) FinalSummary() (*compare.Summary, error) {
+func (c *Campaign) FinalSummary() (*report.Summary, error) {
 	s, err := c.CompareUnblinded()
 	if err != nil {
 		return nil, err
@@ -190,7 +189,7 @@ func ReportPath(stem, format string) string {
 // once, on all cores (the renderers only read s), then written; a format
 // that fails to render writes nothing, and a failed write leaves the
 // others written.
-func (c *Campaign) WriteReports(s *compare.Summary, formats []string, stem string) ([]string, error) {
+func (c *Campaign) WriteReports(s *report.Summary, formats []string, stem string) ([]string, error) {
 	stamp := report.NewStamp(c.ReportInputs(stem == "final")...)
 	bufs := make([]bytes.Buffer, len(formats))
 	errs := make([]error, len(formats))

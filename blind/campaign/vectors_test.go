@@ -43,6 +43,7 @@ import (
 	"tandem/blind/protocol"
 	"tandem/compare"
 	"tandem/compare/table"
+	"tandem/report"
 )
 
 var updateVectors = flag.Bool("update", false, "regenerate testdata/vectors from fixed seeds")
@@ -842,12 +843,12 @@ func keyFileVectors(k *blind.Key) []*vector {
 // incomplete, for the comparison-digest known answer.
 func katComparison() *Comparison {
 	h := func(s string) string { return hex.EncodeToString(sum(s)) }
-	cmp := &Comparison{Summary: &compare.Summary{}, Tables: map[Slot]*Published{
+	cmp := &Comparison{Summary: &report.Summary{}, Tables: map[Slot]*Published{
 		{"team-a", "flux"}: {Digest: h("b1")}, {"team-b", "flux"}: {Digest: h("b2")}, {"team-c", "flux"}: {Digest: h("b3")},
 	}, Verdict: Incomplete, Incomplete: []Pending{{Observable: "ratio", Reason: "not sealed yet"}}}
 	for _, p := range [][2]string{{"team-a", "team-b"}, {"team-a", "team-c"}, {"team-b", "team-c"}} {
 		for _, col := range []string{"value", "width"} {
-			cmp.Summary.Entries = append(cmp.Summary.Entries, compare.Entry{Observable: "flux", Teams: p,
+			cmp.Summary.Entries = append(cmp.Summary.Entries, report.Entry{Observable: "flux", Teams: p,
 				Result: &compare.Result{Column: col, Pass: !(p[1] == "team-c" && col == "width")}})
 		}
 	}

@@ -398,7 +398,7 @@ func runCompare(e *env, args []string) error {
 	if name == "" {
 		name = strings.TrimSuffix(filepath.Base(a.Source), filepath.Ext(a.Source))
 	}
-	s := &compare.Summary{Title: fmt.Sprintf("%s vs %s", a.Source, b.Source)}
+	s := &report.Summary{Title: fmt.Sprintf("%s vs %s", a.Source, b.Source)}
 	for _, r := range results {
 		if labels[0] != "" {
 			r.LabelA = labels[0]
@@ -406,7 +406,7 @@ func runCompare(e *env, args []string) error {
 		if labels[1] != "" {
 			r.LabelB = labels[1]
 		}
-		s.Entries = append(s.Entries, compare.Entry{Observable: name, Files: [2]string{a.Source, b.Source}, Result: r, XLabel: cf.xLabel, YLabel: cf.yLabel})
+		s.Entries = append(s.Entries, report.Entry{Observable: name, Files: [2]string{a.Source, b.Source}, Result: r, XLabel: cf.xLabel, YLabel: cf.yLabel})
 	}
 	if labels[0] != "" || labels[1] != "" {
 		s.Title = fmt.Sprintf("%s vs %s", results[0].LabelA, results[0].LabelB)
@@ -627,16 +627,16 @@ func compareTeams(e *env, cf *compareFlags, ts []*table.Table, labels []string) 
 		}
 		return inputErr(err)
 	}
-	s := &compare.Summary{Title: strings.Join(labels, " vs "), Teams: tc.Results}
+	s := &report.Summary{Title: strings.Join(labels, " vs "), Teams: tc.Results}
 	for _, p := range tc.Pairs {
-		s.Entries = append(s.Entries, compare.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]}, Files: [2]string{ts[p.I].Source, ts[p.J].Source}, Result: p.Result, XLabel: cf.xLabel, YLabel: cf.yLabel})
+		s.Entries = append(s.Entries, report.Entry{Observable: p.Observable, Teams: [2]string{labels[p.I], labels[p.J]}, Files: [2]string{ts[p.I].Source, ts[p.J].Source}, Result: p.Result, XLabel: cf.xLabel, YLabel: cf.yLabel})
 	}
 	return cf.emitSummary(e, s)
 }
 
 // emitSummary writes the report of a table-mode comparison, under the
 // --title if one was given, and fails when the comparison does.
-func (cf *compareFlags) emitSummary(e *env, s *compare.Summary) error {
+func (cf *compareFlags) emitSummary(e *env, s *report.Summary) error {
 	if cf.title != "" {
 		s.Title = cf.title
 	}

@@ -10,7 +10,6 @@ import (
 	"strings"
 	"sync"
 
-	"tandem/compare"
 	"tandem/compare/table"
 	"tandem/report"
 	"tandem/report/outfile"
@@ -18,7 +17,7 @@ import (
 
 // notComplete is exit status 1 with the verdict in words when the
 // campaign is not complete, nil otherwise.
-func notComplete(s *compare.Summary) error {
+func notComplete(s *report.Summary) error {
 	if s.Complete() {
 		return nil
 	}
@@ -32,13 +31,13 @@ func notComplete(s *compare.Summary) error {
 // emit writes the report of s in format to path (stdout when empty),
 // stamped with the digests of the tables it compares, and prints every
 // warning of the comparisons on stderr.
-func emit(e *env, s *compare.Summary, format, path string) error {
+func emit(e *env, s *report.Summary, format, path string) error {
 	return emitStamped(e, s, format, path, nil)
 }
 
 // emitStamped is emit with a given stamp; nil stamps the report with the
 // files of its entries (table mode).
-func emitStamped(e *env, s *compare.Summary, format, path string, stamp *report.Stamp) error {
+func emitStamped(e *env, s *report.Summary, format, path string, stamp *report.Stamp) error {
 	var wg sync.WaitGroup
 	if stamp == nil {
 		stamp = report.NewStamp()
@@ -72,14 +71,14 @@ func emitStamped(e *env, s *compare.Summary, format, path string, stamp *report.
 // printWarnings prints every warning of the comparisons of s on stderr:
 // the reports show them too, but a report written with -o is not read in
 // CI logs.
-func printWarnings(e *env, s *compare.Summary) {
+func printWarnings(e *env, s *report.Summary) {
 	for _, w := range report.Warnings(s) {
 		e.warnf("%s", w)
 	}
 }
 
 // tableFiles are the distinct files the entries of s compare, in order.
-func tableFiles(s *compare.Summary) []string {
+func tableFiles(s *report.Summary) []string {
 	var out []string
 	for _, en := range s.Entries {
 		for _, f := range en.Files {
@@ -131,7 +130,7 @@ func hashFile(name string) string {
 }
 
 // staleParties names the parties whose sign-offs are stale.
-func staleParties(s *compare.Summary) []string {
+func staleParties(s *report.Summary) []string {
 	var out []string
 	for _, x := range s.Stale {
 		p, _, _ := strings.Cut(x, ":")

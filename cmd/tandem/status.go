@@ -10,7 +10,6 @@ import (
 	"strings"
 
 	"tandem/blind/campaign"
-	"tandem/compare"
 	"tandem/report"
 )
 
@@ -312,7 +311,7 @@ func runReport(e *env, args []string) error {
 		return err
 	}
 	final := c.Unblinded()
-	var s *compare.Summary
+	var s *report.Summary
 	if final {
 		s, err = c.FinalSummary()
 	} else {

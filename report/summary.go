@@ -1,6 +1,6 @@
-package compare
+package report
 
-import "tandem/compare/table"
+import "tandem/compare"
 
 // Entry is the comparison of one column of one observable between two
 // chains.
@@ -21,7 +21,7 @@ type Entry struct {
 	// Files names the two tables compared (A, B), as the reader gave them;
 	// empty when not known.
 	Files [2]string
-	*Result
+	*compare.Result
 }
 
 // Acceptance is a disagreement the parties accepted when signing off.
@@ -37,9 +37,9 @@ type Acceptance struct {
 // its overall verdict cannot be pass or fail yet.
 const (
 	// VerdictPass: every comparison was made and is within tolerance.
-	VerdictPass = "pass"
+	VerdictPass = compare.VerdictPass
 	// VerdictFail: a comparison is outside tolerance.
-	VerdictFail = "fail"
+	VerdictFail = compare.VerdictFail
 	// VerdictIncomplete: an observable has not been sealed by every team,
 	// so its comparisons are missing.
 	VerdictIncomplete = "incomplete"
@@ -68,7 +68,7 @@ type Summary struct {
 	Entries []Entry
 	// Teams holds the N-team consistency tests when three or more tables
 	// are compared; Entries then hold the pairwise diagnostics.
-	Teams []*TeamsResult
+	Teams []*compare.TeamsResult
 	// Title describes what was compared, for reports.
 	Title string
 	// Campaign names the campaign the comparisons belong to; empty in table
@@ -146,13 +146,6 @@ func (s *Summary) Failures() int {
 	return n
 }
 
-func verdict(ok bool) string {
-	if ok {
-		return VerdictPass
-	}
-	return VerdictFail
-}
-
 // Sides returns the names of the two chains compared: the team names in a
 // campaign, else the result's labels (--label-a, --label-b, by default the
 // file names), else "A" and "B".
@@ -171,17 +164,9 @@ func (e *Entry) Sides() (string, string) {
 }
 
 // Verdict is "pass" or "fail" for one entry.
-func (e *Entry) Verdict() string { return verdict(e.Pass) }
-
-// Tables compares the selected columns of two tables, after checking that
-// their bins agree within the relative edge tolerance edgeTol. It is
-// [Columns] with opt.EdgeTol set to edgeTol: each uncertainty column is its
-// own error source (so 1e-200 errors keep their pulls), and the results are
-// adjusted together as one family at opt.Alpha.
-func Tables(a, b *table.Table, sels []Selection, edgeTol float64, opt Options) ([]*Result, error) {
-	opt.EdgeTol = edgeTol
-	return Columns(a, b, sels, opt)
+func (e *Entry) Verdict() string {
+	if e.Pass {
+		return VerdictPass
+	}
+	return VerdictFail
 }
-
-// Selection is re-exported so callers of Tables need not import table.
-type Selection = table.Selection

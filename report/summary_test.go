@@ -1,13 +1,16 @@
-package compare
+package report
 
-import "testing"
+import (
+	"tandem/compare"
+	"testing"
+)
 
 // TestSummaryVerdict: a summary's verdict never says more than it knows.
 // A missing seal (incomplete) outranks a seal waiting for the blind step
 // (pending), which outranks a failing comparison; a stale sign-off shows
 // only when everything made passes.
 func TestSummaryVerdict(t *testing.T) {
-	pass, fail := Entry{Result: &Result{Pass: true}}, Entry{Result: &Result{Pass: false}}
+	pass, fail := Entry{Result: &compare.Result{Pass: true}}, Entry{Result: &compare.Result{Pass: false}}
 	inc := Missing{Observable: "z", Verdict: VerdictIncomplete}
 	pend := Missing{Observable: "a", Verdict: VerdictPending}
 	for _, c := range []struct {
